@@ -1,0 +1,240 @@
+//! Evaluation in f64: a direct recursive evaluator and a flat tape for repeated evaluation.
+
+use crate::dag::{Dag, ExprId, Func, Node};
+use crate::number::to_f64;
+use std::collections::HashMap;
+
+/// Applies a formula function to f64 arguments (the same semantics everywhere in lawsmith).
+pub fn apply(f: Func, a: &[f64]) -> f64 {
+    match f {
+        Func::Sin => a[0].sin(),
+        Func::Cos => a[0].cos(),
+        Func::Tan => a[0].tan(),
+        Func::Asin => a[0].asin(),
+        Func::Acos => a[0].acos(),
+        Func::Atan => a[0].atan(),
+        Func::Atan2 => a[0].atan2(a[1]),
+        Func::Sqrt => a[0].sqrt(),
+        Func::Exp => a[0].exp(),
+        Func::Ln => a[0].ln(),
+        Func::Abs => a[0].abs(),
+        Func::Min => a[0].min(a[1]),
+        Func::Max => a[0].max(a[1]),
+        Func::Clamp => a[0].max(a[1]).min(a[2]),
+    }
+}
+
+/// `a^b` with an exact small-integer fast path (so `x^2` is `x*x` bit for bit).
+pub fn pow(a: f64, b: f64) -> f64 {
+    if b == b.trunc() && b.abs() <= 64.0 {
+        a.powi(b as i32)
+    } else {
+        a.powf(b)
+    }
+}
+
+/// Evaluates `root` with symbol values from `env`. Errors name the first unbound symbol.
+pub fn eval(dag: &Dag, root: ExprId, env: &HashMap<String, f64>) -> Result<f64, String> {
+    let mut memo: HashMap<ExprId, f64> = HashMap::new();
+    eval_rec(dag, root, env, &mut memo)
+}
+
+fn eval_rec(
+    dag: &Dag,
+    id: ExprId,
+    env: &HashMap<String, f64>,
+    memo: &mut HashMap<ExprId, f64>,
+) -> Result<f64, String> {
+    if let Some(&v) = memo.get(&id) {
+        return Ok(v);
+    }
+    let v = match dag.node(id) {
+        Node::Num(v) => to_f64(v),
+        Node::Sym(s) => *env
+            .get(&**s)
+            .ok_or_else(|| format!("no value for symbol `{s}`"))?,
+        Node::Neg(a) => -eval_rec(dag, *a, env, memo)?,
+        Node::Add(xs) => {
+            let mut acc = 0.0;
+            for (i, &x) in xs.iter().enumerate() {
+                let v = eval_rec(dag, x, env, memo)?;
+                acc = if i == 0 { v } else { acc + v };
+            }
+            acc
+        }
+        Node::Mul(xs) => {
+            let mut acc = 1.0;
+            for (i, &x) in xs.iter().enumerate() {
+                let v = eval_rec(dag, x, env, memo)?;
+                acc = if i == 0 { v } else { acc * v };
+            }
+            acc
+        }
+        Node::Div(a, b) => eval_rec(dag, *a, env, memo)? / eval_rec(dag, *b, env, memo)?,
+        Node::Pow(a, b) => pow(eval_rec(dag, *a, env, memo)?, eval_rec(dag, *b, env, memo)?),
+        Node::Call(f, xs) => {
+            let mut args = [0.0; 3];
+            for (slot, &x) in args.iter_mut().zip(xs.iter()) {
+                *slot = eval_rec(dag, x, env, memo)?;
+            }
+            apply(*f, &args[..xs.len()])
+        }
+    };
+    memo.insert(id, v);
+    Ok(v)
+}
+
+#[derive(Clone, Debug)]
+enum Op {
+    Const(f64),
+    Var(usize),
+    Neg(u32),
+    Add(u32, u32),
+    Mul(u32, u32),
+    Div(u32, u32),
+    Pow(u32, u32),
+    Call(Func, [u32; 3]),
+}
+
+/// A compiled, flat form of one or more expressions: each instruction writes one slot, in an
+/// order where operands come first. Evaluating it does no hashing and no allocation.
+#[derive(Clone, Debug)]
+pub struct Tape {
+    ops: Vec<Op>,
+    outputs: Vec<u32>,
+    vars: Vec<String>,
+}
+
+impl Tape {
+    /// Compiles `roots` over the given variable order. Errors name a symbol missing from `vars`.
+    pub fn compile(dag: &Dag, roots: &[ExprId], vars: &[&str]) -> Result<Tape, String> {
+        let var_index: HashMap<&str, usize> =
+            vars.iter().enumerate().map(|(i, v)| (*v, i)).collect();
+        let mut slot: HashMap<ExprId, u32> = HashMap::new();
+        let mut ops = Vec::new();
+        let mut outputs = Vec::new();
+        for &root in roots {
+            // iterative post-order so deep DAGs do not recurse
+            let mut stack = vec![(root, false)];
+            while let Some((id, expanded)) = stack.pop() {
+                if slot.contains_key(&id) {
+                    continue;
+                }
+                let node = dag.node(id);
+                if !expanded {
+                    stack.push((id, true));
+                    for c in node.children_vec().into_iter().rev() {
+                        if !slot.contains_key(&c) {
+                            stack.push((c, false));
+                        }
+                    }
+                    continue;
+                }
+                let s = |c: &ExprId| slot[c];
+                let emit_chain = |ops: &mut Vec<Op>, xs: &[ExprId], mul: bool| -> u32 {
+                    let mut acc = s(&xs[0]);
+                    for x in &xs[1..] {
+                        ops.push(if mul {
+                            Op::Mul(acc, s(x))
+                        } else {
+                            Op::Add(acc, s(x))
+                        });
+                        acc = (ops.len() - 1) as u32;
+                    }
+                    acc
+                };
+                let out = match node {
+                    Node::Num(v) => {
+                        ops.push(Op::Const(to_f64(v)));
+                        (ops.len() - 1) as u32
+                    }
+                    Node::Sym(name) => {
+                        let i = *var_index
+                            .get(&**name)
+                            .ok_or_else(|| format!("no variable slot for symbol `{name}`"))?;
+                        ops.push(Op::Var(i));
+                        (ops.len() - 1) as u32
+                    }
+                    Node::Neg(a) => {
+                        ops.push(Op::Neg(s(a)));
+                        (ops.len() - 1) as u32
+                    }
+                    Node::Add(xs) => emit_chain(&mut ops, xs, false),
+                    Node::Mul(xs) => emit_chain(&mut ops, xs, true),
+                    Node::Div(a, b) => {
+                        ops.push(Op::Div(s(a), s(b)));
+                        (ops.len() - 1) as u32
+                    }
+                    Node::Pow(a, b) => {
+                        ops.push(Op::Pow(s(a), s(b)));
+                        (ops.len() - 1) as u32
+                    }
+                    Node::Call(f, xs) => {
+                        let mut args = [0u32; 3];
+                        for (k, x) in xs.iter().enumerate() {
+                            args[k] = s(x);
+                        }
+                        ops.push(Op::Call(*f, args));
+                        (ops.len() - 1) as u32
+                    }
+                };
+                slot.insert(id, out);
+            }
+            outputs.push(slot[&root]);
+        }
+        Ok(Tape {
+            ops,
+            outputs,
+            vars: vars.iter().map(|s| s.to_string()).collect(),
+        })
+    }
+
+    /// The variable order the tape expects.
+    pub fn vars(&self) -> &[String] {
+        &self.vars
+    }
+
+    /// Number of instructions.
+    pub fn len(&self) -> usize {
+        self.ops.len()
+    }
+
+    /// True when the tape has no instruction.
+    pub fn is_empty(&self) -> bool {
+        self.ops.is_empty()
+    }
+
+    /// Evaluates every root; `scratch` is reused between calls; results go to `out`.
+    pub fn eval_into(&self, vars: &[f64], scratch: &mut Vec<f64>, out: &mut [f64]) {
+        scratch.clear();
+        scratch.reserve(self.ops.len());
+        for op in &self.ops {
+            let r = |i: &u32| scratch[*i as usize];
+            let v = match op {
+                Op::Const(c) => *c,
+                Op::Var(i) => vars[*i],
+                Op::Neg(a) => -r(a),
+                Op::Add(a, b) => r(a) + r(b),
+                Op::Mul(a, b) => r(a) * r(b),
+                Op::Div(a, b) => r(a) / r(b),
+                Op::Pow(a, b) => pow(r(a), r(b)),
+                Op::Call(f, args) => {
+                    let a = [r(&args[0]), r(&args[1]), r(&args[2])];
+                    apply(*f, &a[..f.arity()])
+                }
+            };
+            scratch.push(v);
+        }
+        for (o, &i) in out.iter_mut().zip(&self.outputs) {
+            *o = scratch[i as usize];
+        }
+    }
+
+    /// Evaluates the first root.
+    pub fn eval(&self, vars: &[f64]) -> f64 {
+        let mut scratch = Vec::new();
+        let mut out = [0.0];
+        self.eval_into(vars, &mut scratch, &mut out);
+        out[0]
+    }
+}

@@ -1,0 +1,466 @@
+//! Exact simplification to a canonical form.
+//!
+//! Every expression is turned into a rational function `num/den` of *atoms* (symbols and
+//! non-polynomial subexpressions such as `asin(…)`, `sqrt(…)`, `x^y`, whose own arguments are
+//! canonical first), with exact rational coefficients: products are expanded, like terms
+//! collected, and common polynomial factors of numerator and denominator cancelled by a true
+//! multivariate gcd. The result is normalised so the denominator's leading coefficient is 1
+//! under an order on atoms that depends only on their printed text, never on the order in which
+//! they were met, and rebuilt into the DAG with terms in that order. Hence two expressions equal
+//! as rational functions of their atoms simplify to the same id.
+
+use crate::dag::{Dag, ExprId, Func, Node};
+use crate::poly::{gcd, lex_cmp, Mono, Poly, Var};
+use crate::print::to_text;
+use crate::rules::{CompiledRules, CondKind, Condition, Oracle};
+use num_bigint::BigInt;
+use num_rational::BigRational;
+use num_traits::{One, Signed, ToPrimitive, Zero};
+use std::cmp::Ordering;
+use std::collections::HashMap;
+
+/// Largest integer power of a sum that is expanded; a larger one stays an atom so that a
+/// formula like `(a + b)^1000` cannot explode the term count.
+pub const MAX_EXPANDED_POWER: u32 = 64;
+
+#[derive(Clone, Debug)]
+struct Rat {
+    num: Poly,
+    den: Poly,
+}
+
+impl Rat {
+    fn poly(p: Poly) -> Rat {
+        Rat {
+            num: p,
+            den: Poly::one(),
+        }
+    }
+}
+
+/// Simplifies expressions into canonical form; reuse one instance for several expressions of
+/// the same DAG so atoms and results are shared.
+pub struct Simplifier<'o> {
+    oracle: &'o mut dyn Oracle,
+    rules: CompiledRules,
+    atoms: Vec<(ExprId, String)>,
+    atom_index: HashMap<ExprId, Var>,
+    memo: HashMap<ExprId, Rat>,
+    out_memo: HashMap<ExprId, ExprId>,
+}
+
+/// Simplifies one expression.
+pub fn simplify(dag: &mut Dag, e: ExprId, oracle: &mut dyn Oracle) -> ExprId {
+    Simplifier::new(dag, oracle).simplify(dag, e)
+}
+
+impl<'o> Simplifier<'o> {
+    /// A simplifier whose side conditions are answered by `oracle`.
+    pub fn new(dag: &mut Dag, oracle: &'o mut dyn Oracle) -> Simplifier<'o> {
+        Simplifier {
+            oracle,
+            rules: CompiledRules::new(dag),
+            atoms: Vec::new(),
+            atom_index: HashMap::new(),
+            memo: HashMap::new(),
+            out_memo: HashMap::new(),
+        }
+    }
+
+    /// The canonical form of `e`.
+    pub fn simplify(&mut self, dag: &mut Dag, e: ExprId) -> ExprId {
+        if let Some(&r) = self.out_memo.get(&e) {
+            return r;
+        }
+        let rat = self.to_rat(dag, e);
+        let out = self.rat_expr(dag, &rat);
+        self.out_memo.insert(e, out);
+        self.out_memo.insert(out, out);
+        out
+    }
+
+    fn atom(&mut self, dag: &Dag, e: ExprId) -> Rat {
+        let v = match self.atom_index.get(&e) {
+            Some(&v) => v,
+            None => {
+                let v = self.atoms.len() as Var;
+                self.atoms.push((e, to_text(dag, e)));
+                self.atom_index.insert(e, v);
+                v
+            }
+        };
+        Rat::poly(Poly::var(v))
+    }
+
+    fn constant(c: BigRational) -> Rat {
+        Rat::poly(Poly::constant(c))
+    }
+
+    fn to_rat(&mut self, dag: &mut Dag, e: ExprId) -> Rat {
+        if let Some(r) = self.memo.get(&e) {
+            return r.clone();
+        }
+        let node = dag.node(e).clone();
+        let r = match node {
+            Node::Num(c) => Self::constant(c),
+            Node::Sym(_) => self.atom(dag, e),
+            Node::Neg(a) => {
+                let a = self.to_rat(dag, a);
+                Rat {
+                    num: a.num.neg(),
+                    den: a.den,
+                }
+            }
+            Node::Add(xs) => {
+                let mut acc = Self::constant(BigRational::zero());
+                for x in xs.iter() {
+                    let r = self.to_rat(dag, *x);
+                    acc = self.add(dag, &acc, &r);
+                }
+                acc
+            }
+            Node::Mul(xs) => {
+                let mut acc = Self::constant(BigRational::one());
+                for x in xs.iter() {
+                    let r = self.to_rat(dag, *x);
+                    acc = self.mul(dag, &acc, &r);
+                }
+                acc
+            }
+            Node::Div(a, b) => {
+                let ra = self.to_rat(dag, a);
+                let rb = self.to_rat(dag, b);
+                match self.inv(&rb) {
+                    Some(inv) => self.mul(dag, &ra, &inv),
+                    None => {
+                        // division by an exact zero: keep it visible as an atom
+                        let ca = self.rat_expr(dag, &ra);
+                        let zero = dag.int(0);
+                        let d = dag.insert(Node::Div(ca, zero));
+                        self.atom(dag, d)
+                    }
+                }
+            }
+            Node::Pow(a, b) => self.power(dag, a, b),
+            Node::Call(f, xs) => self.call(dag, f, &xs),
+        };
+        self.memo.insert(e, r.clone());
+        r
+    }
+
+    fn power(&mut self, dag: &mut Dag, a: ExprId, b: ExprId) -> Rat {
+        let rb = self.to_rat(dag, b);
+        let ra = self.to_rat(dag, a);
+        let exp = rb.num.as_constant().filter(|_| rb.den.is_one());
+        if let Some(k) = &exp {
+            if k.is_integer() {
+                if let Some(n) = k.to_integer().to_i64() {
+                    let single_term = ra.num.0.len() <= 1 && ra.den.0.len() <= 1;
+                    if n.unsigned_abs() <= u64::from(MAX_EXPANDED_POWER) || single_term {
+                        if let Some(n32) = u32::try_from(n.unsigned_abs()).ok() {
+                            let p = Rat {
+                                num: ra.num.pow(n32),
+                                den: ra.den.pow(n32),
+                            };
+                            let p = if n < 0 { self.inv(&p) } else { Some(p) };
+                            if let Some(p) = p {
+                                return self.reduce(dag, p);
+                            }
+                        }
+                    }
+                }
+            }
+            if *k == BigRational::new(1.into(), 2.into()) {
+                let ca = self.rat_expr(dag, &ra);
+                return self.call_canonical(dag, Func::Sqrt, vec![ca]);
+            }
+        }
+        let ca = self.rat_expr(dag, &ra);
+        let cb = self.rat_expr(dag, &rb);
+        let p = dag.pow(ca, cb);
+        self.atom(dag, p)
+    }
+
+    fn call(&mut self, dag: &mut Dag, f: Func, xs: &[ExprId]) -> Rat {
+        let args: Vec<ExprId> = xs.iter().map(|&x| self.simplify(dag, x)).collect();
+        self.call_canonical(dag, f, args)
+    }
+
+    fn call_canonical(&mut self, dag: &mut Dag, f: Func, args: Vec<ExprId>) -> Rat {
+        if let Some(c) = fold_constant_call(dag, f, &args) {
+            return Self::constant(c);
+        }
+        let e = dag.call(f, args);
+        if let Some(r) = self.rules.rewrite(dag, e, self.oracle) {
+            return self.to_rat(dag, r);
+        }
+        self.atom(dag, e)
+    }
+
+    fn add(&mut self, dag: &mut Dag, a: &Rat, b: &Rat) -> Rat {
+        if a.num.is_zero() {
+            return b.clone();
+        }
+        if b.num.is_zero() {
+            return a.clone();
+        }
+        if a.den == b.den {
+            let r = Rat {
+                num: a.num.add(&b.num),
+                den: a.den.clone(),
+            };
+            return self.reduce(dag, r);
+        }
+        let r = Rat {
+            num: a.num.mul(&b.den).add(&b.num.mul(&a.den)),
+            den: a.den.mul(&b.den),
+        };
+        self.reduce(dag, r)
+    }
+
+    fn mul(&mut self, dag: &mut Dag, a: &Rat, b: &Rat) -> Rat {
+        if a.num.is_zero() || b.num.is_zero() {
+            return Self::constant(BigRational::zero());
+        }
+        let r = Rat {
+            num: a.num.mul(&b.num),
+            den: a.den.mul(&b.den),
+        };
+        let r = self.reduce(dag, r);
+        self.reduce_radicals(dag, r)
+    }
+
+    fn inv(&self, a: &Rat) -> Option<Rat> {
+        if a.num.is_zero() {
+            return None;
+        }
+        Some(Rat {
+            num: a.den.clone(),
+            den: a.num.clone(),
+        })
+    }
+
+    /// Cancels the gcd of numerator and denominator (if the oracle allows) and normalises the
+    /// denominator's leading coefficient to 1.
+    fn reduce(&mut self, dag: &mut Dag, r: Rat) -> Rat {
+        if r.num.is_zero() {
+            return Self::constant(BigRational::zero());
+        }
+        if let Some(c) = r.den.as_constant() {
+            if c.is_one() {
+                return r;
+            }
+            return Rat::poly(r.num.scale(&(BigRational::one() / c)));
+        }
+        let mut r = r;
+        let g = gcd(&r.num, &r.den);
+        if g.as_constant().is_none() {
+            let g_expr = self.poly_expr(dag, &g);
+            let cond = Condition {
+                kind: CondKind::NonZero,
+                expr: g_expr,
+            };
+            if self.oracle.allows(dag, "cancel-common-factor", cond) {
+                r = Rat {
+                    num: r.num.div_exact(&g).expect("gcd divides"),
+                    den: r.den.div_exact(&g).expect("gcd divides"),
+                };
+            }
+        }
+        if let Some(c) = r.den.as_constant() {
+            return Rat::poly(r.num.scale(&(BigRational::one() / c)));
+        }
+        let lead = self.out_lead(&r.den);
+        Rat {
+            num: r.num.scale(&(BigRational::one() / &lead)),
+            den: r.den.scale(&(BigRational::one() / &lead)),
+        }
+    }
+
+    /// Replaces `sqrt(u)^2` by `u` and `abs(u)^2` by `u^2` inside monomials.
+    fn reduce_radicals(&mut self, dag: &mut Dag, r: Rat) -> Rat {
+        let has = |p: &Poly, atoms: &[(ExprId, String)]| {
+            p.0.keys().any(|m| {
+                m.0.iter().any(|&(v, e)| {
+                    e >= 2
+                        && matches!(
+                            dag.node(atoms[v as usize].0),
+                            Node::Call(Func::Sqrt | Func::Abs, _)
+                        )
+                })
+            })
+        };
+        if !has(&r.num, &self.atoms) && !has(&r.den, &self.atoms) {
+            return r;
+        }
+        let num = self.expand_radicals(dag, &r.num);
+        let den = self.expand_radicals(dag, &r.den);
+        match self.inv(&den) {
+            Some(inv) => {
+                let prod = Rat {
+                    num: num.num.mul(&inv.num),
+                    den: num.den.mul(&inv.den),
+                };
+                self.reduce(dag, prod)
+            }
+            None => r,
+        }
+    }
+
+    fn expand_radicals(&mut self, dag: &mut Dag, p: &Poly) -> Rat {
+        let mut acc = Self::constant(BigRational::zero());
+        for (m, c) in &p.0 {
+            let mut term = Rat::poly(Poly::constant(c.clone()));
+            for &(v, e) in &m.0 {
+                let atom = self.atoms[v as usize].0;
+                let (pairs, rest) = (e / 2, e % 2);
+                let inner = match dag.node(atom) {
+                    Node::Call(Func::Sqrt, args) if pairs > 0 => {
+                        let u = args[0];
+                        let cond = Condition {
+                            kind: CondKind::NonNegative,
+                            expr: u,
+                        };
+                        if self.oracle.allows(dag, "square-of-sqrt", cond) {
+                            Some(self.to_rat(dag, u))
+                        } else {
+                            None
+                        }
+                    }
+                    Node::Call(Func::Abs, args) if pairs > 0 => {
+                        let u = self.to_rat(dag, args[0]);
+                        Some(Rat {
+                            num: u.num.pow(2),
+                            den: u.den.pow(2),
+                        })
+                    }
+                    _ => None,
+                };
+                let factor = match inner {
+                    Some(u) => {
+                        let mut f = Rat {
+                            num: u
+                                .num
+                                .pow(pairs)
+                                .mul(&Poly::term(Mono::var(v, rest), BigRational::one())),
+                            den: u.den.pow(pairs),
+                        };
+                        f = self.reduce(dag, f);
+                        f
+                    }
+                    None => Rat::poly(Poly::term(Mono::var(v, e), BigRational::one())),
+                };
+                term = Rat {
+                    num: term.num.mul(&factor.num),
+                    den: term.den.mul(&factor.den),
+                };
+            }
+            acc = self.add(dag, &acc, &term);
+        }
+        acc
+    }
+
+    fn key_cmp(&self, a: &Mono, b: &Mono) -> Ordering {
+        // graded: higher total degree first, then lexicographic by atom text
+        a.degree().cmp(&b.degree()).then_with(|| {
+            let ka = self.keyed(a);
+            let kb = self.keyed(b);
+            lex_cmp(&ka, &kb)
+        })
+    }
+
+    fn keyed<'s>(&'s self, m: &Mono) -> Vec<(&'s str, u32)> {
+        let mut k: Vec<(&str, u32)> =
+            m.0.iter()
+                .map(|&(v, e)| (self.atoms[v as usize].1.as_str(), e))
+                .collect();
+        k.sort();
+        k
+    }
+
+    fn out_lead(&self, p: &Poly) -> BigRational {
+        p.0.iter()
+            .max_by(|(a, _), (b, _)| self.key_cmp(a, b))
+            .map(|(_, c)| c.clone())
+            .unwrap_or_else(BigRational::one)
+    }
+
+    fn poly_expr(&self, dag: &mut Dag, p: &Poly) -> ExprId {
+        let mut terms: Vec<(&Mono, &BigRational)> = p.0.iter().collect();
+        terms.sort_by(|(a, _), (b, _)| self.key_cmp(b, a));
+        let exprs = terms
+            .into_iter()
+            .map(|(m, c)| self.term_expr(dag, m, c))
+            .collect();
+        dag.add(exprs)
+    }
+
+    fn term_expr(&self, dag: &mut Dag, m: &Mono, c: &BigRational) -> ExprId {
+        let mut factors: Vec<(&str, ExprId, u32)> =
+            m.0.iter()
+                .map(|&(v, e)| {
+                    let (id, key) = &self.atoms[v as usize];
+                    (key.as_str(), *id, e)
+                })
+                .collect();
+        factors.sort_by(|a, b| a.0.cmp(b.0));
+        let mut ids: Vec<ExprId> = factors
+            .into_iter()
+            .map(|(_, id, e)| if e == 1 { id } else { dag.powi(id, e.into()) })
+            .collect();
+        if ids.is_empty() {
+            return dag.num(c.clone());
+        }
+        let magnitude = c.abs();
+        if !magnitude.is_one() {
+            ids.insert(0, dag.num(magnitude));
+        }
+        let prod = dag.mul(ids);
+        if c.is_negative() {
+            dag.neg(prod)
+        } else {
+            prod
+        }
+    }
+
+    fn rat_expr(&self, dag: &mut Dag, r: &Rat) -> ExprId {
+        let num = self.poly_expr(dag, &r.num);
+        if r.den.is_one() {
+            return num;
+        }
+        let den = self.poly_expr(dag, &r.den);
+        dag.div(num, den)
+    }
+}
+
+fn small_sqrt(n: &BigInt) -> Option<BigInt> {
+    if n.is_negative() {
+        return None;
+    }
+    let r = n.sqrt();
+    (&r * &r == *n).then_some(r)
+}
+
+/// Exact values of functions at exact arguments, where the value is rational.
+fn fold_constant_call(dag: &Dag, f: Func, args: &[ExprId]) -> Option<BigRational> {
+    let vals: Vec<&BigRational> = args.iter().map(|&a| dag.as_num(a)).collect::<Option<_>>()?;
+    let zero = BigRational::zero();
+    let one = BigRational::one();
+    match f {
+        Func::Abs => Some(vals[0].abs()),
+        Func::Min => Some(vals[0].min(vals[1]).clone()),
+        Func::Max => Some(vals[0].max(vals[1]).clone()),
+        Func::Clamp => Some(vals[0].max(vals[1]).min(vals[2]).clone()),
+        Func::Sqrt => {
+            let v = vals[0];
+            Some(BigRational::new(
+                small_sqrt(v.numer())?,
+                small_sqrt(v.denom())?,
+            ))
+        }
+        Func::Sin | Func::Tan | Func::Asin | Func::Atan if vals[0].is_zero() => Some(zero),
+        Func::Cos | Func::Exp if vals[0].is_zero() => Some(one),
+        Func::Ln if vals[0].is_one() => Some(zero),
+        _ => None,
+    }
+}
