@@ -372,42 +372,63 @@ impl Poly {
     }
 }
 
-/// Greatest common divisor, normalised to leading coefficient 1 (variable-index order).
-pub(crate) fn gcd(a: &Poly, b: &Poly) -> Poly {
+/// Work allowance for one gcd, counted in coefficient operations. Pseudo-remainder sequences
+/// can blow up on large dense inputs; when the allowance runs out the gcd gives up and the
+/// caller simply does not cancel (still exact, only less reduced). Two hundred thousand operations is a
+/// few milliseconds: far more than any law needs, small enough to never hang.
+pub(crate) const GCD_BUDGET: u64 = 200_000;
+
+/// Greatest common divisor, normalised to leading coefficient 1 (variable-index order), or
+/// `None` when the work allowance ran out.
+pub(crate) fn gcd(a: &Poly, b: &Poly) -> Option<Poly> {
+    let mut budget = GCD_BUDGET;
+    gcd_in(a, b, &mut budget)
+}
+
+fn spend(budget: &mut u64, work: usize) -> Option<()> {
+    *budget = budget.checked_sub(work as u64 + 1)?;
+    Some(())
+}
+
+fn gcd_in(a: &Poly, b: &Poly, budget: &mut u64) -> Option<Poly> {
+    spend(budget, a.0.len() + b.0.len())?;
     if a.is_zero() {
-        return b.monic();
+        return Some(b.monic());
     }
     if b.is_zero() {
-        return a.monic();
+        return Some(a.monic());
     }
     if a.as_constant().is_some() || b.as_constant().is_some() {
-        return Poly::one();
+        return Some(Poly::one());
     }
     if let Some((m, _)) = a.single_term() {
-        return mono_gcd_with(m, b);
+        return Some(mono_gcd_with(m, b));
     }
     if let Some((m, _)) = b.single_term() {
-        return mono_gcd_with(m, a);
+        return Some(mono_gcd_with(m, a));
+    }
+    if a == b {
+        return Some(a.monic());
     }
     let x = match (a.first_var(), b.first_var()) {
         (Some(p), Some(q)) => p.min(q),
-        _ => return Poly::one(),
+        _ => return Some(Poly::one()),
     };
     let (da, db) = (a.degree_in(x), b.degree_in(x));
     if da == 0 {
-        return gcd(a, &content_in(b, x));
+        return gcd_in(a, &content_in(b, x, budget)?, budget);
     }
     if db == 0 {
-        return gcd(&content_in(a, x), b);
+        return gcd_in(&content_in(a, x, budget)?, b, budget);
     }
-    let ca = content_in(a, x);
-    let cb = content_in(b, x);
-    let c = gcd(&ca, &cb);
+    let ca = content_in(a, x, budget)?;
+    let cb = content_in(b, x, budget)?;
+    let c = gcd_in(&ca, &cb, budget)?;
     let pa = a.div_exact(&ca).expect("content divides");
     let pb = b.div_exact(&cb).expect("content divides");
     let (mut f, mut g) = if da >= db { (pa, pb) } else { (pb, pa) };
     loop {
-        let r = prem(&f, &g, x);
+        let r = prem(&f, &g, x, budget)?;
         if r.is_zero() {
             break;
         }
@@ -416,9 +437,9 @@ pub(crate) fn gcd(a: &Poly, b: &Poly) -> Poly {
             break;
         }
         f = g;
-        g = primitive_in(&r, x);
+        g = primitive_in(&r, x, budget)?;
     }
-    c.mul(&primitive_in(&g, x)).monic()
+    Some(c.mul(&primitive_in(&g, x, budget)?).monic())
 }
 
 fn mono_gcd_with(m: &Mono, p: &Poly) -> Poly {
@@ -433,24 +454,24 @@ fn mono_gcd_with(m: &Mono, p: &Poly) -> Poly {
 }
 
 /// The gcd of the coefficients of `p` seen as a polynomial in `x`.
-fn content_in(p: &Poly, x: Var) -> Poly {
+fn content_in(p: &Poly, x: Var, budget: &mut u64) -> Option<Poly> {
     let mut g = Poly::zero();
     for c in p.coeffs_in(x).into_values() {
-        g = gcd(&g, &c);
+        g = gcd_in(&g, &c, budget)?;
         if g.is_one() {
             break;
         }
     }
-    g
+    Some(g)
 }
 
-fn primitive_in(p: &Poly, x: Var) -> Poly {
-    let c = content_in(p, x);
-    p.div_exact(&c).expect("content divides").primitive_over_z()
+fn primitive_in(p: &Poly, x: Var, budget: &mut u64) -> Option<Poly> {
+    let c = content_in(p, x, budget)?;
+    Some(p.div_exact(&c).expect("content divides").primitive_over_z())
 }
 
 /// Pseudo-remainder of `f` by `g` in `x`.
-fn prem(f: &Poly, g: &Poly, x: Var) -> Poly {
+fn prem(f: &Poly, g: &Poly, x: Var, budget: &mut u64) -> Option<Poly> {
     let n = g.degree_in(x);
     let lc_g = g.coeff_in(x, n);
     let lc_const = lc_g.as_constant();
@@ -461,6 +482,10 @@ fn prem(f: &Poly, g: &Poly, x: Var) -> Poly {
             break;
         }
         let lc_r = r.coeff_in(x, m);
+        spend(
+            budget,
+            (lc_r.0.len() + lc_g.0.len()) * (r.0.len() + g.0.len()),
+        )?;
         let shift = Mono::var(x, m - n);
         r = match &lc_const {
             Some(c) => {
@@ -471,7 +496,7 @@ fn prem(f: &Poly, g: &Poly, x: Var) -> Poly {
         };
         r = r.primitive_over_z();
     }
-    r
+    Some(r)
 }
 
 fn mul_shift(p: &Poly, m: &Mono) -> Poly {
@@ -501,11 +526,11 @@ mod tests {
         let a = p(&[(1, &[(0, 1)]), (1, &[(1, 1)])]);
         let b = p(&[(1, &[(0, 1)]), (-1, &[(2, 1)])]);
         let c = p(&[(1, &[(1, 1)]), (2, &[])]);
-        let g = gcd(&a.mul(&b), &a.mul(&c));
+        let g = gcd(&a.mul(&b), &a.mul(&c)).unwrap();
         assert_eq!(g, a.monic());
-        let g2 = gcd(&a.mul(&a).mul(&b), &a.mul(&b).mul(&c));
+        let g2 = gcd(&a.mul(&a).mul(&b), &a.mul(&b).mul(&c)).unwrap();
         assert_eq!(g2, a.mul(&b).monic());
-        assert!(gcd(&b, &c).is_one());
+        assert!(gcd(&b, &c).unwrap().is_one());
     }
 
     #[test]

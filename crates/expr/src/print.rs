@@ -144,11 +144,7 @@ fn latex_name(name: &str) -> String {
     };
     match name.split_once('_') {
         Some((head, tail)) if !head.is_empty() && !tail.is_empty() => {
-            format!(
-                "{}_{{{}}}",
-                word(head),
-                word(tail).replace("\\mathrm", "\\mathrm")
-            )
+            format!("{}_{{{}}}", word(head), word(tail))
         }
         _ => word(name),
     }

@@ -72,7 +72,7 @@ impl<'o> Simplifier<'o> {
         if let Some(&r) = self.out_memo.get(&e) {
             return r;
         }
-        let rat = self.to_rat(dag, e);
+        let rat = self.rat_of(dag, e);
         let out = self.rat_expr(dag, &rat);
         self.out_memo.insert(e, out);
         self.out_memo.insert(out, out);
@@ -96,7 +96,7 @@ impl<'o> Simplifier<'o> {
         Rat::poly(Poly::constant(c))
     }
 
-    fn to_rat(&mut self, dag: &mut Dag, e: ExprId) -> Rat {
+    fn rat_of(&mut self, dag: &mut Dag, e: ExprId) -> Rat {
         if let Some(r) = self.memo.get(&e) {
             return r.clone();
         }
@@ -105,7 +105,7 @@ impl<'o> Simplifier<'o> {
             Node::Num(c) => Self::constant(c),
             Node::Sym(_) => self.atom(dag, e),
             Node::Neg(a) => {
-                let a = self.to_rat(dag, a);
+                let a = self.rat_of(dag, a);
                 Rat {
                     num: a.num.neg(),
                     den: a.den,
@@ -114,7 +114,7 @@ impl<'o> Simplifier<'o> {
             Node::Add(xs) => {
                 let mut acc = Self::constant(BigRational::zero());
                 for x in xs.iter() {
-                    let r = self.to_rat(dag, *x);
+                    let r = self.rat_of(dag, *x);
                     acc = self.add(dag, &acc, &r);
                 }
                 acc
@@ -122,14 +122,14 @@ impl<'o> Simplifier<'o> {
             Node::Mul(xs) => {
                 let mut acc = Self::constant(BigRational::one());
                 for x in xs.iter() {
-                    let r = self.to_rat(dag, *x);
+                    let r = self.rat_of(dag, *x);
                     acc = self.mul(dag, &acc, &r);
                 }
                 acc
             }
             Node::Div(a, b) => {
-                let ra = self.to_rat(dag, a);
-                let rb = self.to_rat(dag, b);
+                let ra = self.rat_of(dag, a);
+                let rb = self.rat_of(dag, b);
                 match self.inv(&rb) {
                     Some(inv) => self.mul(dag, &ra, &inv),
                     None => {
@@ -149,22 +149,23 @@ impl<'o> Simplifier<'o> {
     }
 
     fn power(&mut self, dag: &mut Dag, a: ExprId, b: ExprId) -> Rat {
-        let rb = self.to_rat(dag, b);
-        let ra = self.to_rat(dag, a);
+        let rb = self.rat_of(dag, b);
+        let ra = self.rat_of(dag, a);
         let exp = rb.num.as_constant().filter(|_| rb.den.is_one());
         if let Some(k) = &exp {
             if k.is_integer() {
                 if let Some(n) = k.to_integer().to_i64() {
                     let single_term = ra.num.0.len() <= 1 && ra.den.0.len() <= 1;
                     if n.unsigned_abs() <= u64::from(MAX_EXPANDED_POWER) || single_term {
-                        if let Some(n32) = u32::try_from(n.unsigned_abs()).ok() {
+                        if let Ok(n32) = u32::try_from(n.unsigned_abs()) {
                             let p = Rat {
                                 num: ra.num.pow(n32),
                                 den: ra.den.pow(n32),
                             };
                             let p = if n < 0 { self.inv(&p) } else { Some(p) };
                             if let Some(p) = p {
-                                return self.reduce(dag, p);
+                                let p = self.normalise(p);
+                                return self.reduce_radicals(dag, p);
                             }
                         }
                     }
@@ -192,11 +193,13 @@ impl<'o> Simplifier<'o> {
         }
         let e = dag.call(f, args);
         if let Some(r) = self.rules.rewrite(dag, e, self.oracle) {
-            return self.to_rat(dag, r);
+            return self.rat_of(dag, r);
         }
         self.atom(dag, e)
     }
 
+    /// Sum by Henrici's method: only the gcd of the denominators and a gcd with it are needed,
+    /// because the operands are already reduced.
     fn add(&mut self, dag: &mut Dag, a: &Rat, b: &Rat) -> Rat {
         if a.num.is_zero() {
             return b.clone();
@@ -205,44 +208,90 @@ impl<'o> Simplifier<'o> {
             return a.clone();
         }
         if a.den == b.den {
-            let r = Rat {
-                num: a.num.add(&b.num),
-                den: a.den.clone(),
-            };
-            return self.reduce(dag, r);
+            let num = a.num.add(&b.num);
+            return self.cancel_with(dag, num, a.den.clone(), &a.den.clone());
         }
-        let r = Rat {
-            num: a.num.mul(&b.den).add(&b.num.mul(&a.den)),
-            den: a.den.mul(&b.den),
-        };
-        self.reduce(dag, r)
+        match gcd(&a.den, &b.den) {
+            Some(g) if g.as_constant().is_some() => {
+                let num = a.num.mul(&b.den).add(&b.num.mul(&a.den));
+                self.normalise(Rat {
+                    num,
+                    den: a.den.mul(&b.den),
+                })
+            }
+            Some(g) => {
+                let bd = a.den.div_exact(&g).expect("gcd divides");
+                let dd = b.den.div_exact(&g).expect("gcd divides");
+                let num = a.num.mul(&dd).add(&b.num.mul(&bd));
+                let den = bd.mul(&b.den);
+                self.cancel_with(dag, num, den, &g)
+            }
+            None => {
+                let num = a.num.mul(&b.den).add(&b.num.mul(&a.den));
+                self.normalise(Rat {
+                    num,
+                    den: a.den.mul(&b.den),
+                })
+            }
+        }
     }
 
+    /// Product by Henrici's method: cancel across, `gcd(a, d)` and `gcd(c, b)`.
     fn mul(&mut self, dag: &mut Dag, a: &Rat, b: &Rat) -> Rat {
         if a.num.is_zero() || b.num.is_zero() {
             return Self::constant(BigRational::zero());
         }
-        let r = Rat {
-            num: a.num.mul(&b.num),
-            den: a.den.mul(&b.den),
-        };
-        let r = self.reduce(dag, r);
+        let (an, bd) = self.cancel_pair(dag, &a.num, &b.den);
+        let (bn, ad) = self.cancel_pair(dag, &b.num, &a.den);
+        let r = self.normalise(Rat {
+            num: an.mul(&bn),
+            den: ad.mul(&bd),
+        });
         self.reduce_radicals(dag, r)
     }
 
-    fn inv(&self, a: &Rat) -> Option<Rat> {
-        if a.num.is_zero() {
-            return None;
+    /// Divides `p` and `q` by their gcd when the oracle allows.
+    fn cancel_pair(&mut self, dag: &mut Dag, p: &Poly, q: &Poly) -> (Poly, Poly) {
+        if q.as_constant().is_some() {
+            return (p.clone(), q.clone());
         }
-        Some(Rat {
-            num: a.den.clone(),
-            den: a.num.clone(),
-        })
+        match gcd(p, q) {
+            Some(g) if g.as_constant().is_none() && self.may_cancel(dag, &g) => (
+                p.div_exact(&g).expect("gcd divides"),
+                q.div_exact(&g).expect("gcd divides"),
+            ),
+            _ => (p.clone(), q.clone()),
+        }
     }
 
-    /// Cancels the gcd of numerator and denominator (if the oracle allows) and normalises the
-    /// denominator's leading coefficient to 1.
-    fn reduce(&mut self, dag: &mut Dag, r: Rat) -> Rat {
+    /// `num/den`, cancelling `gcd(num, g)` where `g` divides `den` and holds every factor the
+    /// two may share.
+    fn cancel_with(&mut self, dag: &mut Dag, num: Poly, den: Poly, g: &Poly) -> Rat {
+        if num.is_zero() {
+            return Self::constant(BigRational::zero());
+        }
+        let (num, den) = match gcd(&num, g) {
+            Some(h) if h.as_constant().is_none() && self.may_cancel(dag, &h) => (
+                num.div_exact(&h).expect("gcd divides"),
+                den.div_exact(&h).expect("gcd divides"),
+            ),
+            _ => (num, den),
+        };
+        self.normalise(Rat { num, den })
+    }
+
+    fn may_cancel(&mut self, dag: &mut Dag, g: &Poly) -> bool {
+        let g_expr = self.poly_expr(dag, g);
+        let cond = Condition {
+            kind: CondKind::NonZero,
+            expr: g_expr,
+        };
+        self.oracle.allows(dag, "cancel-common-factor", cond)
+    }
+
+    /// Scales numerator and denominator so the denominator's leading coefficient (in the
+    /// text-keyed order) is 1; a constant denominator is folded into the numerator.
+    fn normalise(&self, r: Rat) -> Rat {
         if r.num.is_zero() {
             return Self::constant(BigRational::zero());
         }
@@ -252,29 +301,27 @@ impl<'o> Simplifier<'o> {
             }
             return Rat::poly(r.num.scale(&(BigRational::one() / c)));
         }
-        let mut r = r;
-        let g = gcd(&r.num, &r.den);
-        if g.as_constant().is_none() {
-            let g_expr = self.poly_expr(dag, &g);
-            let cond = Condition {
-                kind: CondKind::NonZero,
-                expr: g_expr,
-            };
-            if self.oracle.allows(dag, "cancel-common-factor", cond) {
-                r = Rat {
-                    num: r.num.div_exact(&g).expect("gcd divides"),
-                    den: r.den.div_exact(&g).expect("gcd divides"),
-                };
-            }
-        }
-        if let Some(c) = r.den.as_constant() {
-            return Rat::poly(r.num.scale(&(BigRational::one() / c)));
-        }
-        let lead = self.out_lead(&r.den);
+        let lead = BigRational::one() / self.out_lead(&r.den);
         Rat {
-            num: r.num.scale(&(BigRational::one() / &lead)),
-            den: r.den.scale(&(BigRational::one() / &lead)),
+            num: r.num.scale(&lead),
+            den: r.den.scale(&lead),
         }
+    }
+
+    fn inv(&self, a: &Rat) -> Option<Rat> {
+        if a.num.is_zero() {
+            return None;
+        }
+        Some(self.normalise(Rat {
+            num: a.den.clone(),
+            den: a.num.clone(),
+        }))
+    }
+
+    /// Cancels the full gcd of numerator and denominator (if the oracle allows) and normalises.
+    fn reduce(&mut self, dag: &mut Dag, r: Rat) -> Rat {
+        let den = r.den.clone();
+        self.cancel_with(dag, r.num, r.den, &den)
     }
 
     /// Replaces `sqrt(u)^2` by `u` and `abs(u)^2` by `u^2` inside monomials.
@@ -322,13 +369,13 @@ impl<'o> Simplifier<'o> {
                             expr: u,
                         };
                         if self.oracle.allows(dag, "square-of-sqrt", cond) {
-                            Some(self.to_rat(dag, u))
+                            Some(self.rat_of(dag, u))
                         } else {
                             None
                         }
                     }
                     Node::Call(Func::Abs, args) if pairs > 0 => {
-                        let u = self.to_rat(dag, args[0]);
+                        let u = self.rat_of(dag, args[0]);
                         Some(Rat {
                             num: u.num.pow(2),
                             den: u.den.pow(2),
