@@ -53,13 +53,15 @@ pub use simplify::{simplify, Simplifier, MAX_EXPANDED_POWER};
 pub use num_rational::BigRational;
 
 /// The candidate closest to `name` by edit distance, if it is close enough to be a plausible
-/// typo (at most a third of the name's length, and at least one edit allowed).
+/// typo: at most a third of the name's length (at least one edit), or one name a prefix of the
+/// other (`sec` for `s`).
 pub fn nearest<'a>(name: &str, candidates: impl IntoIterator<Item = &'a str>) -> Option<&'a str> {
     let limit = (name.chars().count() / 3).max(1);
     candidates
         .into_iter()
+        .filter(|c| !c.is_empty() && *c != name)
         .map(|c| (edit_distance(name, c), c))
-        .filter(|&(d, _)| d <= limit)
+        .filter(|&(d, c)| d <= limit || name.starts_with(c) || c.starts_with(name))
         .min()
         .map(|(_, c)| c)
 }

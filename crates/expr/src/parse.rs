@@ -277,15 +277,7 @@ impl<'a> Parser<'a> {
             self.bump()?;
             let t = self.product()?;
             span = span.join(t.span);
-            terms.push(if c == '-' {
-                let s = op_span.join(t.span);
-                Ast {
-                    kind: AstKind::Neg(Box::new(t)),
-                    span: s,
-                }
-            } else {
-                t
-            });
+            terms.push(if c == '-' { negate_term(t, op_span) } else { t });
         }
         Ok(if terms.len() == 1 {
             terms.pop().expect("one term")
@@ -422,6 +414,33 @@ impl<'a> Parser<'a> {
                 describe(&other)
             ))),
         }
+    }
+}
+
+/// `a - b*c` is stored as `a + (-b)*c`: subtracting a product negates its first factor, which
+/// is also how canonical forms write negative terms, so they print as `a - b*c`.
+fn negate_term(t: Ast, op_span: Span) -> Ast {
+    let span = op_span.join(t.span);
+    match t.kind {
+        AstKind::Mul(mut xs) => {
+            let first = xs.remove(0);
+            let fspan = op_span.join(first.span);
+            xs.insert(
+                0,
+                Ast {
+                    kind: AstKind::Neg(Box::new(first)),
+                    span: fspan,
+                },
+            );
+            Ast {
+                kind: AstKind::Mul(xs),
+                span,
+            }
+        }
+        kind => Ast {
+            kind: AstKind::Neg(Box::new(Ast { kind, span: t.span })),
+            span,
+        },
     }
 }
 

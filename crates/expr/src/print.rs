@@ -34,6 +34,15 @@ fn prec(dag: &Dag, id: ExprId) -> u8 {
     }
 }
 
+/// True for a factor printed with a leading minus (`-x`, `-3`).
+fn negative_lead(dag: &Dag, id: ExprId) -> bool {
+    match dag.node(id) {
+        Node::Neg(_) => true,
+        Node::Num(v) => v.is_negative(),
+        _ => false,
+    }
+}
+
 fn num_text(v: &BigRational) -> String {
     if v.is_integer() {
         return v.to_integer().to_string();
@@ -76,6 +85,12 @@ fn text(dag: &Dag, id: ExprId, out: &mut String) {
                     continue;
                 }
                 match dag.node(x) {
+                    // `a - b*c` would parse as `a + (-b)*c`; keep this form explicit
+                    Node::Neg(inner) if matches!(dag.node(*inner), Node::Mul(_)) => {
+                        out.push_str(" + -(");
+                        text(dag, *inner, out);
+                        out.push(')');
+                    }
                     Node::Neg(inner) => {
                         out.push_str(" - ");
                         wrap(dag, *inner, prec(dag, *inner) <= P_ADD, out);
@@ -83,6 +98,21 @@ fn text(dag: &Dag, id: ExprId, out: &mut String) {
                     Node::Num(v) if v.is_negative() => {
                         out.push_str(" - ");
                         out.push_str(&num_text(&-v.clone()));
+                    }
+                    Node::Mul(fs) if negative_lead(dag, fs[0]) => {
+                        out.push_str(" - ");
+                        match dag.node(fs[0]) {
+                            Node::Neg(y) => {
+                                let nested = matches!(dag.node(*y), Node::Mul(_));
+                                wrap(dag, *y, prec(dag, *y) < P_MUL || nested, out);
+                            }
+                            Node::Num(v) => out.push_str(&num_text(&-v.clone())),
+                            _ => unreachable!("negative_lead"),
+                        }
+                        for &f in &fs[1..] {
+                            out.push('*');
+                            wrap(dag, f, prec(dag, f) <= P_MUL, out);
+                        }
                     }
                     _ => {
                         out.push_str(" + ");

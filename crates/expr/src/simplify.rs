@@ -458,16 +458,15 @@ impl<'o> Simplifier<'o> {
         if ids.is_empty() {
             return dag.num(c.clone());
         }
-        let magnitude = c.abs();
-        if !magnitude.is_one() {
-            ids.insert(0, dag.num(magnitude));
+        // a negative term carries its sign on the first factor: `-3*x`, `-x*y`
+        if !c.is_one() {
+            if (-c).is_one() {
+                ids[0] = dag.neg(ids[0]);
+            } else {
+                ids.insert(0, dag.num(c.clone()));
+            }
         }
-        let prod = dag.mul(ids);
-        if c.is_negative() {
-            dag.neg(prod)
-        } else {
-            prod
-        }
+        dag.mul(ids)
     }
 
     fn rat_expr(&self, dag: &mut Dag, r: &Rat) -> ExprId {

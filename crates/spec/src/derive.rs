@@ -1,0 +1,125 @@
+//! The closed loop and V̇: laws substituted in order, dynamics closed with the laws, and
+//! V̇ = Σ ∂V/∂x·ẋ + Σ ∂V/∂r·ṙ, simplified to canonical form.
+
+use crate::model::{Spec, SymbolKind};
+use lawsmith_expr::{derivative, AssumeAll, Condition, ExprId, Oracle, Simplifier};
+use std::collections::HashMap;
+
+/// What `derive` produces. Every expression is in base symbols only (states, references,
+/// rates, signals, gains, parameters) and in canonical form.
+#[derive(Debug)]
+pub struct Derivation {
+    /// V.
+    pub candidate: ExprId,
+    /// V̇ along the closed loop.
+    pub vdot: ExprId,
+    /// Each law with earlier laws substituted, in evaluation order.
+    pub laws: Vec<(String, ExprId)>,
+    /// Each actuator command in base symbols.
+    pub actuators: Vec<(String, ExprId)>,
+    /// Closed-loop state derivatives.
+    pub closed_loop: Vec<(String, ExprId)>,
+    /// Side conditions the simplification relied on (rule name, condition); the verifier
+    /// proves them over the envelope.
+    pub assumptions: Vec<(&'static str, Condition)>,
+}
+
+/// A problem that keeps V̇ from being formed.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct DeriveError(pub String);
+
+impl std::fmt::Display for DeriveError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl std::error::Error for DeriveError {}
+
+/// Derives V̇ with every side condition granted (and recorded in
+/// [`Derivation::assumptions`]).
+pub fn derive(spec: &mut Spec) -> Result<Derivation, DeriveError> {
+    let mut oracle = AssumeAll::default();
+    let mut d = derive_with(spec, &mut oracle)?;
+    d.assumptions = oracle.assumed;
+    Ok(d)
+}
+
+/// Derives V̇ with side conditions answered by `oracle`.
+pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivation, DeriveError> {
+    let dag = &mut spec.dag;
+    let mut law_map: HashMap<String, ExprId> = HashMap::new();
+    let mut laws = Vec::new();
+    for (input, law) in &spec.laws {
+        let full = dag.substitute(*law, &law_map);
+        law_map.insert(input.clone(), full);
+        laws.push((input.clone(), full));
+    }
+    let closed: Vec<(String, ExprId)> = spec
+        .dynamics
+        .iter()
+        .map(|(s, f)| (s.clone(), dag.substitute(*f, &law_map)))
+        .collect();
+    let v = spec.candidate;
+    let mut terms = Vec::new();
+    for name in dag.symbols(v) {
+        let Some(sym) = spec.symbols.iter().find(|s| s.name == name) else {
+            continue;
+        };
+        let rate = match sym.kind {
+            SymbolKind::State => closed
+                .iter()
+                .find(|(s, _)| *s == name)
+                .map(|(_, f)| *f)
+                .ok_or_else(|| DeriveError(format!("state `{name}` has no dynamics")))?,
+            SymbolKind::Reference => {
+                let r = sym.rate.clone().unwrap_or_default();
+                dag.sym(&r)
+            }
+            SymbolKind::Parameter | SymbolKind::Gain => continue,
+            k => {
+                return Err(DeriveError(format!(
+                    "the candidate depends on `{name}`, a {} whose rate of change is not declared",
+                    k.name()
+                )))
+            }
+        };
+        let dv = derivative(dag, v, &name);
+        terms.push(dag.mul(vec![dv, rate]));
+    }
+    let vdot = dag.add(terms);
+    let actuators: Vec<(String, ExprId)> = spec
+        .actuators
+        .iter()
+        .map(|a| (a.name.clone(), dag.substitute(a.law, &law_map)))
+        .collect();
+    let mut simp = Simplifier::new(dag, oracle);
+    let vdot = simp.simplify(dag, vdot);
+    let candidate = simp.simplify(dag, v);
+    let laws = laws
+        .into_iter()
+        .map(|(n, e)| (n, simp.simplify(dag, e)))
+        .collect();
+    let actuators = actuators
+        .into_iter()
+        .map(|(n, e)| (n, simp.simplify(dag, e)))
+        .collect();
+    let closed_loop = closed
+        .into_iter()
+        .map(|(n, e)| (n, simp.simplify(dag, e)))
+        .collect();
+    if dag.over_budget() {
+        return Err(DeriveError(format!(
+            "the derivation grew past {} expression nodes (DagLimits::max_nodes)",
+            dag.limits().max_nodes
+        )));
+    }
+    Ok(Derivation {
+        candidate,
+        vdot,
+        laws,
+        actuators,
+        closed_loop,
+        assumptions: Vec::new(),
+    })
+}

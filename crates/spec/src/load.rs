@@ -1,0 +1,1384 @@
+//! Loading: YAML → raw schema → checked names, units and ranges → dimension-checked, lowered
+//! formulas. Every problem found is collected; loading fails only at the end.
+
+use crate::diag::Diagnostic;
+use crate::model::*;
+use crate::names::{identifier_problem, reserved_reason};
+use crate::schema::*;
+use crate::units::{parse_unit, Dim};
+use lawsmith_expr::{
+    derivative, lower, nearest, parse_decimal, parse_with, Ast, AstKind, Dag, ExprId, Func,
+    LowerError, ParseSettings, Resolver, Span,
+};
+use num_rational::Rational32;
+use serde_saphyr::Spanned;
+use std::collections::{HashMap, HashSet};
+use std::ops::Range;
+
+/// Largest spec file accepted, in bytes. Real specs are a few kilobytes; the bound keeps a
+/// runaway file from being parsed at all.
+pub const MAX_SPEC_BYTES: usize = 4 << 20;
+
+/// Loads and validates a spec from its YAML text, collecting every diagnostic.
+pub fn load(source: &str) -> Result<Spec, Vec<Diagnostic>> {
+    if source.len() > MAX_SPEC_BYTES {
+        return Err(vec![Diagnostic::new(
+            "too-large",
+            format!(
+                "the spec is {} bytes; the limit is {} bytes",
+                source.len(),
+                MAX_SPEC_BYTES
+            ),
+            0..0,
+        )
+        .hint("split the file or remove generated content")]);
+    }
+    let raw: RawSpec = match serde_saphyr::from_str(source) {
+        Ok(r) => r,
+        Err(e) => return Err(vec![yaml_diagnostic(source, &e)]),
+    };
+    let mut l = Loader {
+        src: source,
+        diags: Vec::new(),
+        decl: HashMap::new(),
+        symbols: Vec::new(),
+        defs: HashMap::new(),
+        def_dims: HashMap::new(),
+        inputs: Vec::new(),
+    };
+    l.run(raw).map_err(|()| l.diags.clone()).and_then(|spec| {
+        if l.diags.is_empty() {
+            Ok(spec)
+        } else {
+            Err(l.diags.clone())
+        }
+    })
+}
+
+fn yaml_diagnostic(source: &str, e: &serde_saphyr::Error) -> Diagnostic {
+    let text = e.without_snippet().to_string();
+    let message = text.lines().next().unwrap_or("invalid YAML").to_string();
+    let offset = e
+        .location()
+        .map(|loc| offset_of(source, loc.line() as usize, loc.column() as usize))
+        .unwrap_or(0);
+    let class = if message.contains("budget") || message.contains("alias") {
+        "yaml-budget"
+    } else if message.contains("unknown field") || message.contains("missing field") {
+        "schema"
+    } else {
+        "bad-yaml"
+    };
+    let mut d = Diagnostic::new(class, message, offset..offset + 1);
+    if class == "schema" {
+        d = d.hint("see the spec format in README.md; keys are case-sensitive");
+    }
+    d
+}
+
+/// Byte offset of a 1-based line and column.
+fn offset_of(source: &str, line: usize, column: usize) -> usize {
+    let mut off = 0;
+    for (i, l) in source.split_inclusive('\n').enumerate() {
+        if i + 1 == line {
+            let col = l
+                .char_indices()
+                .nth(column.saturating_sub(1))
+                .map_or(l.len(), |(b, _)| b);
+            return off + col;
+        }
+        off += l.len();
+    }
+    source.len()
+}
+
+struct Def {
+    ast: Option<Ast>,
+    base: usize,
+    text: String,
+    lowered: Option<ExprId>,
+}
+
+struct Loader<'s> {
+    src: &'s str,
+    diags: Vec<Diagnostic>,
+    /// name → (kind, declaration span)
+    decl: HashMap<String, (SymbolKind, Range<usize>)>,
+    symbols: Vec<Symbol>,
+    defs: HashMap<String, Def>,
+    def_dims: HashMap<String, Option<Dim>>,
+    inputs: Vec<String>,
+}
+
+/// Where a formula's text starts in the file, so formula offsets become file offsets.
+fn scalar_base(src: &str, s: &SpannedStr) -> usize {
+    let loc = s.referenced;
+    let span = loc.span();
+    let off = span
+        .byte_offset()
+        .map(|b| b as usize)
+        .unwrap_or_else(|| offset_of(src, loc.line() as usize, loc.column() as usize));
+    let off = off.min(src.len());
+    match src[off..].chars().next() {
+        Some('"') | Some('\'') => off + 1,
+        _ => off,
+    }
+}
+
+fn range_of<T>(src: &str, s: &Spanned<T>) -> Range<usize> {
+    let loc = s.referenced;
+    let off = loc
+        .span()
+        .byte_offset()
+        .map(|b| b as usize)
+        .unwrap_or_else(|| offset_of(src, loc.line() as usize, loc.column() as usize))
+        .min(src.len());
+    let len = loc.span().byte_len().map_or(1, |l| l as usize).max(1);
+    off..(off + len).min(src.len())
+}
+
+fn exact(v: f64) -> lawsmith_expr::BigRational {
+    // Rust prints the shortest decimal that round-trips, so `9.80665` comes back exactly as
+    // written in the YAML.
+    let text = format!("{}", v.abs());
+    let r = parse_decimal(&text).unwrap_or_default();
+    if v < 0.0 {
+        -r
+    } else {
+        r
+    }
+}
+
+impl<'s> Loader<'s> {
+    fn err(&mut self, d: Diagnostic) {
+        self.diags.push(d);
+    }
+
+    fn name_span(&self, s: &SpannedStr) -> Range<usize> {
+        let b = scalar_base(self.src, s);
+        b..(b + s.value.len()).min(self.src.len())
+    }
+
+    fn declare(&mut self, name: &SpannedStr, kind: SymbolKind) -> bool {
+        let span = self.name_span(name);
+        let n = &name.value;
+        if let Some(p) = identifier_problem(n) {
+            self.err(Diagnostic::new("bad-name", p, span).label("not a valid name"));
+            return false;
+        }
+        if let Some(r) = reserved_reason(n) {
+            self.err(
+                Diagnostic::new("reserved-word", r, span)
+                    .label("reserved")
+                    .hint(format!("rename it, e.g. `{n}_v`")),
+            );
+            return false;
+        }
+        if let Some((k, first)) = self.decl.get(n) {
+            let (line, _) = Diagnostic::new("", "", first.clone()).line_col(self.src);
+            let msg = format!(
+                "`{n}` is declared twice (first as a {} on line {line})",
+                k.name()
+            );
+            self.err(Diagnostic::new("duplicate-name", msg, span).label("second declaration"));
+            return false;
+        }
+        self.decl.insert(n.clone(), (kind, span));
+        true
+    }
+
+    fn unit(&mut self, u: &SpannedStr) -> Dim {
+        match parse_unit(&u.value) {
+            Ok(d) => d,
+            Err((at, msg)) => {
+                let b = scalar_base(self.src, u) + at;
+                self.err(Diagnostic::new("bad-unit", msg, b..b + 1).label("here"));
+                Dim::one()
+            }
+        }
+    }
+
+    fn pair(&mut self, r: &Spanned<Vec<f64>>, what: &str) -> Option<(f64, f64)> {
+        let span = range_of(self.src, r);
+        if r.value.len() != 2 {
+            self.err(
+                Diagnostic::new(
+                    "bad-range",
+                    format!("{what} needs two numbers, [min, max]"),
+                    span,
+                )
+                .label(format!("{} number(s)", r.value.len())),
+            );
+            return None;
+        }
+        let (lo, hi) = (r.value[0], r.value[1]);
+        if !lo.is_finite() || !hi.is_finite() {
+            self.err(Diagnostic::new(
+                "bad-range",
+                format!("{what} must be finite"),
+                span,
+            ));
+            return None;
+        }
+        if lo > hi {
+            self.err(
+                Diagnostic::new(
+                    "range-order",
+                    format!("{what} [{lo}, {hi}] has min > max"),
+                    span,
+                )
+                .label("empty range")
+                .hint(format!("write [{hi}, {lo}]")),
+            );
+            return None;
+        }
+        Some((lo, hi))
+    }
+
+    fn push_symbol(&mut self, name: &str, kind: SymbolKind, unit: &str, dim: Dim) -> usize {
+        self.symbols.push(Symbol {
+            name: name.to_string(),
+            kind,
+            unit: unit.to_string(),
+            dim,
+            range: None,
+            value: None,
+            default: None,
+            reference: None,
+            equilibrium: None,
+            error: None,
+            rate: None,
+        });
+        self.symbols.len() - 1
+    }
+
+    fn parse_formula(&mut self, f: &SpannedStr) -> Option<(Ast, usize)> {
+        let base = scalar_base(self.src, f);
+        let settings = ParseSettings::default();
+        match parse_with(&f.value, &settings) {
+            Ok(ast) => Some((ast, base)),
+            Err(e) => {
+                let at = self.file_span(base, &f.value, e.span);
+                self.err(Diagnostic::new("syntax", e.message, at).label("here"));
+                None
+            }
+        }
+    }
+
+    /// File range of a span inside a formula whose text starts at `base`.
+    fn file_span(&self, base: usize, text: &str, s: Span) -> Range<usize> {
+        if self.src.get(base..base + text.len()) == Some(text) {
+            let end = (base + s.end.max(s.start + 1)).min(self.src.len());
+            (base + s.start).min(self.src.len())..end
+        } else {
+            base..base + 1
+        }
+    }
+
+    fn run(&mut self, raw: RawSpec) -> Result<Spec, ()> {
+        // 1. declarations
+        for (n, p) in &raw.parameters.0 {
+            let ok = self.declare(n, SymbolKind::Parameter);
+            let dim = self.unit(&p.unit);
+            if ok {
+                let i = self.push_symbol(&n.value, SymbolKind::Parameter, &p.unit.value, dim);
+                if !p.value.value.is_finite() {
+                    let span = range_of(self.src, &p.value);
+                    self.err(Diagnostic::new(
+                        "bad-number",
+                        "parameter value must be finite",
+                        span,
+                    ));
+                }
+                self.symbols[i].value = Some(p.value.value);
+            }
+        }
+        for (n, g) in &raw.gains.0 {
+            let ok = self.declare(n, SymbolKind::Gain);
+            let dim = self.unit(&g.unit);
+            let range = self.pair(&g.range, "gain range");
+            if ok {
+                let i = self.push_symbol(&n.value, SymbolKind::Gain, &g.unit.value, dim);
+                self.symbols[i].range = range;
+                if let (Some(d), Some((lo, hi))) = (&g.default, range) {
+                    if !(lo..=hi).contains(&d.value) {
+                        let span = range_of(self.src, d);
+                        self.err(
+                            Diagnostic::new(
+                                "default-out-of-range",
+                                format!(
+                                    "default {} is outside the gain range [{lo}, {hi}]",
+                                    d.value
+                                ),
+                                span,
+                            )
+                            .label("outside the range"),
+                        );
+                    }
+                }
+                self.symbols[i].default = g.default.as_ref().map(|d| d.value);
+            }
+        }
+        for (n, r) in &raw.references.0 {
+            let ok = self.declare(n, SymbolKind::Reference);
+            let dim = self.unit(&r.unit);
+            let range = self.pair(&r.range, "reference range");
+            let rate_range = self.pair(&r.rate_range, "rate range");
+            let rate_ok = self.declare(&r.rate, SymbolKind::Rate);
+            if ok {
+                let i = self.push_symbol(&n.value, SymbolKind::Reference, &r.unit.value, dim);
+                self.symbols[i].range = range;
+                self.symbols[i].rate = Some(r.rate.value.clone());
+            }
+            if rate_ok {
+                let unit = format!("({})/s", r.unit.value);
+                let rd = dim.div(&parse_unit("s").expect("s is a unit"));
+                let i = self.push_symbol(&r.rate.value, SymbolKind::Rate, &unit, rd);
+                self.symbols[i].range = rate_range;
+            }
+        }
+        let mut tracked: HashSet<String> = HashSet::new();
+        for (n, s) in &raw.states.0 {
+            let ok = self.declare(n, SymbolKind::State);
+            let dim = self.unit(&s.unit);
+            let error = self.pair(&s.error, "error box");
+            if let (Some(r), Some(e)) = (&s.reference, &s.equilibrium) {
+                let _ = r;
+                let span = range_of(self.src, e);
+                self.err(
+                    Diagnostic::new(
+                        "state-target",
+                        format!("state `{}` has both a reference and an equilibrium", n.value),
+                        span,
+                    )
+                    .hint("keep one: `reference:` for a tracked state, `equilibrium:` for a regulated one"),
+                );
+            }
+            let mut range = None;
+            if let Some(r) = &s.reference {
+                let span = self.name_span(r);
+                match raw.references.0.iter().find(|(k, _)| k.value == r.value) {
+                    None => {
+                        let names = raw.references.0.iter().map(|(k, _)| k.value.as_str());
+                        let mut d = Diagnostic::new(
+                            "unknown-symbol",
+                            format!(
+                                "state `{}` tracks `{}`, which is not a declared reference",
+                                n.value, r.value
+                            ),
+                            span,
+                        )
+                        .label("not declared under `references`");
+                        if let Some(s) = nearest(&r.value, names) {
+                            d = d.hint(format!("did you mean `{s}`?"));
+                        }
+                        self.err(d);
+                    }
+                    Some((_, rr)) => {
+                        if !tracked.insert(r.value.clone()) {
+                            self.err(Diagnostic::new(
+                                "duplicate-name",
+                                format!("reference `{}` is tracked by two states", r.value),
+                                span.clone(),
+                            ));
+                        }
+                        let rdim = parse_unit(&rr.unit.value).unwrap_or_default();
+                        if rdim != dim {
+                            self.err(
+                                Diagnostic::new(
+                                    "dimension",
+                                    format!(
+                                        "state `{}` is in {} but its reference `{}` is in {}",
+                                        n.value, dim, r.value, rdim
+                                    ),
+                                    span,
+                                )
+                                .label("unit differs"),
+                            );
+                        }
+                        if let (Some((lo, hi)), Some((el, eh))) =
+                            (rr.range.value.first().zip(rr.range.value.get(1)), error)
+                        {
+                            range = Some((lo + el, hi + eh));
+                        }
+                    }
+                }
+            }
+            if ok {
+                let i = self.push_symbol(&n.value, SymbolKind::State, &s.unit.value, dim);
+                let sym = &mut self.symbols[i];
+                sym.error = error;
+                sym.reference = s.reference.as_ref().map(|r| r.value.clone());
+                if sym.reference.is_none() {
+                    let eq = s.equilibrium.as_ref().map_or(0.0, |e| e.value);
+                    sym.equilibrium = Some(eq);
+                    range = error.map(|(lo, hi)| (eq + lo, eq + hi));
+                }
+                sym.range = range;
+            }
+        }
+        for (n, _) in &raw.references.0 {
+            if !tracked.contains(&n.value) {
+                let span = self.name_span(n);
+                self.err(
+                    Diagnostic::new(
+                        "reference-without-state",
+                        format!("reference `{}` is not tracked by any state", n.value),
+                        span,
+                    )
+                    .label("unused reference")
+                    .hint("add `reference: NAME` to the state that follows it, or remove it"),
+                );
+            }
+        }
+        for (n, s) in &raw.signals.0 {
+            let ok = self.declare(n, SymbolKind::Signal);
+            let dim = self.unit(&s.unit);
+            let range = self.pair(&s.range, "signal range");
+            if ok {
+                let i = self.push_symbol(&n.value, SymbolKind::Signal, &s.unit.value, dim);
+                self.symbols[i].range = range;
+            }
+        }
+        for (n, s) in &raw.inputs.0 {
+            let ok = self.declare(n, SymbolKind::Input);
+            let dim = self.unit(&s.unit);
+            if ok {
+                self.push_symbol(&n.value, SymbolKind::Input, &s.unit.value, dim);
+                self.inputs.push(n.value.clone());
+            }
+        }
+        // definitions: energies and `where` names share one namespace with the symbols
+        let mut def_order = Vec::new();
+        for (n, f) in raw.energies.0.iter().chain(raw.lyapunov.where_.0.iter()) {
+            if !self.declare_def(n) {
+                continue;
+            }
+            let parsed = self.parse_formula(f);
+            let base = scalar_base(self.src, f);
+            self.defs.insert(
+                n.value.clone(),
+                Def {
+                    ast: parsed.map(|p| p.0),
+                    base,
+                    text: f.value.clone(),
+                    lowered: None,
+                },
+            );
+            def_order.push(n.value.clone());
+        }
+        let mut guidance_cmds = Vec::new();
+        for (n, g) in &raw.guidance.0 {
+            if self.decl.get(&n.value).map(|d| d.0) != Some(SymbolKind::Reference) {
+                let span = self.name_span(n);
+                self.err(unknown(
+                    "unknown-symbol",
+                    &n.value,
+                    "reference",
+                    span,
+                    self.names_of(SymbolKind::Reference),
+                ));
+            }
+            if self.declare(&g.command, SymbolKind::Command) {
+                let dim = self
+                    .symbols
+                    .iter()
+                    .find(|s| s.name == n.value)
+                    .map_or(Dim::one(), |s| s.dim);
+                let unit = self
+                    .symbols
+                    .iter()
+                    .find(|s| s.name == n.value)
+                    .map_or(String::from("1"), |s| s.unit.clone());
+                self.push_symbol(&g.command.value, SymbolKind::Command, &unit, dim);
+            }
+            if self.decl.get(&g.gain.value).map(|d| d.0) != Some(SymbolKind::Gain) {
+                let span = self.name_span(&g.gain);
+                self.err(unknown(
+                    "unknown-symbol",
+                    &g.gain.value,
+                    "gain",
+                    span,
+                    self.names_of(SymbolKind::Gain),
+                ));
+            }
+            if let Some(rl) = self.pair(&g.rate_limit, "rate limit") {
+                guidance_cmds.push(Guidance {
+                    reference: n.value.clone(),
+                    command: g.command.value.clone(),
+                    gain: g.gain.value.clone(),
+                    rate_limit: rl,
+                });
+            }
+        }
+        let claim =
+            match &raw.lyapunov.claim.value {
+                RawClaim::Named(s) if s == "negative_definite" => Claim::NegativeDefinite,
+                RawClaim::Named(s) if s == "negative_semidefinite" => Claim::NegativeSemidefinite,
+                RawClaim::Exponential { exponential }
+                    if *exponential > 0.0 && exponential.is_finite() =>
+                {
+                    Claim::Exponential(*exponential)
+                }
+                other => {
+                    let span = range_of(self.src, &raw.lyapunov.claim);
+                    let what = match other {
+                        RawClaim::Named(s) => format!("unknown claim `{s}`"),
+                        RawClaim::Exponential { exponential } => {
+                            format!("exponential rate {exponential} must be positive and finite")
+                        }
+                    };
+                    self.err(Diagnostic::new("bad-claim", what, span).hint(
+                        "use negative_definite, negative_semidefinite or { exponential: RATE }",
+                    ));
+                    Claim::NegativeDefinite
+                }
+            };
+
+        // 2. structure: dynamics for every state, a law for every input
+        let mut dag = Dag::new();
+        let states: Vec<String> = self.names_of(SymbolKind::State);
+        let mut dyn_asts = Vec::new();
+        for (n, f) in &raw.dynamics.0 {
+            if !states.contains(&n.value) {
+                let span = self.name_span(n);
+                self.err(unknown(
+                    "unknown-symbol",
+                    &n.value,
+                    "state",
+                    span,
+                    states.clone(),
+                ));
+                continue;
+            }
+            if let Some(p) = self.parse_formula(f) {
+                dyn_asts.push((n.value.clone(), p, f.value.clone()));
+            }
+        }
+        for (n, _) in &raw.states.0 {
+            if !raw.dynamics.0.iter().any(|(k, _)| k.value == n.value) && states.contains(&n.value)
+            {
+                let span = self.name_span(n);
+                self.err(
+                    Diagnostic::new(
+                        "state-without-dynamics",
+                        format!("state `{}` has no dynamics", n.value),
+                        span,
+                    )
+                    .label("declared here")
+                    .hint(format!(
+                        "add `{}: <formula for d{}/dt>` under `dynamics`",
+                        n.value, n.value
+                    )),
+                );
+            }
+        }
+        let mut law_asts = Vec::new();
+        for (n, f) in &raw.laws.0 {
+            if !self.inputs.contains(&n.value) {
+                let span = self.name_span(n);
+                self.err(unknown(
+                    "unknown-symbol",
+                    &n.value,
+                    "input",
+                    span,
+                    self.inputs.clone(),
+                ));
+                continue;
+            }
+            if let Some(p) = self.parse_formula(f) {
+                law_asts.push((n.value.clone(), p, f.value.clone()));
+            }
+        }
+        for i in self.inputs.clone() {
+            if !raw.laws.0.iter().any(|(k, _)| k.value == i) {
+                let span = self.decl[&i].1.clone();
+                self.err(
+                    Diagnostic::new("input-without-law", format!("input `{i}` has no law"), span)
+                        .label("declared here")
+                        .hint(format!("add `{i}: <formula>` under `laws`")),
+                );
+            }
+        }
+
+        // 3. dimensions
+        for name in &def_order {
+            self.def_dim(name, &mut Vec::new());
+        }
+        for (state, (ast, base), text) in &dyn_asts {
+            let want = self.dim_of_symbol(state).map(|d| d.div(&second()));
+            self.expect_dim(ast, *base, text, want, &format!("dynamics of `{state}`"));
+        }
+        for (input, (ast, base), text) in &law_asts {
+            let want = self.dim_of_symbol(input);
+            self.expect_dim(ast, *base, text, want, &format!("law for `{input}`"));
+        }
+        let cand = self.parse_formula(&raw.lyapunov.candidate);
+        if let Some((ast, base)) = &cand {
+            self.dim(ast, *base, &raw.lyapunov.candidate.value, &mut Vec::new());
+        }
+        let mut act_asts = Vec::new();
+        for (n, a) in &raw.actuators.0 {
+            if !self.declare(n, SymbolKind::Command) {
+                continue;
+            }
+            let dim = self.unit(&a.unit);
+            let limits = self.pair(&a.limits, "actuator limits");
+            if let Some((ast, base)) = self.parse_formula(&a.law) {
+                self.expect_dim(
+                    &ast,
+                    base,
+                    &a.law.value,
+                    Some(dim),
+                    &format!("actuator `{}`", n.value),
+                );
+                act_asts.push((
+                    n.value.clone(),
+                    ast,
+                    base,
+                    a.law.value.clone(),
+                    a.unit.value.clone(),
+                    limits,
+                ));
+            }
+        }
+        let mut constraint_asts = Vec::new();
+        for c in &raw.constraints {
+            if let Some(parsed) = self.parse_constraint(c) {
+                constraint_asts.push(parsed);
+            }
+        }
+        if !self.diags.is_empty() {
+            return Err(());
+        }
+
+        // 4. lowering, in dependency order: dynamics, definitions, laws
+        let mut dynamics = Vec::new();
+        for (state, (ast, base), text) in &dyn_asts {
+            let ctx = Ctx {
+                base: *base,
+                text: text.clone(),
+                law_index: None,
+                dynamics: None,
+            };
+            if let Some(id) = self.lower_in(&mut dag, ast, &ctx) {
+                dynamics.push((state.clone(), id));
+            }
+        }
+        let dyn_map: HashMap<String, ExprId> = dynamics.iter().cloned().collect();
+        let mut laws = Vec::new();
+        for (i, (input, (ast, base), text)) in law_asts.iter().enumerate() {
+            let ctx = Ctx {
+                base: *base,
+                text: text.clone(),
+                law_index: Some(i),
+                dynamics: Some(&dyn_map),
+            };
+            if let Some(id) = self.lower_in(&mut dag, ast, &ctx) {
+                laws.push((input.clone(), id));
+            }
+        }
+        let mut candidate = None;
+        if let Some((ast, base)) = &cand {
+            let ctx = Ctx {
+                base: *base,
+                text: raw.lyapunov.candidate.value.clone(),
+                law_index: None,
+                dynamics: Some(&dyn_map),
+            };
+            candidate = self.lower_in(&mut dag, ast, &ctx);
+        }
+        let mut actuators = Vec::new();
+        for (name, ast, base, text, unit, limits) in &act_asts {
+            let ctx = Ctx {
+                base: *base,
+                text: text.clone(),
+                law_index: Some(law_asts.len()),
+                dynamics: Some(&dyn_map),
+            };
+            if let (Some(id), Some(l)) = (self.lower_in(&mut dag, ast, &ctx), limits) {
+                actuators.push(Actuator {
+                    name: name.clone(),
+                    law: id,
+                    unit: unit.clone(),
+                    limits: *l,
+                });
+            }
+        }
+        let mut constraints = Vec::new();
+        for (text, (la, lb), op, (ra, rb)) in &constraint_asts {
+            let ctx_l = Ctx {
+                base: *lb,
+                text: text.clone(),
+                law_index: None,
+                dynamics: None,
+            };
+            let l = self.lower_in(&mut dag, la, &ctx_l);
+            let ctx_r = Ctx {
+                base: *rb,
+                text: text.clone(),
+                law_index: None,
+                dynamics: None,
+            };
+            let r = self.lower_in(&mut dag, ra, &ctx_r);
+            if let (Some(lhs), Some(rhs)) = (l, r) {
+                for s in dag.symbols(lhs).into_iter().chain(dag.symbols(rhs)) {
+                    if !matches!(
+                        self.decl.get(&s).map(|d| d.0),
+                        Some(SymbolKind::Gain | SymbolKind::Parameter)
+                    ) {
+                        self.err(Diagnostic::new(
+                            "bad-constraint",
+                            format!("constraint `{text}` uses `{s}`; constraints relate gains and parameters only"),
+                            *lb..*lb + text.len(),
+                        ));
+                    }
+                }
+                constraints.push(Constraint {
+                    text: text.clone(),
+                    lhs,
+                    op: op.clone(),
+                    rhs,
+                });
+            }
+        }
+        let where_defs = raw
+            .lyapunov
+            .where_
+            .0
+            .iter()
+            .filter_map(|(n, _)| Some((n.value.clone(), self.defs.get(&n.value)?.lowered?)))
+            .collect();
+        let energies = raw
+            .energies
+            .0
+            .iter()
+            .filter_map(|(n, _)| Some((n.value.clone(), self.defs.get(&n.value)?.lowered?)))
+            .collect();
+        if dag.over_budget() {
+            self.err(Diagnostic::new(
+                "budget",
+                format!(
+                    "the formulas grew past {} expression nodes",
+                    dag.limits().max_nodes
+                ),
+                0..0,
+            ));
+        }
+        if !self.diags.is_empty() {
+            return Err(());
+        }
+        if !constraints.is_empty() {
+            self.check_gain_set(&dag, &constraints, &raw.constraints);
+        }
+        Ok(Spec {
+            name: raw.name.value.clone(),
+            summary: raw.summary.clone(),
+            assumptions: raw.assumptions.clone(),
+            symbols: std::mem::take(&mut self.symbols),
+            dag,
+            dynamics,
+            energies,
+            where_defs,
+            candidate: candidate.ok_or(())?,
+            claim,
+            laws,
+            constraints,
+            actuators,
+            guidance: guidance_cmds,
+        })
+    }
+
+    fn declare_def(&mut self, n: &SpannedStr) -> bool {
+        // definitions are names too; reuse the checks with a placeholder kind
+        let before = self.diags.len();
+        let ok = self.declare(n, SymbolKind::Command);
+        if ok {
+            self.decl.remove(&n.value);
+            self.decl
+                .insert(n.value.clone(), (SymbolKind::Command, self.name_span(n)));
+        }
+        ok && self.diags.len() == before
+    }
+
+    fn names_of(&self, kind: SymbolKind) -> Vec<String> {
+        self.symbols
+            .iter()
+            .filter(|s| s.kind == kind)
+            .map(|s| s.name.clone())
+            .collect()
+    }
+
+    fn dim_of_symbol(&self, name: &str) -> Option<Dim> {
+        self.symbols.iter().find(|s| s.name == name).map(|s| s.dim)
+    }
+
+    fn parse_constraint(
+        &mut self,
+        c: &SpannedStr,
+    ) -> Option<(String, (Ast, usize), String, (Ast, usize))> {
+        let text = &c.value;
+        let base = scalar_base(self.src, c);
+        let ops = ["<=", ">=", "<", ">"];
+        let Some((pos, op)) = ops
+            .iter()
+            .filter_map(|op| text.find(op).map(|p| (p, *op)))
+            .min_by_key(|(p, _)| *p)
+        else {
+            self.err(
+                Diagnostic::new(
+                    "bad-constraint",
+                    format!("constraint `{text}` has no comparison"),
+                    base..base + text.len().max(1),
+                )
+                .hint("write e.g. `k_tot < k_bal`"),
+            );
+            return None;
+        };
+        let (l, r) = (&text[..pos], &text[pos + op.len()..]);
+        let mut side = |s: &str, off: usize| -> Option<(Ast, usize)> {
+            match parse_with(s, &ParseSettings::default()) {
+                Ok(a) => Some((a, base + off)),
+                Err(e) => {
+                    let at = base + off + e.span.start;
+                    self.err(Diagnostic::new("syntax", e.message, at..at + 1).label("here"));
+                    None
+                }
+            }
+        };
+        let lhs = side(l, 0)?;
+        let rhs = side(r, pos + op.len())?;
+        let dl = self.dim(&lhs.0, lhs.1, l, &mut Vec::new());
+        let dr = self.dim(&rhs.0, rhs.1, r, &mut Vec::new());
+        if let (Some(a), Some(b)) = (dl, dr) {
+            if a != b {
+                self.err(Diagnostic::new(
+                    "dimension",
+                    format!("constraint `{text}` compares {a} with {b}"),
+                    base..base + text.len(),
+                ));
+            }
+        }
+        Some((text.clone(), lhs, op.to_string(), rhs))
+    }
+
+    /// Reports an empty gain set: no point of a grid over the gain box meets every constraint.
+    fn check_gain_set(&mut self, dag: &Dag, constraints: &[Constraint], raw: &[SpannedStr]) {
+        let gains: Vec<&Symbol> = self
+            .symbols
+            .iter()
+            .filter(|s| s.kind == SymbolKind::Gain)
+            .collect();
+        // 9 points per gain, capped at ~60,000 points overall
+        let per = match gains.len() {
+            0..=4 => 9usize,
+            5 => 8,
+            6 => 6,
+            _ => 4,
+        };
+        let total = per
+            .checked_pow(gains.len() as u32)
+            .unwrap_or(usize::MAX)
+            .min(1 << 20);
+        let mut env: HashMap<String, f64> = self
+            .symbols
+            .iter()
+            .filter_map(|s| Some((s.name.clone(), s.value?)))
+            .collect();
+        for k in 0..total {
+            let mut idx = k;
+            for g in &gains {
+                let (lo, hi) = g.range.unwrap_or((0.0, 0.0));
+                let t = (idx % per) as f64 / (per - 1) as f64;
+                idx /= per;
+                env.insert(g.name.clone(), lo + t * (hi - lo));
+            }
+            let all = constraints.iter().all(|c| {
+                let (l, r) = (
+                    lawsmith_expr::eval(dag, c.lhs, &env).unwrap_or(f64::NAN),
+                    lawsmith_expr::eval(dag, c.rhs, &env).unwrap_or(f64::NAN),
+                );
+                match c.op.as_str() {
+                    "<" => l < r,
+                    "<=" => l <= r,
+                    ">" => l > r,
+                    _ => l >= r,
+                }
+            });
+            if all {
+                return;
+            }
+        }
+        let span = raw.first().map(|c| self.name_span(c)).unwrap_or(0..0);
+        self.err(
+            Diagnostic::new(
+                "empty-gain-set",
+                format!("no gain vector in the declared ranges meets the constraints (searched a grid of {total} points)"),
+                span,
+            )
+            .label("unsatisfiable with the gain ranges")
+            .hint("widen the gain ranges or relax the constraints"),
+        );
+    }
+
+    fn def_dim(&mut self, name: &str, stack: &mut Vec<String>) -> Option<Dim> {
+        if let Some(d) = self.def_dims.get(name) {
+            return *d;
+        }
+        if let Some(pos) = stack.iter().position(|s| s == name) {
+            let cycle = stack[pos..].join(" → ");
+            let span = self.decl.get(name).map(|d| d.1.clone()).unwrap_or(0..0);
+            self.err(
+                Diagnostic::new(
+                    "cycle",
+                    format!("definitions refer to each other in a cycle: {cycle} → {name}"),
+                    span,
+                )
+                .label("part of the cycle")
+                .hint(
+                    "a definition may use only symbols and definitions that do not come back to it",
+                ),
+            );
+            self.def_dims.insert(name.to_string(), None);
+            return None;
+        }
+        let (ast, base, text) = {
+            let d = self.defs.get(name)?;
+            (d.ast.clone()?, d.base, d.text.clone())
+        };
+        stack.push(name.to_string());
+        let dim = self.dim(&ast, base, &text, stack);
+        stack.pop();
+        self.def_dims.insert(name.to_string(), dim);
+        dim
+    }
+
+    fn expect_dim(&mut self, ast: &Ast, base: usize, text: &str, want: Option<Dim>, what: &str) {
+        let got = self.dim(ast, base, text, &mut Vec::new());
+        if let (Some(g), Some(w)) = (got, want) {
+            if g != w {
+                let span = self.file_span(base, text, ast.span);
+                self.err(
+                    Diagnostic::new(
+                        "dimension",
+                        format!("the {what} is in {g} but should be in {w}"),
+                        span,
+                    )
+                    .label(format!("this is {g}")),
+                );
+            }
+        }
+    }
+
+    /// Infers the dimension of a formula; reports mismatches; `None` when unknown after an
+    /// error (so one mistake is reported once).
+    fn dim(&mut self, ast: &Ast, base: usize, text: &str, stack: &mut Vec<String>) -> Option<Dim> {
+        let here = |l: &Self, a: &Ast| l.file_span(base, text, a.span);
+        match &ast.kind {
+            AstKind::Num(_) => Some(Dim::one()),
+            AstKind::Sym(name) => {
+                if let Some(d) = self.dim_of_symbol(name) {
+                    if self.decl.get(name).map(|d| d.0) == Some(SymbolKind::Command)
+                        && !self.defs.contains_key(name)
+                    {
+                        // actuator and command names are outputs, not inputs of formulas
+                        let span = here(self, ast);
+                        self.err(Diagnostic::new(
+                            "unknown-symbol",
+                            format!("`{name}` is a command output and cannot be used in a formula"),
+                            span,
+                        ));
+                        return None;
+                    }
+                    return Some(d);
+                }
+                if self.defs.contains_key(name) {
+                    return self.def_dim(name, stack);
+                }
+                let span = here(self, ast);
+                let d = self.unknown_symbol(name, span);
+                self.err(d);
+                None
+            }
+            AstKind::Neg(a) => self.dim(a, base, text, stack),
+            AstKind::Add(xs) => {
+                let mut first: Option<(Dim, &Ast)> = None;
+                let mut ok = true;
+                for x in xs {
+                    let d = self.dim(x, base, text, stack);
+                    match (d, first) {
+                        (Some(d), None) => first = Some((d, x)),
+                        (Some(d), Some((f, _))) if d != f => {
+                            let span = here(self, x);
+                            self.err(
+                                Diagnostic::new(
+                                    "dimension",
+                                    format!("cannot add {d} to {f}"),
+                                    span,
+                                )
+                                .label(format!("this term is {d}"))
+                                .hint("every term of a sum must have the same unit"),
+                            );
+                            ok = false;
+                        }
+                        (None, _) => ok = false,
+                        _ => {}
+                    }
+                }
+                if ok {
+                    first.map(|f| f.0)
+                } else {
+                    None
+                }
+            }
+            AstKind::Mul(xs) => {
+                let mut acc = Dim::one();
+                let mut ok = true;
+                for x in xs {
+                    match self.dim(x, base, text, stack) {
+                        Some(d) => acc = acc.mul(&d),
+                        None => ok = false,
+                    }
+                }
+                ok.then_some(acc)
+            }
+            AstKind::Div(a, b) => {
+                let da = self.dim(a, base, text, stack);
+                let db = self.dim(b, base, text, stack);
+                Some(da?.div(&db?))
+            }
+            AstKind::Pow(a, b) => {
+                let da = self.dim(a, base, text, stack)?;
+                let db = self.dim(b, base, text, stack)?;
+                if !db.is_one() {
+                    let span = here(self, b);
+                    self.err(Diagnostic::new(
+                        "dimension",
+                        format!("an exponent must be dimensionless, this one is {db}"),
+                        span,
+                    ));
+                    return None;
+                }
+                if da.is_one() {
+                    return Some(da);
+                }
+                match const_exponent(b) {
+                    Some(k) => Some(da.pow(k)),
+                    None => {
+                        let span = here(self, b);
+                        self.err(Diagnostic::new(
+                            "dimension",
+                            format!("a quantity in {da} can only be raised to a constant power"),
+                            span,
+                        ));
+                        None
+                    }
+                }
+            }
+            AstKind::Call { name, args, .. } => {
+                let dims: Vec<Option<Dim>> = args
+                    .iter()
+                    .map(|a| self.dim(a, base, text, stack))
+                    .collect();
+                let arity_ok = match Func::from_name(name) {
+                    Some(f) => f.arity() == args.len(),
+                    None => (name == "ref" || name == "ddt") && args.len() == 1,
+                };
+                if !arity_ok {
+                    // lowering reports unknown functions and argument counts with suggestions
+                    return None;
+                }
+                let dims: Vec<Dim> = dims.into_iter().collect::<Option<_>>()?;
+                match name.as_str() {
+                    "ref" => Some(dims[0]),
+                    "ddt" => Some(dims[0].div(&second())),
+                    "sqrt" => Some(dims[0].pow(Rational32::new(1, 2))),
+                    "abs" => Some(dims[0]),
+                    "min" | "max" | "clamp" | "atan2" => {
+                        for (i, d) in dims.iter().enumerate().skip(1) {
+                            if *d != dims[0] {
+                                let span = here(self, &args[i]);
+                                self.err(Diagnostic::new(
+                                    "dimension",
+                                    format!("`{name}` compares {} with {d}", dims[0]),
+                                    span,
+                                ));
+                                return None;
+                            }
+                        }
+                        Some(if name == "atan2" { Dim::one() } else { dims[0] })
+                    }
+                    _ => {
+                        if !dims[0].is_one() {
+                            let span = here(self, &args[0]);
+                            self.err(
+                                Diagnostic::new(
+                                    "dimension",
+                                    format!("the argument of `{name}` must be dimensionless, this one is {}", dims[0]),
+                                    span,
+                                )
+                                .label(format!("this is {}", dims[0])),
+                            );
+                            return None;
+                        }
+                        Some(Dim::one())
+                    }
+                }
+            }
+        }
+    }
+
+    fn unknown_symbol(&self, name: &str, span: Range<usize>) -> Diagnostic {
+        let mut names: Vec<&str> = self.decl.keys().map(String::as_str).collect();
+        names.sort();
+        let mut d = Diagnostic::new("unknown-symbol", format!("unknown symbol `{name}`"), span)
+            .label("not declared");
+        if let Some(s) = nearest(name, names.iter().copied()) {
+            d = d.hint(format!("did you mean `{s}`?"));
+        } else {
+            d = d.hint("declare it under parameters, gains, states, references, signals or inputs");
+        }
+        d
+    }
+
+    fn lower_in(&mut self, dag: &mut Dag, ast: &Ast, ctx: &Ctx) -> Option<ExprId> {
+        let mut errors = Vec::new();
+        let id = {
+            let mut r = SpecResolver { loader: self, ctx };
+            lower(dag, ast, &mut r, &mut errors)
+        };
+        for e in errors {
+            let span = self.file_span(ctx.base, &ctx.text, e.span);
+            let mut d = Diagnostic::new(class_of(&e), e.message, span).label("here");
+            if let Some(h) = e.hint {
+                d = d.hint(h);
+            }
+            self.err(d);
+        }
+        id
+    }
+
+    /// Lowers a definition once; later uses share the id.
+    fn lower_def(
+        &mut self,
+        dag: &mut Dag,
+        name: &str,
+        ctx_dyn: Option<&HashMap<String, ExprId>>,
+    ) -> Option<ExprId> {
+        let d = self.defs.get(name)?;
+        if let Some(id) = d.lowered {
+            return Some(id);
+        }
+        let (ast, base, text) = (d.ast.clone()?, d.base, d.text.clone());
+        let ctx = Ctx {
+            base,
+            text,
+            law_index: None,
+            dynamics: ctx_dyn,
+        };
+        let id = self.lower_in(dag, &ast, &ctx)?;
+        self.defs.get_mut(name)?.lowered = Some(id);
+        Some(id)
+    }
+}
+
+fn class_of(e: &LowerError) -> &'static str {
+    if e.message.starts_with("unknown function") {
+        "unknown-function"
+    } else if e.message.starts_with("unknown symbol") {
+        "unknown-symbol"
+    } else if e.message.contains("later law") || e.message.contains("its own law") {
+        "law-order"
+    } else if e.message.contains("ddt(") {
+        "no-rate"
+    } else if e.message.contains("argument") {
+        "arity"
+    } else {
+        "formula"
+    }
+}
+
+fn second() -> Dim {
+    parse_unit("s").expect("s is a unit")
+}
+
+fn const_exponent(a: &Ast) -> Option<Rational32> {
+    match &a.kind {
+        AstKind::Num(v) => {
+            let n = i32::try_from(v.numer()).ok()?;
+            let d = i32::try_from(v.denom()).ok()?;
+            Some(Rational32::new(n, d))
+        }
+        AstKind::Neg(x) => const_exponent(x).map(|k| -k),
+        AstKind::Div(x, y) => Some(
+            const_exponent(x)? / const_exponent(y).filter(|k| *k != Rational32::from_integer(0))?,
+        ),
+        _ => None,
+    }
+}
+
+fn unknown(
+    class: &'static str,
+    name: &str,
+    kind: &str,
+    span: Range<usize>,
+    names: Vec<String>,
+) -> Diagnostic {
+    let mut d = Diagnostic::new(class, format!("`{name}` is not a declared {kind}"), span)
+        .label(format!("not a {kind}"));
+    if let Some(s) = nearest(name, names.iter().map(String::as_str)) {
+        d = d.hint(format!("did you mean `{s}`?"));
+    } else if !names.is_empty() {
+        d = d.hint(format!("declared: {}", names.join(", ")));
+    }
+    d
+}
+
+struct Ctx<'a> {
+    base: usize,
+    text: String,
+    /// Lowering the law at this index: inputs of earlier laws may be used.
+    law_index: Option<usize>,
+    /// Dynamics available to `ddt`.
+    dynamics: Option<&'a HashMap<String, ExprId>>,
+}
+
+struct SpecResolver<'l, 's, 'c> {
+    loader: &'l mut Loader<'s>,
+    ctx: &'c Ctx<'c>,
+}
+
+impl Resolver for SpecResolver<'_, '_, '_> {
+    fn symbol(&mut self, dag: &mut Dag, name: &str, span: Span) -> Result<ExprId, LowerError> {
+        if self.loader.defs.contains_key(name) {
+            let dynamics = self.ctx.dynamics;
+            return self
+                .loader
+                .lower_def(dag, name, dynamics)
+                .ok_or_else(|| LowerError {
+                    message: format!("definition `{name}` could not be resolved"),
+                    span,
+                    hint: None,
+                });
+        }
+        let Some(sym) = self.loader.symbols.iter().find(|s| s.name == name) else {
+            return Err(LowerError {
+                message: format!("unknown symbol `{name}`"),
+                span,
+                hint: None,
+            });
+        };
+        if sym.kind == SymbolKind::Input {
+            let idx = self
+                .loader
+                .inputs
+                .iter()
+                .position(|i| i == name)
+                .unwrap_or(0);
+            if let Some(li) = self.ctx.law_index {
+                if idx >= li && li < self.loader.inputs.len() {
+                    let which = if idx == li {
+                        "its own law"
+                    } else {
+                        "a later law"
+                    };
+                    return Err(LowerError {
+                        message: format!(
+                            "`{name}` is computed by {which}; a law may use only the laws above it"
+                        ),
+                        span,
+                        hint: Some(
+                            "reorder the laws so that every law comes after the ones it uses"
+                                .into(),
+                        ),
+                    });
+                }
+            }
+        }
+        Ok(dag.sym(name))
+    }
+
+    fn call(
+        &mut self,
+        dag: &mut Dag,
+        name: &str,
+        args: &[ExprId],
+        span: Span,
+    ) -> Option<Result<ExprId, LowerError>> {
+        match name {
+            "ref" => Some(Ok(self.reference_of(dag, args[0]))),
+            "ddt" => Some(self.time_derivative(dag, args[0], span)),
+            _ => None,
+        }
+    }
+
+    fn extra_functions(&self) -> &[&str] {
+        &["ref", "ddt"]
+    }
+}
+
+impl SpecResolver<'_, '_, '_> {
+    fn reference_of(&mut self, dag: &mut Dag, e: ExprId) -> ExprId {
+        let mut map = HashMap::new();
+        for s in &self.loader.symbols {
+            if s.kind != SymbolKind::State {
+                continue;
+            }
+            let target = match (&s.reference, s.equilibrium) {
+                (Some(r), _) => dag.sym(r),
+                (None, Some(eq)) => dag.num(exact(eq)),
+                (None, None) => dag.int(0),
+            };
+            map.insert(s.name.clone(), target);
+        }
+        dag.substitute(e, &map)
+    }
+
+    fn time_derivative(
+        &mut self,
+        dag: &mut Dag,
+        e: ExprId,
+        span: Span,
+    ) -> Result<ExprId, LowerError> {
+        let mut terms = Vec::new();
+        for name in dag.symbols(e) {
+            let kind = self
+                .loader
+                .symbols
+                .iter()
+                .find(|s| s.name == name)
+                .map(|s| (s.kind, s.rate.clone()));
+            let rate = match kind {
+                Some((SymbolKind::Parameter | SymbolKind::Gain, _)) => continue,
+                Some((SymbolKind::Reference, Some(rate))) => dag.sym(&rate),
+                Some((SymbolKind::State, _)) => match self.ctx.dynamics.and_then(|d| d.get(&name)) {
+                    Some(&f) => f,
+                    None => {
+                        return Err(LowerError {
+                            message: format!("ddt(…) needs the dynamics of `{name}`, which are not available here"),
+                            span,
+                            hint: Some("ddt of a state may be used in laws, definitions and the candidate, not inside the dynamics".into()),
+                        })
+                    }
+                },
+                Some((k, _)) => {
+                    return Err(LowerError {
+                        message: format!("ddt(…) needs the time derivative of `{name}`, a {} with no declared rate", k.name()),
+                        span,
+                        hint: Some("only states (through their dynamics), references (through their rates), gains and parameters can be differentiated".into()),
+                    })
+                }
+                None => continue,
+            };
+            let d = derivative(dag, e, &name);
+            if dag.is_zero(d) {
+                continue;
+            }
+            terms.push(dag.mul(vec![d, rate]));
+        }
+        Ok(match terms.len() {
+            0 => dag.int(0),
+            _ => dag.add(terms),
+        })
+    }
+}
