@@ -1,1 +1,271 @@
-fn main() {}
+//! The `lawsmith` command line: parses arguments, reads files, dispatches to the library
+//! crates, prints, and maps outcomes to exit codes. No derivation logic lives here.
+
+use clap::{Parser, Subcommand, ValueEnum};
+use lawsmith_expr::{to_latex, to_text, Dag, ExprId};
+use lawsmith_spec::{derive, load, render, Derivation, Spec};
+use serde_json::{json, Map, Value};
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+/// Exit code for a spec that cannot be read or is invalid.
+const EXIT_INVALID: u8 = 3;
+
+#[derive(Parser)]
+#[command(
+    name = "lawsmith",
+    version,
+    about = "Declare an energy-based control law, derive and prove its Lyapunov function, emit code."
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Print V, the closed-loop V̇ (simplified) and each law in base symbols.
+    Derive {
+        /// Spec files (YAML).
+        #[arg(required = true)]
+        specs: Vec<PathBuf>,
+        /// Output format.
+        #[arg(long, value_enum, default_value_t = Format::Text)]
+        format: Format,
+    },
+}
+
+#[derive(Copy, Clone, PartialEq, Eq, ValueEnum)]
+enum Format {
+    Text,
+    Latex,
+    Json,
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    // Formulas may nest up to the parser's depth limit and definitions stack on each other;
+    // run on a thread with a generous stack so every recursive pass has room.
+    let worker = std::thread::Builder::new()
+        .stack_size(256 << 20)
+        .spawn(move || run(cli))
+        .expect("spawn worker thread");
+    worker.join().unwrap_or(ExitCode::from(101))
+}
+
+fn run(cli: Cli) -> ExitCode {
+    match cli.command {
+        Command::Derive { specs, format } => derive_cmd(&specs, format),
+    }
+}
+
+/// Reads and validates one spec, printing diagnostics to stderr on failure.
+fn read_spec(path: &Path) -> Option<Spec> {
+    let name = path.display().to_string();
+    let bytes = match std::fs::read(path) {
+        Ok(b) => b,
+        Err(e) => {
+            eprintln!("error[io]: cannot read {name}: {e}");
+            return None;
+        }
+    };
+    if bytes.len() > lawsmith_spec::MAX_SPEC_BYTES {
+        eprintln!(
+            "error[too-large]: {name} is {} bytes; the limit is {} bytes",
+            bytes.len(),
+            lawsmith_spec::MAX_SPEC_BYTES
+        );
+        return None;
+    }
+    let source = match String::from_utf8(bytes) {
+        Ok(s) => s,
+        Err(e) => {
+            let at = e.utf8_error().valid_up_to();
+            let valid = String::from_utf8_lossy(&e.as_bytes()[..at]).to_string();
+            let line = valid.matches('\n').count() + 1;
+            let col = valid.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
+            eprintln!(
+                "error[encoding]: {name}:{line}:{col}: the file is not valid UTF-8 (byte {at})"
+            );
+            return None;
+        }
+    };
+    match load(&source) {
+        Ok(spec) => Some(spec),
+        Err(diags) => {
+            eprint!("{}", render(&name, &source, &diags));
+            eprintln!(
+                "{name}: {} problem{} found",
+                diags.len(),
+                if diags.len() == 1 { "" } else { "s" }
+            );
+            None
+        }
+    }
+}
+
+fn derive_cmd(paths: &[PathBuf], format: Format) -> ExitCode {
+    let mut failed = false;
+    let mut json_out = Vec::new();
+    for (i, path) in paths.iter().enumerate() {
+        let Some(mut spec) = read_spec(path) else {
+            failed = true;
+            continue;
+        };
+        let d = match derive(&mut spec) {
+            Ok(d) => d,
+            Err(e) => {
+                eprintln!("error[derive]: {}: {e}", path.display());
+                failed = true;
+                continue;
+            }
+        };
+        match format {
+            Format::Json => json_out.push(derivation_json(&spec, &d, path)),
+            Format::Text => {
+                if i > 0 {
+                    println!();
+                }
+                print!("{}", derivation_text(&spec, &d, path));
+            }
+            Format::Latex => {
+                if i > 0 {
+                    println!();
+                }
+                print!("{}", derivation_latex(&spec, &d));
+            }
+        }
+    }
+    if format == Format::Json {
+        let v = if json_out.len() == 1 {
+            json_out.pop().expect("one")
+        } else {
+            Value::Array(json_out)
+        };
+        println!("{}", serde_json::to_string_pretty(&v).expect("json"));
+    }
+    if failed {
+        ExitCode::from(EXIT_INVALID)
+    } else {
+        ExitCode::SUCCESS
+    }
+}
+
+fn text(dag: &Dag, e: ExprId) -> String {
+    to_text(dag, e)
+}
+
+fn derivation_text(spec: &Spec, d: &Derivation, path: &Path) -> String {
+    let dag = &spec.dag;
+    let mut s = String::new();
+    s.push_str(&format!("{} ({})\n", spec.name, path.display()));
+    if let Some(sum) = &spec.summary {
+        s.push_str(&format!("  {sum}\n"));
+    }
+    s.push_str(&format!("claim: {}\n\n", spec.claim.name()));
+    for (n, e) in &spec.where_defs {
+        s.push_str(&format!("where {n} = {}\n", text(dag, *e)));
+    }
+    s.push_str(&format!("V     = {}\n", text(dag, d.candidate)));
+    s.push_str(&format!("dV/dt = {}\n", text(dag, d.vdot)));
+    s.push_str("\nlaws (in base symbols):\n");
+    for (n, e) in &d.laws {
+        s.push_str(&format!("  {n} = {}\n", text(dag, *e)));
+    }
+    if !d.actuators.is_empty() {
+        s.push_str("actuators:\n");
+        for (n, e) in &d.actuators {
+            s.push_str(&format!("  {n} = {}\n", text(dag, *e)));
+        }
+    }
+    if !d.assumptions.is_empty() {
+        s.push_str("simplification assumed (to be proved over the envelope by `check`):\n");
+        for (rule, c) in &d.assumptions {
+            s.push_str(&format!(
+                "  [{rule}] {}\n",
+                c.kind.describe(&text(dag, c.expr))
+            ));
+        }
+    }
+    s
+}
+
+fn derivation_latex(spec: &Spec, d: &Derivation) -> String {
+    let dag = &spec.dag;
+    let mut s = format!("% {}: Lyapunov derivation\n\\begin{{align*}}\n", spec.name);
+    s.push_str(&format!("V &= {} \\\\\n", to_latex(dag, d.candidate)));
+    s.push_str(&format!("\\dot V &= {}", to_latex(dag, d.vdot)));
+    for (n, e) in &d.laws {
+        s.push_str(&format!(
+            " \\\\\n\\mathrm{{{}}} &= {}",
+            n.replace('_', "\\_"),
+            to_latex(dag, *e)
+        ));
+    }
+    s.push_str("\n\\end{align*}\n");
+    s
+}
+
+fn derivation_json(spec: &Spec, d: &Derivation, path: &Path) -> Value {
+    let dag = &spec.dag;
+    let mut laws = Map::new();
+    for (n, e) in &d.laws {
+        laws.insert(n.clone(), Value::String(text(dag, *e)));
+    }
+    let mut actuators = Map::new();
+    for (n, e) in &d.actuators {
+        actuators.insert(n.clone(), Value::String(text(dag, *e)));
+    }
+    let mut symbols = Map::new();
+    for s in &spec.symbols {
+        let mut o = Map::new();
+        o.insert("kind".into(), json!(s.kind.name()));
+        o.insert("unit".into(), json!(s.unit));
+        o.insert(
+            "range".into(),
+            s.range.map_or(Value::Null, |(a, b)| json!([a, b])),
+        );
+        if let Some(v) = s.value {
+            o.insert("value".into(), json!(v));
+        }
+        if let Some(v) = s.default {
+            o.insert("default".into(), json!(v));
+        }
+        if let Some(r) = &s.reference {
+            o.insert("reference".into(), json!(r));
+        }
+        if let Some(e) = s.equilibrium {
+            o.insert("equilibrium".into(), json!(e));
+        }
+        if let Some((a, b)) = s.error {
+            o.insert("error".into(), json!([a, b]));
+        }
+        if let Some(r) = &s.rate {
+            o.insert("rate".into(), json!(r));
+        }
+        symbols.insert(s.name.clone(), Value::Object(o));
+    }
+    let assumptions: Vec<Value> = d
+        .assumptions
+        .iter()
+        .map(|(rule, c)| {
+            json!({
+                "rule": rule,
+                "condition": format!("{:?}", c.kind),
+                "expr": text(dag, c.expr),
+            })
+        })
+        .collect();
+    json!({
+        "name": spec.name,
+        "file": path.display().to_string(),
+        "claim": spec.claim.name(),
+        "candidate": text(dag, d.candidate),
+        "vdot": text(dag, d.vdot),
+        "laws": laws,
+        "actuators": actuators,
+        "constraints": spec.constraints.iter().map(|c| c.text.clone()).collect::<Vec<_>>(),
+        "symbols": symbols,
+        "assumptions": assumptions,
+    })
+}

@@ -33,6 +33,11 @@ pub fn load(source: &str) -> Result<Spec, Vec<Diagnostic>> {
         )
         .hint("split the file or remove generated content")]);
     }
+    // A first pass that only walks the document: alias bombs and other budget breaches are
+    // reported as such, before any type error in the first field could hide them.
+    if let Err(e) = serde_saphyr::from_str::<serde::de::IgnoredAny>(source) {
+        return Err(vec![yaml_diagnostic(source, &e)]);
+    }
     let raw: RawSpec = match serde_saphyr::from_str(source) {
         Ok(r) => r,
         Err(e) => return Err(vec![yaml_diagnostic(source, &e)]),
@@ -601,15 +606,17 @@ impl<'s> Loader<'s> {
             }
         }
 
-        // 3. dimensions
-        for name in &def_order {
+        // 3. dimensions (skipped after a bad unit, whose dimension is unknown: checking would
+        //    only report consequences of the same typo)
+        let bad_units = self.diags.iter().any(|d| d.class == "bad-unit");
+        for name in def_order.iter().filter(|_| !bad_units) {
             self.def_dim(name, &mut Vec::new());
         }
-        for (state, (ast, base), text) in &dyn_asts {
+        for (state, (ast, base), text) in dyn_asts.iter().filter(|_| !bad_units) {
             let want = self.dim_of_symbol(state).map(|d| d.div(&second()));
             self.expect_dim(ast, *base, text, want, &format!("dynamics of `{state}`"));
         }
-        for (input, (ast, base), text) in &law_asts {
+        for (input, (ast, base), text) in law_asts.iter().filter(|_| !bad_units) {
             let want = self.dim_of_symbol(input);
             self.expect_dim(ast, *base, text, want, &format!("law for `{input}`"));
         }

@@ -1,0 +1,60 @@
+//! Tests as data: every file in `tests/data/err` must fail with a located diagnostic of the
+//! class its file name starts with (snapshot-locked rendering), every file in `tests/data/ok`
+//! must load and derive.
+
+use lawsmith_spec::{derive, load, render};
+use std::path::Path;
+
+fn rel(path: &Path) -> String {
+    format!(
+        "tests/data/{}/{}",
+        path.parent()
+            .unwrap()
+            .file_name()
+            .unwrap()
+            .to_string_lossy(),
+        path.file_name().unwrap().to_string_lossy()
+    )
+}
+
+#[test]
+fn every_bad_input_gets_a_located_diagnostic() {
+    insta::glob!("../../../tests/data", "err/*.yaml", |path| {
+        let source = std::fs::read_to_string(path).unwrap();
+        let diags = load(&source).expect_err("must be rejected");
+        let stem = path.file_stem().unwrap().to_string_lossy().to_string();
+        assert!(
+            diags.iter().any(|d| stem.starts_with(d.class)),
+            "{stem}: classes {:?}",
+            diags.iter().map(|d| d.class).collect::<Vec<_>>()
+        );
+        for d in &diags {
+            assert!(
+                d.span.start <= source.len(),
+                "{stem}: span outside the file"
+            );
+        }
+        insta::assert_snapshot!(render(&rel(path), &source, &diags));
+    });
+}
+
+#[test]
+fn every_good_spec_loads_and_derives() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../tests/data/ok");
+    let mut count = 0;
+    for entry in std::fs::read_dir(dir).unwrap() {
+        let path = entry.unwrap().path();
+        let source = std::fs::read_to_string(&path).unwrap();
+        let mut spec =
+            load(&source).unwrap_or_else(|d| panic!("{}", render(&rel(&path), &source, &d)));
+        derive(&mut spec).unwrap();
+        count += 1;
+    }
+    assert!(count >= 4);
+}
+
+#[test]
+fn there_are_at_least_twelve_classes_of_bad_input() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../tests/data/err");
+    assert!(std::fs::read_dir(dir).unwrap().count() >= 12);
+}
