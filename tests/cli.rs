@@ -1,0 +1,108 @@
+//! End-to-end tests of the `lawsmith` binary: exit codes, output formats, bad input.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn root() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+}
+
+fn lawsmith(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_lawsmith"))
+        .args(args)
+        .current_dir(root())
+        .output()
+        .unwrap()
+}
+
+#[test]
+fn every_bad_input_exits_3_without_a_panic() {
+    for e in std::fs::read_dir(root().join("tests/data/err")).unwrap() {
+        let p = e.unwrap().path();
+        let out = lawsmith(&["derive", p.to_str().unwrap()]);
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(3), "{}: {err}", p.display());
+        assert!(!err.contains("panicked"), "{}: {err}", p.display());
+        // every diagnostic names file:line:col
+        let name = p.file_name().unwrap().to_string_lossy().to_string();
+        assert!(err.contains(&format!("{name}:")), "{err}");
+    }
+}
+
+#[test]
+fn example_specs_derive_in_every_format() {
+    let specs: Vec<String> = ["energy_longitudinal", "energy_pitch", "pendulum_damping"]
+        .iter()
+        .map(|s| format!("specs/{s}.yaml"))
+        .collect();
+    for fmt in ["text", "latex", "json"] {
+        let mut args = vec!["derive", "--format", fmt];
+        args.extend(specs.iter().map(String::as_str));
+        let out = lawsmith(&args);
+        assert!(
+            out.status.success(),
+            "{fmt}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let text = String::from_utf8_lossy(&out.stdout);
+        match fmt {
+            "json" => {
+                let v: serde_json::Value = serde_json::from_str(&text).unwrap();
+                let arr = v.as_array().unwrap();
+                assert_eq!(arr.len(), 3);
+                for s in arr {
+                    for key in ["name", "candidate", "vdot", "laws", "symbols"] {
+                        assert!(s.get(key).is_some(), "missing {key}");
+                    }
+                }
+                assert_eq!(arr[2]["vdot"], "-k_d*omega^2");
+                assert_eq!(arr[0]["symbols"]["k_tot"]["kind"], "gain");
+                assert_eq!(
+                    arr[0]["symbols"]["h"]["range"],
+                    serde_json::json!([25.0, 605.0])
+                );
+            }
+            "latex" => {
+                assert_eq!(text.matches("\\begin{align*}").count(), 3);
+                assert_eq!(text.matches('{').count(), text.matches('}').count());
+            }
+            _ => assert!(text.contains("dV/dt = -k_d*omega^2")),
+        }
+    }
+}
+
+#[test]
+fn unreadable_and_non_utf8_files_are_reported() {
+    let out = lawsmith(&["derive", "specs/does_not_exist.yaml"]);
+    assert_eq!(out.status.code(), Some(3));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("cannot read"));
+    let dir = std::env::temp_dir().join(format!("lawsmith-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let bad = dir.join("latin1.yaml");
+    std::fs::write(&bad, b"name: caf\xe9\n").unwrap();
+    let out = lawsmith(&["derive", bad.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(3));
+    let err = String::from_utf8_lossy(&out.stderr).to_string();
+    assert!(
+        err.contains("latin1.yaml:1:10") && err.contains("UTF-8"),
+        "{err}"
+    );
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn a_100000_deep_formula_through_the_binary_is_a_located_error() {
+    let base = std::fs::read_to_string(root().join("tests/data/ok/spring_tracking.yaml")).unwrap();
+    let deep = format!("{}v{}", "-".repeat(100_000), "");
+    let source = base.replace("  x: v\n", &format!("  x: {deep}\n"));
+    let dir = std::env::temp_dir().join(format!("lawsmith-deep-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let p = dir.join("deep.yaml");
+    std::fs::write(&p, source).unwrap();
+    let out = lawsmith(&["derive", p.to_str().unwrap()]);
+    let err = String::from_utf8_lossy(&out.stderr).to_string();
+    assert_eq!(out.status.code(), Some(3), "{err}");
+    assert!(err.contains("deeper than 256 levels"), "{err}");
+    assert!(Path::new(&p).exists());
+    std::fs::remove_dir_all(&dir).unwrap();
+}
