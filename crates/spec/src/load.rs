@@ -97,6 +97,9 @@ fn offset_of(source: &str, line: usize, column: usize) -> usize {
     source.len()
 }
 
+/// A constraint's text, its two sides (each with the file offset of its text) and operator.
+type ParsedConstraint = (String, (Ast, usize), String, (Ast, usize));
+
 struct Def {
     ast: Option<Ast>,
     base: usize,
@@ -820,10 +823,7 @@ impl<'s> Loader<'s> {
         self.symbols.iter().find(|s| s.name == name).map(|s| s.dim)
     }
 
-    fn parse_constraint(
-        &mut self,
-        c: &SpannedStr,
-    ) -> Option<(String, (Ast, usize), String, (Ast, usize))> {
+    fn parse_constraint(&mut self, c: &SpannedStr) -> Option<ParsedConstraint> {
         let text = &c.value;
         let base = scalar_base(self.src, c);
         let ops = ["<=", ">=", "<", ">"];
