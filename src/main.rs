@@ -163,7 +163,7 @@ fn derivation_text(spec: &Spec, d: &Derivation, path: &Path) -> String {
         s.push_str(&format!("  {sum}\n"));
     }
     s.push_str(&format!("claim: {}\n\n", spec.claim.name()));
-    for (n, e) in &spec.where_defs {
+    for (n, e) in &d.where_defs {
         s.push_str(&format!("where {n} = {}\n", text(dag, *e)));
     }
     s.push_str(&format!("V     = {}\n", text(dag, d.candidate)));

@@ -17,6 +17,8 @@ pub struct Derivation {
     pub laws: Vec<(String, ExprId)>,
     /// Each actuator command in base symbols.
     pub actuators: Vec<(String, ExprId)>,
+    /// The `where` definitions of the candidate, simplified.
+    pub where_defs: Vec<(String, ExprId)>,
     /// Closed-loop state derivatives.
     pub closed_loop: Vec<(String, ExprId)>,
     /// Side conditions the simplification relied on (rule name, condition); the verifier
@@ -104,6 +106,11 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         .into_iter()
         .map(|(n, e)| (n, simp.simplify(dag, e)))
         .collect();
+    let where_defs = spec
+        .where_defs
+        .iter()
+        .map(|(n, e)| (n.clone(), simp.simplify(dag, *e)))
+        .collect();
     let closed_loop = closed
         .into_iter()
         .map(|(n, e)| (n, simp.simplify(dag, e)))
@@ -119,6 +126,7 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         vdot,
         laws,
         actuators,
+        where_defs,
         closed_loop,
         assumptions: Vec::new(),
     })

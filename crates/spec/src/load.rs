@@ -67,6 +67,16 @@ fn yaml_diagnostic(source: &str, e: &serde_saphyr::Error) -> Diagnostic {
         .location()
         .map(|loc| offset_of(source, loc.line() as usize, loc.column() as usize))
         .unwrap_or(0);
+    if let Some(rest) = message.strip_prefix("duplicate mapping key: ") {
+        let key = rest.split(',').next().unwrap_or(rest).trim();
+        return Diagnostic::new(
+            "duplicate-name",
+            format!("`{key}` appears twice in the same mapping"),
+            offset..offset + key.len().max(1),
+        )
+        .label("second occurrence")
+        .hint("YAML keeps only one of them; remove or rename the other");
+    }
     let class = if message.contains("budget") || message.contains("alias") {
         "yaml-budget"
     } else if message.contains("unknown field") || message.contains("missing field") {
@@ -419,6 +429,17 @@ impl<'s> Loader<'s> {
                 sym.reference = s.reference.as_ref().map(|r| r.value.clone());
                 if sym.reference.is_none() {
                     let eq = s.equilibrium.as_ref().map_or(0.0, |e| e.value);
+                    if !eq.is_finite() {
+                        let span = s
+                            .equilibrium
+                            .as_ref()
+                            .map_or(0..0, |e| range_of(self.src, e));
+                        self.diags.push(Diagnostic::new(
+                            "bad-number",
+                            "the equilibrium must be finite",
+                            span,
+                        ));
+                    }
                     sym.equilibrium = Some(eq);
                     range = error.map(|(lo, hi)| (eq + lo, eq + hi));
                 }
@@ -799,16 +820,10 @@ impl<'s> Loader<'s> {
         })
     }
 
+    /// Definitions (energies, `where` names) share the namespace of symbols; they are recorded
+    /// with the `Command` kind (never an input of a formula) and recognised through `defs`.
     fn declare_def(&mut self, n: &SpannedStr) -> bool {
-        // definitions are names too; reuse the checks with a placeholder kind
-        let before = self.diags.len();
-        let ok = self.declare(n, SymbolKind::Command);
-        if ok {
-            self.decl.remove(&n.value);
-            self.decl
-                .insert(n.value.clone(), (SymbolKind::Command, self.name_span(n)));
-        }
-        ok && self.diags.len() == before
+        self.declare(n, SymbolKind::Command)
     }
 
     fn names_of(&self, kind: SymbolKind) -> Vec<String> {
