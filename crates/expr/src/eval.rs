@@ -2,6 +2,8 @@
 
 use crate::dag::{Dag, ExprId, Func, Node};
 use crate::number::to_f64;
+use num_rational::BigRational;
+use num_traits::ToPrimitive;
 use std::collections::HashMap;
 
 /// Applies a formula function to f64 arguments (the same semantics everywhere in lawsmith).
@@ -84,9 +86,58 @@ fn eval_rec(
     Ok(v)
 }
 
+/// Arithmetic a [`Tape`] can run on: `f64` here, intervals in the verifier.
+pub trait Arith: Clone {
+    /// The constant `value`; `exact` says whether `value` equals the rational constant it
+    /// stands for (an interval widens an inexact one by an ulp on each side).
+    fn constant(value: f64, exact: bool) -> Self;
+    /// `-a`.
+    fn neg(&self) -> Self;
+    /// `a + b`.
+    fn add(&self, b: &Self) -> Self;
+    /// `a * b`.
+    fn mul(&self, b: &Self) -> Self;
+    /// `a / b`.
+    fn div(&self, b: &Self) -> Self;
+    /// `a ^ b`.
+    fn pow(&self, b: &Self) -> Self;
+    /// `a ^ n` for a small integer `n`.
+    fn powi(&self, n: i32) -> Self;
+    /// A formula function.
+    fn call(f: Func, args: &[Self]) -> Self;
+}
+
+impl Arith for f64 {
+    fn constant(value: f64, _exact: bool) -> f64 {
+        value
+    }
+    fn neg(&self) -> f64 {
+        -self
+    }
+    fn add(&self, b: &f64) -> f64 {
+        self + b
+    }
+    fn mul(&self, b: &f64) -> f64 {
+        self * b
+    }
+    fn div(&self, b: &f64) -> f64 {
+        self / b
+    }
+    fn pow(&self, b: &f64) -> f64 {
+        pow(*self, *b)
+    }
+    fn powi(&self, n: i32) -> f64 {
+        f64::powi(*self, n)
+    }
+    fn call(f: Func, args: &[f64]) -> f64 {
+        apply(f, args)
+    }
+}
+
 #[derive(Clone, Debug)]
 enum Op {
-    Const(f64),
+    Const(f64, bool),
+    Powi(u32, i32),
     Var(usize),
     Neg(u32),
     Add(u32, u32),
@@ -145,7 +196,9 @@ impl Tape {
                 };
                 let out = match node {
                     Node::Num(v) => {
-                        ops.push(Op::Const(to_f64(v)));
+                        let f = to_f64(v);
+                        let exact = BigRational::from_float(f).is_some_and(|r| r == *v);
+                        ops.push(Op::Const(f, exact));
                         (ops.len() - 1) as u32
                     }
                     Node::Sym(name) => {
@@ -166,7 +219,15 @@ impl Tape {
                         (ops.len() - 1) as u32
                     }
                     Node::Pow(a, b) => {
-                        ops.push(Op::Pow(s(a), s(b)));
+                        let small_int = dag
+                            .as_num(*b)
+                            .filter(|v| v.is_integer())
+                            .and_then(|v| v.to_integer().to_i32())
+                            .filter(|n| n.unsigned_abs() <= 64);
+                        ops.push(match small_int {
+                            Some(n) => Op::Powi(s(a), n),
+                            None => Op::Pow(s(a), s(b)),
+                        });
                         (ops.len() - 1) as u32
                     }
                     Node::Call(f, xs) => {
@@ -206,27 +267,33 @@ impl Tape {
 
     /// Evaluates every root; `scratch` is reused between calls; results go to `out`.
     pub fn eval_into(&self, vars: &[f64], scratch: &mut Vec<f64>, out: &mut [f64]) {
+        self.run(vars, scratch, out);
+    }
+
+    /// Runs the tape in any [`Arith`]: f64, intervals, …
+    pub fn run<T: Arith>(&self, vars: &[T], scratch: &mut Vec<T>, out: &mut [T]) {
         scratch.clear();
         scratch.reserve(self.ops.len());
         for op in &self.ops {
-            let r = |i: &u32| scratch[*i as usize];
+            let r = |i: &u32| &scratch[*i as usize];
             let v = match op {
-                Op::Const(c) => *c,
-                Op::Var(i) => vars[*i],
-                Op::Neg(a) => -r(a),
-                Op::Add(a, b) => r(a) + r(b),
-                Op::Mul(a, b) => r(a) * r(b),
-                Op::Div(a, b) => r(a) / r(b),
-                Op::Pow(a, b) => pow(r(a), r(b)),
+                Op::Const(c, exact) => T::constant(*c, *exact),
+                Op::Var(i) => vars[*i].clone(),
+                Op::Neg(a) => r(a).neg(),
+                Op::Add(a, b) => r(a).add(r(b)),
+                Op::Mul(a, b) => r(a).mul(r(b)),
+                Op::Div(a, b) => r(a).div(r(b)),
+                Op::Pow(a, b) => r(a).pow(r(b)),
+                Op::Powi(a, n) => r(a).powi(*n),
                 Op::Call(f, args) => {
-                    let a = [r(&args[0]), r(&args[1]), r(&args[2])];
-                    apply(*f, &a[..f.arity()])
+                    let a: Vec<T> = args[..f.arity()].iter().map(|i| r(i).clone()).collect();
+                    T::call(*f, &a)
                 }
             };
             scratch.push(v);
         }
         for (o, &i) in out.iter_mut().zip(&self.outputs) {
-            *o = scratch[i as usize];
+            *o = scratch[i as usize].clone();
         }
     }
 
