@@ -8,7 +8,7 @@ pub struct Rng(pub u64);
 
 impl Rng {
     /// Next 64 random bits.
-    pub fn next(&mut self) -> u64 {
+    pub fn next_u64(&mut self) -> u64 {
         // splitmix64
         self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
         let mut z = self.0;
@@ -18,11 +18,11 @@ impl Rng {
     }
     /// Uniform in `0..n`.
     pub fn below(&mut self, n: u64) -> u64 {
-        self.next() % n
+        self.next_u64() % n
     }
     /// Uniform in [0, 1).
     pub fn unit(&mut self) -> f64 {
-        (self.next() >> 11) as f64 / (1u64 << 53) as f64
+        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
     }
 }
 
@@ -36,6 +36,9 @@ pub struct Gen {
     pub smooth_only: bool,
     /// Only `+ - * /` and integer powers.
     pub rational_only: bool,
+    /// Every function of the formula language, with arguments that often (not always) stay
+    /// inside their domains; for interval-soundness tests.
+    pub all_functions: bool,
 }
 
 /// A random expression of at most `depth` levels over [`VARS`]. Denominators are kept away
@@ -84,6 +87,24 @@ pub fn random_expr(dag: &mut Dag, rng: &mut Rng, depth: u32, g: Gen) -> ExprId {
             let a = random_expr(dag, rng, depth - 1, g);
             let n = rng.below(3) as i64;
             dag.powi(a, n)
+        }
+        _ if g.all_functions => {
+            let f = Func::ALL[rng.below(Func::ALL.len() as u64) as usize];
+            let args: Vec<ExprId> = (0..f.arity())
+                .map(|_| random_expr(dag, rng, depth - 1, g))
+                .collect();
+            if rng.below(3) == 0 && f.arity() == 2 {
+                // a real (non-integer) power, base kept positive
+                let one = dag.int(1);
+                let sq = dag.powi(args[0], 2);
+                let base = dag.add(vec![one, sq]);
+                let half = parse_expr(dag, "0.5").expect("literal");
+                let e = dag.mul(vec![half, args[1]]);
+                let ten = dag.int(10);
+                let e = dag.div(e, ten);
+                return dag.pow(base, e);
+            }
+            dag.call(f, args)
         }
         _ => {
             let fs: &[Func] = if g.smooth_only {

@@ -30,6 +30,7 @@ fn printing_parses_back_to_the_same_id() {
     let g = Gen {
         smooth_only: false,
         rational_only: false,
+        all_functions: false,
     };
     for _ in 0..20_000 {
         let e = random_expr(&mut dag, &mut rng, 5, g);
@@ -46,6 +47,7 @@ fn derivative_matches_central_differences() {
     let g = Gen {
         smooth_only: true,
         rational_only: false,
+        all_functions: false,
     };
     let (mut checked, mut skipped) = (0, 0);
     for _ in 0..5_000 {
@@ -127,10 +129,12 @@ fn canonical_form_ignores_the_order_of_sums_and_products() {
         Gen {
             smooth_only: true,
             rational_only: true,
+            all_functions: false,
         },
         Gen {
             smooth_only: false,
             rational_only: false,
+            all_functions: false,
         },
     ]
     .into_iter()
@@ -162,6 +166,7 @@ fn simplification_preserves_values_and_is_idempotent() {
     let g = Gen {
         smooth_only: false,
         rational_only: false,
+        all_functions: false,
     };
     for _ in 0..COUNT {
         let e = random_expr(&mut dag, &mut rng, 4, g);
@@ -196,6 +201,7 @@ fn tape_agrees_bit_for_bit_with_the_evaluator() {
     let g = Gen {
         smooth_only: false,
         rational_only: false,
+        all_functions: false,
     };
     for _ in 0..2_000 {
         let e = random_expr(&mut dag, &mut rng, 5, g);
