@@ -286,8 +286,13 @@ impl Tape {
                 Op::Pow(a, b) => r(a).pow(r(b)),
                 Op::Powi(a, n) => r(a).powi(*n),
                 Op::Call(f, args) => {
-                    let a: Vec<T> = args[..f.arity()].iter().map(|i| r(i).clone()).collect();
-                    T::call(*f, &a)
+                    // unused argument slots point at slot 0, which always exists
+                    let a = [
+                        r(&args[0]).clone(),
+                        r(&args[1]).clone(),
+                        r(&args[2]).clone(),
+                    ];
+                    T::call(*f, &a[..f.arity()])
                 }
             };
             scratch.push(v);

@@ -54,19 +54,17 @@ pub fn random_expr(dag: &mut Dag, rng: &mut Rng, depth: u32, g: Gen) -> ExprId {
     }
     let kinds = if g.rational_only { 6 } else { 8 };
     match rng.below(kinds) {
-        0 | 1 => {
-            let n = 2 + rng.below(3) as usize;
+        // sums are drawn twice as often as products
+        k @ 0..=2 => {
+            let n = 2 + rng.below(if k == 2 { 2 } else { 3 }) as usize;
             let xs = (0..n)
                 .map(|_| random_expr(dag, rng, depth - 1, g))
                 .collect();
-            dag.add(xs)
-        }
-        2 => {
-            let n = 2 + rng.below(2) as usize;
-            let xs = (0..n)
-                .map(|_| random_expr(dag, rng, depth - 1, g))
-                .collect();
-            dag.mul(xs)
+            if k == 2 {
+                dag.mul(xs)
+            } else {
+                dag.add(xs)
+            }
         }
         3 => {
             let a = random_expr(dag, rng, depth - 1, g);

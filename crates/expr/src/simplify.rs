@@ -209,16 +209,10 @@ impl<'o> Simplifier<'o> {
         }
         if a.den == b.den {
             let num = a.num.add(&b.num);
-            return self.cancel_with(dag, num, a.den.clone(), &a.den.clone());
+            return self.cancel_with(dag, num, a.den.clone(), &a.den);
         }
-        match gcd(&a.den, &b.den) {
-            Some(g) if g.as_constant().is_some() => {
-                let num = a.num.mul(&b.den).add(&b.num.mul(&a.den));
-                self.normalise(Rat {
-                    num,
-                    den: a.den.mul(&b.den),
-                })
-            }
+        // a failed (over-budget) gcd is treated like a trivial one: no cancellation
+        match gcd(&a.den, &b.den).filter(|g| g.as_constant().is_none()) {
             Some(g) => {
                 let bd = a.den.div_exact(&g).expect("gcd divides");
                 let dd = b.den.div_exact(&g).expect("gcd divides");
