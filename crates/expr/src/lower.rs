@@ -6,6 +6,9 @@ use crate::parse::{Ast, AstKind, Span};
 /// A problem found while lowering, with the span it points at.
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub struct LowerError {
+    /// Stable class of the problem (`unknown-function`, `arity`, `syntax`, or a class the
+    /// resolver chose), so callers report it without reading the message.
+    pub class: &'static str,
     /// What is wrong.
     pub message: String,
     /// Where, in the formula.
@@ -113,6 +116,7 @@ fn lower_rec(
             if let Some(f) = Func::from_name(name) {
                 if lowered.len() != f.arity() {
                     errors.push(LowerError {
+                        class: "arity",
                         message: format!(
                             "`{name}` takes {} argument{}, found {}",
                             f.arity(),
@@ -136,6 +140,7 @@ fn lower_rec(
                     let mut known: Vec<&str> = Func::ALL.iter().map(|f| f.name()).collect();
                     known.extend(resolver.extra_functions());
                     errors.push(LowerError {
+                        class: "unknown-function",
                         message: format!("unknown function `{name}`"),
                         span: *name_span,
                         hint: Some(match crate::nearest(name, known.iter().copied()) {
@@ -153,6 +158,7 @@ fn lower_rec(
 /// Parses and lowers a formula with every name a plain symbol. Handy in tests and tools.
 pub fn parse_expr(dag: &mut Dag, text: &str) -> Result<ExprId, LowerError> {
     let ast = crate::parse::parse(text).map_err(|e| LowerError {
+        class: "syntax",
         message: e.message,
         span: e.span,
         hint: None,

@@ -1171,7 +1171,7 @@ impl<'s> Loader<'s> {
         };
         for e in errors {
             let span = self.file_span(ctx.base, &ctx.text, e.span);
-            let mut d = Diagnostic::new(class_of(&e), e.message, span).label("here");
+            let mut d = Diagnostic::new(e.class, e.message, span).label("here");
             if let Some(h) = e.hint {
                 d = d.hint(h);
             }
@@ -1201,22 +1201,6 @@ impl<'s> Loader<'s> {
         let id = self.lower_in(dag, &ast, &ctx)?;
         self.defs.get_mut(name)?.lowered = Some(id);
         Some(id)
-    }
-}
-
-fn class_of(e: &LowerError) -> &'static str {
-    if e.message.starts_with("unknown function") {
-        "unknown-function"
-    } else if e.message.starts_with("unknown symbol") {
-        "unknown-symbol"
-    } else if e.message.contains("later law") || e.message.contains("its own law") {
-        "law-order"
-    } else if e.message.contains("ddt(") {
-        "no-rate"
-    } else if e.message.contains("argument") {
-        "arity"
-    } else {
-        "formula"
     }
 }
 
@@ -1278,6 +1262,7 @@ impl Resolver for SpecResolver<'_, '_, '_> {
                 .loader
                 .lower_def(dag, name, dynamics)
                 .ok_or_else(|| LowerError {
+                    class: "formula",
                     message: format!("definition `{name}` could not be resolved"),
                     span,
                     hint: None,
@@ -1285,6 +1270,7 @@ impl Resolver for SpecResolver<'_, '_, '_> {
         }
         let Some(sym) = self.loader.symbols.iter().find(|s| s.name == name) else {
             return Err(LowerError {
+                class: "unknown-symbol",
                 message: format!("unknown symbol `{name}`"),
                 span,
                 hint: None,
@@ -1305,6 +1291,7 @@ impl Resolver for SpecResolver<'_, '_, '_> {
                         "a later law"
                     };
                     return Err(LowerError {
+                        class: "law-order",
                         message: format!(
                             "`{name}` is computed by {which}; a law may use only the laws above it"
                         ),
@@ -1377,6 +1364,7 @@ impl SpecResolver<'_, '_, '_> {
                     Some(&f) => f,
                     None => {
                         return Err(LowerError {
+                            class: "no-rate",
                             message: format!("ddt(…) needs the dynamics of `{name}`, which are not available here"),
                             span,
                             hint: Some("ddt of a state may be used in laws, definitions and the candidate, not inside the dynamics".into()),
@@ -1385,6 +1373,7 @@ impl SpecResolver<'_, '_, '_> {
                 },
                 Some((k, _)) => {
                     return Err(LowerError {
+                        class: "no-rate",
                         message: format!("ddt(…) needs the time derivative of `{name}`, a {} with no declared rate", k.name()),
                         span,
                         hint: Some("only states (through their dynamics), references (through their rates), gains and parameters can be differentiated".into()),
