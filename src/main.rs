@@ -2,7 +2,7 @@
 //! crates, prints, and maps outcomes to exit codes. No derivation logic lives here.
 
 use clap::{Parser, Subcommand, ValueEnum};
-use lawsmith_expr::{to_latex, to_text, Dag, ExprId};
+use lawsmith_expr::{to_latex, to_text};
 use lawsmith_spec::{derive, load, render, Derivation, Spec};
 use serde_json::{json, Map, Value};
 use std::path::{Path, PathBuf};
@@ -151,10 +151,6 @@ fn derive_cmd(paths: &[PathBuf], format: Format) -> ExitCode {
     }
 }
 
-fn text(dag: &Dag, e: ExprId) -> String {
-    to_text(dag, e)
-}
-
 fn derivation_text(spec: &Spec, d: &Derivation, path: &Path) -> String {
     let dag = &spec.dag;
     let mut s = String::new();
@@ -164,18 +160,18 @@ fn derivation_text(spec: &Spec, d: &Derivation, path: &Path) -> String {
     }
     s.push_str(&format!("claim: {}\n\n", spec.claim.name()));
     for (n, e) in &d.where_defs {
-        s.push_str(&format!("where {n} = {}\n", text(dag, *e)));
+        s.push_str(&format!("where {n} = {}\n", to_text(dag, *e)));
     }
-    s.push_str(&format!("V     = {}\n", text(dag, d.candidate)));
-    s.push_str(&format!("dV/dt = {}\n", text(dag, d.vdot)));
+    s.push_str(&format!("V     = {}\n", to_text(dag, d.candidate)));
+    s.push_str(&format!("dV/dt = {}\n", to_text(dag, d.vdot)));
     s.push_str("\nlaws (in base symbols):\n");
     for (n, e) in &d.laws {
-        s.push_str(&format!("  {n} = {}\n", text(dag, *e)));
+        s.push_str(&format!("  {n} = {}\n", to_text(dag, *e)));
     }
     if !d.actuators.is_empty() {
         s.push_str("actuators:\n");
         for (n, e) in &d.actuators {
-            s.push_str(&format!("  {n} = {}\n", text(dag, *e)));
+            s.push_str(&format!("  {n} = {}\n", to_text(dag, *e)));
         }
     }
     if !d.assumptions.is_empty() {
@@ -183,7 +179,7 @@ fn derivation_text(spec: &Spec, d: &Derivation, path: &Path) -> String {
         for (rule, c) in &d.assumptions {
             s.push_str(&format!(
                 "  [{rule}] {}\n",
-                c.kind.describe(&text(dag, c.expr))
+                c.kind.describe(&to_text(dag, c.expr))
             ));
         }
     }
@@ -210,11 +206,11 @@ fn derivation_json(spec: &Spec, d: &Derivation, path: &Path) -> Value {
     let dag = &spec.dag;
     let mut laws = Map::new();
     for (n, e) in &d.laws {
-        laws.insert(n.clone(), Value::String(text(dag, *e)));
+        laws.insert(n.clone(), Value::String(to_text(dag, *e)));
     }
     let mut actuators = Map::new();
     for (n, e) in &d.actuators {
-        actuators.insert(n.clone(), Value::String(text(dag, *e)));
+        actuators.insert(n.clone(), Value::String(to_text(dag, *e)));
     }
     let mut symbols = Map::new();
     for s in &spec.symbols {
@@ -252,7 +248,7 @@ fn derivation_json(spec: &Spec, d: &Derivation, path: &Path) -> Value {
             json!({
                 "rule": rule,
                 "condition": format!("{:?}", c.kind),
-                "expr": text(dag, c.expr),
+                "expr": to_text(dag, c.expr),
             })
         })
         .collect();
@@ -260,8 +256,8 @@ fn derivation_json(spec: &Spec, d: &Derivation, path: &Path) -> Value {
         "name": spec.name,
         "file": path.display().to_string(),
         "claim": spec.claim.name(),
-        "candidate": text(dag, d.candidate),
-        "vdot": text(dag, d.vdot),
+        "candidate": to_text(dag, d.candidate),
+        "vdot": to_text(dag, d.vdot),
         "laws": laws,
         "actuators": actuators,
         "constraints": spec.constraints.iter().map(|c| c.text.clone()).collect::<Vec<_>>(),

@@ -1,16 +1,17 @@
 //! Loading: YAML → raw schema → checked names, units and ranges → dimension-checked, lowered
 //! formulas. Every problem found is collected; loading fails only at the end.
 
+mod dims;
+mod resolve;
+
 use crate::diag::Diagnostic;
 use crate::model::*;
 use crate::names::{identifier_problem, reserved_reason};
 use crate::schema::*;
 use crate::units::{parse_unit, Dim};
-use lawsmith_expr::{
-    derivative, lower, nearest, parse_decimal, parse_with, Ast, AstKind, Dag, ExprId, Func,
-    LowerError, ParseSettings, Resolver, Span,
-};
-use num_rational::Rational32;
+use dims::second;
+use lawsmith_expr::{nearest, parse_with, Ast, Dag, ExprId, ParseSettings, Span};
+use resolve::Ctx;
 use serde_saphyr::Spanned;
 use std::collections::{HashMap, HashSet};
 use std::ops::Range;
@@ -153,18 +154,6 @@ fn range_of<T>(src: &str, s: &Spanned<T>) -> Range<usize> {
         .min(src.len());
     let len = loc.span().byte_len().map_or(1, |l| l as usize).max(1);
     off..(off + len).min(src.len())
-}
-
-fn exact(v: f64) -> lawsmith_expr::BigRational {
-    // Rust prints the shortest decimal that round-trips, so `9.80665` comes back exactly as
-    // written in the YAML.
-    let text = format!("{}", v.abs());
-    let r = parse_decimal(&text).unwrap_or_default();
-    if v < 0.0 {
-        -r
-    } else {
-        r
-    }
 }
 
 impl<'s> Loader<'s> {
@@ -477,10 +466,12 @@ impl<'s> Loader<'s> {
                 self.inputs.push(n.value.clone());
             }
         }
-        // definitions: energies and `where` names share one namespace with the symbols
+        // definitions: energies and `where` names share one namespace with the symbols; they
+        // are declared with the `Command` kind (never an input of a formula) and recognised
+        // through `defs`
         let mut def_order = Vec::new();
         for (n, f) in raw.energies.0.iter().chain(raw.lyapunov.where_.0.iter()) {
-            if !self.declare_def(n) {
+            if !self.declare(n, SymbolKind::Command) {
                 continue;
             }
             let parsed = self.parse_formula(f);
@@ -820,12 +811,6 @@ impl<'s> Loader<'s> {
         })
     }
 
-    /// Definitions (energies, `where` names) share the namespace of symbols; they are recorded
-    /// with the `Command` kind (never an input of a formula) and recognised through `defs`.
-    fn declare_def(&mut self, n: &SpannedStr) -> bool {
-        self.declare(n, SymbolKind::Command)
-    }
-
     fn names_of(&self, kind: SymbolKind) -> Vec<String> {
         self.symbols
             .iter()
@@ -942,285 +927,6 @@ impl<'s> Loader<'s> {
             .hint("widen the gain ranges or relax the constraints"),
         );
     }
-
-    fn def_dim(&mut self, name: &str, stack: &mut Vec<String>) -> Option<Dim> {
-        if let Some(d) = self.def_dims.get(name) {
-            return *d;
-        }
-        if let Some(pos) = stack.iter().position(|s| s == name) {
-            let cycle = stack[pos..].join(" → ");
-            let span = self.decl.get(name).map(|d| d.1.clone()).unwrap_or(0..0);
-            self.err(
-                Diagnostic::new(
-                    "cycle",
-                    format!("definitions refer to each other in a cycle: {cycle} → {name}"),
-                    span,
-                )
-                .label("part of the cycle")
-                .hint(
-                    "a definition may use only symbols and definitions that do not come back to it",
-                ),
-            );
-            self.def_dims.insert(name.to_string(), None);
-            return None;
-        }
-        let (ast, base, text) = {
-            let d = self.defs.get(name)?;
-            (d.ast.clone()?, d.base, d.text.clone())
-        };
-        stack.push(name.to_string());
-        let dim = self.dim(&ast, base, &text, stack);
-        stack.pop();
-        self.def_dims.insert(name.to_string(), dim);
-        dim
-    }
-
-    fn expect_dim(&mut self, ast: &Ast, base: usize, text: &str, want: Option<Dim>, what: &str) {
-        let got = self.dim(ast, base, text, &mut Vec::new());
-        if let (Some(g), Some(w)) = (got, want) {
-            if g != w {
-                let span = self.file_span(base, text, ast.span);
-                self.err(
-                    Diagnostic::new(
-                        "dimension",
-                        format!("the {what} is in {g} but should be in {w}"),
-                        span,
-                    )
-                    .label(format!("this is {g}")),
-                );
-            }
-        }
-    }
-
-    /// Infers the dimension of a formula; reports mismatches; `None` when unknown after an
-    /// error (so one mistake is reported once).
-    fn dim(&mut self, ast: &Ast, base: usize, text: &str, stack: &mut Vec<String>) -> Option<Dim> {
-        let here = |l: &Self, a: &Ast| l.file_span(base, text, a.span);
-        match &ast.kind {
-            AstKind::Num(_) => Some(Dim::one()),
-            AstKind::Sym(name) => {
-                if let Some(d) = self.dim_of_symbol(name) {
-                    if self.decl.get(name).map(|d| d.0) == Some(SymbolKind::Command)
-                        && !self.defs.contains_key(name)
-                    {
-                        // actuator and command names are outputs, not inputs of formulas
-                        let span = here(self, ast);
-                        self.err(Diagnostic::new(
-                            "unknown-symbol",
-                            format!("`{name}` is a command output and cannot be used in a formula"),
-                            span,
-                        ));
-                        return None;
-                    }
-                    return Some(d);
-                }
-                if self.defs.contains_key(name) {
-                    return self.def_dim(name, stack);
-                }
-                let span = here(self, ast);
-                let d = self.unknown_symbol(name, span);
-                self.err(d);
-                None
-            }
-            AstKind::Neg(a) => self.dim(a, base, text, stack),
-            AstKind::Add(xs) => {
-                let mut first: Option<(Dim, &Ast)> = None;
-                let mut ok = true;
-                for x in xs {
-                    let d = self.dim(x, base, text, stack);
-                    match (d, first) {
-                        (Some(d), None) => first = Some((d, x)),
-                        (Some(d), Some((f, _))) if d != f => {
-                            let span = here(self, x);
-                            self.err(
-                                Diagnostic::new(
-                                    "dimension",
-                                    format!("cannot add {d} to {f}"),
-                                    span,
-                                )
-                                .label(format!("this term is {d}"))
-                                .hint("every term of a sum must have the same unit"),
-                            );
-                            ok = false;
-                        }
-                        (None, _) => ok = false,
-                        _ => {}
-                    }
-                }
-                if ok {
-                    first.map(|f| f.0)
-                } else {
-                    None
-                }
-            }
-            AstKind::Mul(xs) => {
-                let mut acc = Dim::one();
-                let mut ok = true;
-                for x in xs {
-                    match self.dim(x, base, text, stack) {
-                        Some(d) => acc = acc.mul(&d),
-                        None => ok = false,
-                    }
-                }
-                ok.then_some(acc)
-            }
-            AstKind::Div(a, b) => {
-                let da = self.dim(a, base, text, stack);
-                let db = self.dim(b, base, text, stack);
-                Some(da?.div(&db?))
-            }
-            AstKind::Pow(a, b) => {
-                let da = self.dim(a, base, text, stack)?;
-                let db = self.dim(b, base, text, stack)?;
-                if !db.is_one() {
-                    let span = here(self, b);
-                    self.err(Diagnostic::new(
-                        "dimension",
-                        format!("an exponent must be dimensionless, this one is {db}"),
-                        span,
-                    ));
-                    return None;
-                }
-                if da.is_one() {
-                    return Some(da);
-                }
-                match const_exponent(b) {
-                    Some(k) => Some(da.pow(k)),
-                    None => {
-                        let span = here(self, b);
-                        self.err(Diagnostic::new(
-                            "dimension",
-                            format!("a quantity in {da} can only be raised to a constant power"),
-                            span,
-                        ));
-                        None
-                    }
-                }
-            }
-            AstKind::Call { name, args, .. } => {
-                let dims: Vec<Option<Dim>> = args
-                    .iter()
-                    .map(|a| self.dim(a, base, text, stack))
-                    .collect();
-                let arity_ok = match Func::from_name(name) {
-                    Some(f) => f.arity() == args.len(),
-                    None => (name == "ref" || name == "ddt") && args.len() == 1,
-                };
-                if !arity_ok {
-                    // lowering reports unknown functions and argument counts with suggestions
-                    return None;
-                }
-                let dims: Vec<Dim> = dims.into_iter().collect::<Option<_>>()?;
-                match name.as_str() {
-                    "ref" => Some(dims[0]),
-                    "ddt" => Some(dims[0].div(&second())),
-                    "sqrt" => Some(dims[0].pow(Rational32::new(1, 2))),
-                    "abs" => Some(dims[0]),
-                    "min" | "max" | "clamp" | "atan2" => {
-                        for (i, d) in dims.iter().enumerate().skip(1) {
-                            if *d != dims[0] {
-                                let span = here(self, &args[i]);
-                                self.err(Diagnostic::new(
-                                    "dimension",
-                                    format!("`{name}` compares {} with {d}", dims[0]),
-                                    span,
-                                ));
-                                return None;
-                            }
-                        }
-                        Some(if name == "atan2" { Dim::one() } else { dims[0] })
-                    }
-                    _ => {
-                        if !dims[0].is_one() {
-                            let span = here(self, &args[0]);
-                            self.err(
-                                Diagnostic::new(
-                                    "dimension",
-                                    format!("the argument of `{name}` must be dimensionless, this one is {}", dims[0]),
-                                    span,
-                                )
-                                .label(format!("this is {}", dims[0])),
-                            );
-                            return None;
-                        }
-                        Some(Dim::one())
-                    }
-                }
-            }
-        }
-    }
-
-    fn unknown_symbol(&self, name: &str, span: Range<usize>) -> Diagnostic {
-        let mut names: Vec<&str> = self.decl.keys().map(String::as_str).collect();
-        names.sort();
-        let mut d = Diagnostic::new("unknown-symbol", format!("unknown symbol `{name}`"), span)
-            .label("not declared");
-        if let Some(s) = nearest(name, names.iter().copied()) {
-            d = d.hint(format!("did you mean `{s}`?"));
-        } else {
-            d = d.hint("declare it under parameters, gains, states, references, signals or inputs");
-        }
-        d
-    }
-
-    fn lower_in(&mut self, dag: &mut Dag, ast: &Ast, ctx: &Ctx) -> Option<ExprId> {
-        let mut errors = Vec::new();
-        let id = {
-            let mut r = SpecResolver { loader: self, ctx };
-            lower(dag, ast, &mut r, &mut errors)
-        };
-        for e in errors {
-            let span = self.file_span(ctx.base, &ctx.text, e.span);
-            let mut d = Diagnostic::new(e.class, e.message, span).label("here");
-            if let Some(h) = e.hint {
-                d = d.hint(h);
-            }
-            self.err(d);
-        }
-        id
-    }
-
-    /// Lowers a definition once; later uses share the id.
-    fn lower_def(
-        &mut self,
-        dag: &mut Dag,
-        name: &str,
-        ctx_dyn: Option<&HashMap<String, ExprId>>,
-    ) -> Option<ExprId> {
-        let d = self.defs.get(name)?;
-        if let Some(id) = d.lowered {
-            return Some(id);
-        }
-        let (ast, base, text) = (d.ast.clone()?, d.base, d.text.clone());
-        let ctx = Ctx {
-            base,
-            text,
-            law_index: None,
-            dynamics: ctx_dyn,
-        };
-        let id = self.lower_in(dag, &ast, &ctx)?;
-        self.defs.get_mut(name)?.lowered = Some(id);
-        Some(id)
-    }
-}
-
-fn second() -> Dim {
-    parse_unit("s").expect("s is a unit")
-}
-
-fn const_exponent(a: &Ast) -> Option<Rational32> {
-    match &a.kind {
-        AstKind::Num(v) => {
-            let n = i32::try_from(v.numer()).ok()?;
-            let d = i32::try_from(v.denom()).ok()?;
-            Some(Rational32::new(n, d))
-        }
-        AstKind::Neg(x) => const_exponent(x).map(|k| -k),
-        AstKind::Div(x, y) => Some(
-            const_exponent(x)? / const_exponent(y).filter(|k| *k != Rational32::from_integer(0))?,
-        ),
-        _ => None,
-    }
 }
 
 fn unknown(
@@ -1238,158 +944,4 @@ fn unknown(
         d = d.hint(format!("declared: {}", names.join(", ")));
     }
     d
-}
-
-struct Ctx<'a> {
-    base: usize,
-    text: String,
-    /// Lowering the law at this index: inputs of earlier laws may be used.
-    law_index: Option<usize>,
-    /// Dynamics available to `ddt`.
-    dynamics: Option<&'a HashMap<String, ExprId>>,
-}
-
-struct SpecResolver<'l, 's, 'c> {
-    loader: &'l mut Loader<'s>,
-    ctx: &'c Ctx<'c>,
-}
-
-impl Resolver for SpecResolver<'_, '_, '_> {
-    fn symbol(&mut self, dag: &mut Dag, name: &str, span: Span) -> Result<ExprId, LowerError> {
-        if self.loader.defs.contains_key(name) {
-            let dynamics = self.ctx.dynamics;
-            return self
-                .loader
-                .lower_def(dag, name, dynamics)
-                .ok_or_else(|| LowerError {
-                    class: "formula",
-                    message: format!("definition `{name}` could not be resolved"),
-                    span,
-                    hint: None,
-                });
-        }
-        let Some(sym) = self.loader.symbols.iter().find(|s| s.name == name) else {
-            return Err(LowerError {
-                class: "unknown-symbol",
-                message: format!("unknown symbol `{name}`"),
-                span,
-                hint: None,
-            });
-        };
-        if sym.kind == SymbolKind::Input {
-            let idx = self
-                .loader
-                .inputs
-                .iter()
-                .position(|i| i == name)
-                .unwrap_or(0);
-            if let Some(li) = self.ctx.law_index {
-                if idx >= li && li < self.loader.inputs.len() {
-                    let which = if idx == li {
-                        "its own law"
-                    } else {
-                        "a later law"
-                    };
-                    return Err(LowerError {
-                        class: "law-order",
-                        message: format!(
-                            "`{name}` is computed by {which}; a law may use only the laws above it"
-                        ),
-                        span,
-                        hint: Some(
-                            "reorder the laws so that every law comes after the ones it uses"
-                                .into(),
-                        ),
-                    });
-                }
-            }
-        }
-        Ok(dag.sym(name))
-    }
-
-    fn call(
-        &mut self,
-        dag: &mut Dag,
-        name: &str,
-        args: &[ExprId],
-        span: Span,
-    ) -> Option<Result<ExprId, LowerError>> {
-        match name {
-            "ref" => Some(Ok(self.reference_of(dag, args[0]))),
-            "ddt" => Some(self.time_derivative(dag, args[0], span)),
-            _ => None,
-        }
-    }
-
-    fn extra_functions(&self) -> &[&str] {
-        &["ref", "ddt"]
-    }
-}
-
-impl SpecResolver<'_, '_, '_> {
-    fn reference_of(&mut self, dag: &mut Dag, e: ExprId) -> ExprId {
-        let mut map = HashMap::new();
-        for s in &self.loader.symbols {
-            if s.kind != SymbolKind::State {
-                continue;
-            }
-            let target = match (&s.reference, s.equilibrium) {
-                (Some(r), _) => dag.sym(r),
-                (None, Some(eq)) => dag.num(exact(eq)),
-                (None, None) => dag.int(0),
-            };
-            map.insert(s.name.clone(), target);
-        }
-        dag.substitute(e, &map)
-    }
-
-    fn time_derivative(
-        &mut self,
-        dag: &mut Dag,
-        e: ExprId,
-        span: Span,
-    ) -> Result<ExprId, LowerError> {
-        let mut terms = Vec::new();
-        for name in dag.symbols(e) {
-            let kind = self
-                .loader
-                .symbols
-                .iter()
-                .find(|s| s.name == name)
-                .map(|s| (s.kind, s.rate.clone()));
-            let rate = match kind {
-                Some((SymbolKind::Parameter | SymbolKind::Gain, _)) => continue,
-                Some((SymbolKind::Reference, Some(rate))) => dag.sym(&rate),
-                Some((SymbolKind::State, _)) => match self.ctx.dynamics.and_then(|d| d.get(&name)) {
-                    Some(&f) => f,
-                    None => {
-                        return Err(LowerError {
-                            class: "no-rate",
-                            message: format!("ddt(…) needs the dynamics of `{name}`, which are not available here"),
-                            span,
-                            hint: Some("ddt of a state may be used in laws, definitions and the candidate, not inside the dynamics".into()),
-                        })
-                    }
-                },
-                Some((k, _)) => {
-                    return Err(LowerError {
-                        class: "no-rate",
-                        message: format!("ddt(…) needs the time derivative of `{name}`, a {} with no declared rate", k.name()),
-                        span,
-                        hint: Some("only states (through their dynamics), references (through their rates), gains and parameters can be differentiated".into()),
-                    })
-                }
-                None => continue,
-            };
-            let d = derivative(dag, e, &name);
-            if dag.is_zero(d) {
-                continue;
-            }
-            terms.push(dag.mul(vec![d, rate]));
-        }
-        Ok(match terms.len() {
-            0 => dag.int(0),
-            _ => dag.add(terms),
-        })
-    }
 }
