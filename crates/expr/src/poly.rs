@@ -372,11 +372,20 @@ impl Poly {
     }
 }
 
-/// Work allowance for one gcd, counted in coefficient operations. Pseudo-remainder sequences
-/// can blow up on large dense inputs; when the allowance runs out the gcd gives up and the
-/// caller simply does not cancel (still exact, only less reduced). Two hundred thousand operations is a
-/// few milliseconds: far more than any law needs, small enough to never hang.
+/// Work allowance for one gcd, counted in coefficient operations weighted by the size of the
+/// coefficients in 64-bit words. Pseudo-remainder sequences can blow up on large dense inputs,
+/// in the number of terms and in the length of the coefficients alike; when the allowance runs
+/// out the gcd gives up and the caller simply does not cancel (still exact, only less reduced).
+/// Two hundred thousand word operations is a few milliseconds: far more than any law needs,
+/// small enough to never hang.
 pub(crate) const GCD_BUDGET: u64 = 200_000;
+
+/// Size of a polynomial's coefficients in 64-bit words (numerators and denominators).
+fn words(p: &Poly) -> usize {
+    p.0.values()
+        .map(|c| (c.numer().bits() + c.denom().bits()) as usize / 64 + 1)
+        .sum()
+}
 
 /// Greatest common divisor, normalised to leading coefficient 1 (variable-index order), or
 /// `None` when the work allowance ran out.
@@ -484,7 +493,7 @@ fn prem(f: &Poly, g: &Poly, x: Var, budget: &mut u64) -> Option<Poly> {
         let lc_r = r.coeff_in(x, m);
         spend(
             budget,
-            (lc_r.0.len() + lc_g.0.len()) * (r.0.len() + g.0.len()),
+            (words(&lc_r) + words(&lc_g)) * (words(&r) + words(g)),
         )?;
         let shift = Mono::var(x, m - n);
         r = match &lc_const {

@@ -46,6 +46,12 @@ pub struct Condition {
 pub trait Oracle {
     /// May `rule` be applied, given that `cond` must hold?
     fn allows(&mut self, dag: &Dag, rule: &'static str, cond: Condition) -> bool;
+
+    /// True when the oracle refuses every condition whatever it is: the simplifier then skips
+    /// the work (a gcd) of forming conditions that would be refused anyway.
+    fn refuses_all(&self) -> bool {
+        false
+    }
 }
 
 /// Grants every side condition and records each one once, so callers can report (and later
@@ -72,6 +78,10 @@ pub struct AssumeNothing;
 impl Oracle for AssumeNothing {
     fn allows(&mut self, _dag: &Dag, _rule: &'static str, _cond: Condition) -> bool {
         false
+    }
+
+    fn refuses_all(&self) -> bool {
+        true
     }
 }
 

@@ -246,7 +246,7 @@ impl<'o> Simplifier<'o> {
 
     /// Divides `p` and `q` by their gcd when the oracle allows.
     fn cancel_pair(&mut self, dag: &mut Dag, p: &Poly, q: &Poly) -> (Poly, Poly) {
-        if q.as_constant().is_some() {
+        if q.as_constant().is_some() || self.oracle.refuses_all() {
             return (p.clone(), q.clone());
         }
         match gcd(p, q) {
@@ -263,6 +263,9 @@ impl<'o> Simplifier<'o> {
     fn cancel_with(&mut self, dag: &mut Dag, num: Poly, den: Poly, g: &Poly) -> Rat {
         if num.is_zero() {
             return Self::constant(BigRational::zero());
+        }
+        if self.oracle.refuses_all() {
+            return self.normalise(Rat { num, den });
         }
         let (num, den) = match gcd(&num, g) {
             Some(h) if h.as_constant().is_none() && self.may_cancel(dag, &h) => (
