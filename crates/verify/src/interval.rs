@@ -55,13 +55,73 @@ fn up_n(mut x: f64, n: u32) -> f64 {
     x
 }
 
-/// A product where `0 · ∞` counts as 0 (the limit that matters for bounds).
-fn prod(a: f64, b: f64) -> f64 {
+/// Products and quotients whose magnitude is at least this are exact exactly when the fused
+/// residual is zero; below it the residual itself may underflow, so exactness is not claimed.
+const EXACT_RESIDUAL_MIN: f64 = 1e-290;
+
+/// `a · b` rounded down (`upward = false`) or up, with `0 · ∞` counted as 0 (the limit that
+/// matters for bounds). A product that is exact (zero factor, or a zero fused residual) is not
+/// widened, so `0 · x` stays exactly 0 and a semidefinite bound like `−k·ω² ≤ 0` is not lost
+/// to rounding.
+fn prod(a: f64, b: f64, upward: bool) -> f64 {
     let p = a * b;
     if p.is_nan() {
-        0.0
+        return 0.0;
+    }
+    if a == 0.0 || b == 0.0 || p.is_infinite() {
+        // an infinite product of finite factors overflowed: ±MAX is still a valid bound on the
+        // far side, and ±∞ a valid one on the near side
+        return if p.is_infinite() && a.is_finite() && b.is_finite() {
+            if upward {
+                up(p)
+            } else {
+                down(p)
+            }
+        } else {
+            p
+        };
+    }
+    if p.abs() >= EXACT_RESIDUAL_MIN && a.mul_add(b, -p) == 0.0 {
+        return p;
+    }
+    if upward {
+        up(p)
     } else {
-        p
+        down(p)
+    }
+}
+
+/// `a + b` rounded down or up; an exact sum (zero TwoSum error) is not widened.
+fn sum(a: f64, b: f64, upward: bool) -> f64 {
+    let s = a + b;
+    if s.is_finite() {
+        // Knuth's TwoSum: the rounding error of a + b, exact in floating point
+        let bp = s - a;
+        let err = (a - (s - bp)) + (b - bp);
+        if err == 0.0 {
+            return s;
+        }
+    }
+    if upward {
+        up(s)
+    } else {
+        down(s)
+    }
+}
+
+/// `a / b` (b ≠ 0) rounded down or up; an exact quotient is not widened.
+fn quot(a: f64, b: f64, upward: bool) -> f64 {
+    let q = a / b;
+    if a == 0.0 || q.is_infinite() && a.is_infinite() {
+        return q;
+    }
+    if q.is_finite() && q.abs() >= EXACT_RESIDUAL_MIN && (-q).mul_add(b, a) == 0.0 {
+        return q;
+    }
+    if upward {
+        up(q)
+    } else {
+        down(q)
     }
 }
 
@@ -126,6 +186,27 @@ impl Interval {
         self.lo <= x && x <= self.hi
     }
 
+    /// Largest absolute value, `max(|lo|, |hi|)`.
+    pub fn mag(&self) -> f64 {
+        self.lo.abs().max(self.hi.abs())
+    }
+
+    /// True when both bounds are finite numbers (not empty, not unbounded).
+    pub fn is_finite(&self) -> bool {
+        self.lo.is_finite() && self.hi.is_finite()
+    }
+
+    /// The common part of two intervals, or empty. An empty operand leaves the other.
+    pub fn intersect(&self, o: &Interval) -> Interval {
+        if self.is_empty() {
+            return *o;
+        }
+        if o.is_empty() {
+            return *self;
+        }
+        self.clip(o.lo, o.hi)
+    }
+
     /// Smallest interval holding both.
     pub fn hull(&self, o: &Interval) -> Interval {
         if self.is_empty() {
@@ -176,11 +257,7 @@ impl Interval {
     fn pow_pos(x: f64, n: u32, upward: bool) -> f64 {
         let mut acc = 1.0;
         for _ in 0..n {
-            acc = if upward {
-                up(acc * x)
-            } else {
-                down(acc * x).max(0.0)
-            };
+            acc = prod(acc, x, upward).max(0.0);
         }
         acc
     }
@@ -245,9 +322,12 @@ impl Arith for Interval {
     }
 
     fn add(&self, b: &Interval) -> Interval {
+        if self.is_empty() || b.is_empty() {
+            return Interval::empty();
+        }
         Interval {
-            lo: down(self.lo + b.lo),
-            hi: up(self.hi + b.hi),
+            lo: sum(self.lo, b.lo, false),
+            hi: sum(self.hi, b.hi, true),
         }
     }
 
@@ -255,18 +335,21 @@ impl Arith for Interval {
         if self.is_empty() || b.is_empty() {
             return Interval::empty();
         }
-        let c = [
-            prod(self.lo, b.lo),
-            prod(self.lo, b.hi),
-            prod(self.hi, b.lo),
-            prod(self.hi, b.hi),
+        let pairs = [
+            (self.lo, b.lo),
+            (self.lo, b.hi),
+            (self.hi, b.lo),
+            (self.hi, b.hi),
         ];
-        let lo = c.iter().copied().fold(f64::INFINITY, f64::min);
-        let hi = c.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-        Interval {
-            lo: down(lo),
-            hi: up(hi),
-        }
+        let lo = pairs
+            .iter()
+            .map(|&(x, y)| prod(x, y, false))
+            .fold(f64::INFINITY, f64::min);
+        let hi = pairs
+            .iter()
+            .map(|&(x, y)| prod(x, y, true))
+            .fold(f64::NEG_INFINITY, f64::max);
+        Interval { lo, hi }
     }
 
     fn div(&self, b: &Interval) -> Interval {
@@ -282,18 +365,21 @@ impl Arith for Interval {
                 Interval::entire()
             };
         }
-        let q = [
-            self.lo / b.lo,
-            self.lo / b.hi,
-            self.hi / b.lo,
-            self.hi / b.hi,
+        let pairs = [
+            (self.lo, b.lo),
+            (self.lo, b.hi),
+            (self.hi, b.lo),
+            (self.hi, b.hi),
         ];
-        let lo = q.iter().copied().fold(f64::INFINITY, f64::min);
-        let hi = q.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-        Interval {
-            lo: down(lo),
-            hi: up(hi),
-        }
+        let lo = pairs
+            .iter()
+            .map(|&(x, y)| quot(x, y, false))
+            .fold(f64::INFINITY, f64::min);
+        let hi = pairs
+            .iter()
+            .map(|&(x, y)| quot(x, y, true))
+            .fold(f64::NEG_INFINITY, f64::max);
+        Interval { lo, hi }
     }
 
     fn pow(&self, b: &Interval) -> Interval {
@@ -499,6 +585,24 @@ mod tests {
         assert!(p.contains(4.0) && p.hi() < 4.0 + 1e-12);
         let q = iv(-3.0, -2.0).powi(3);
         assert!(q.contains(-27.0) && q.contains(-8.0));
+    }
+
+    #[test]
+    fn exact_results_are_not_widened() {
+        // 0·x and sums/products representable in f64 stay exact, so −k·ω² over ω ∈ [−4, 4]
+        // has the upper bound 0 itself (IEEE 754 round-to-nearest is exact on these)
+        let k = iv(0.01, 0.5);
+        let w = iv(-4.0, 4.0).powi(2);
+        let v = k.mul(&w).neg();
+        assert_eq!(v.hi(), 0.0);
+        assert_eq!(iv(1.5, 2.0).add(&iv(0.25, 0.5)), iv(1.75, 2.5));
+        assert_eq!(iv(3.0, 3.0).mul(&iv(0.5, 0.5)), iv(1.5, 1.5));
+        assert_eq!(iv(3.0, 3.0).div(&iv(4.0, 4.0)), iv(0.75, 0.75));
+        // inexact ones are: 0.1 + 0.2 and 1/3 straddle their exact values
+        let s = iv(0.1, 0.1).add(&iv(0.2, 0.2));
+        assert!(s.lo() < s.hi());
+        let q = iv(1.0, 1.0).div(&iv(3.0, 3.0));
+        assert!(q.lo() < q.hi() && q.contains(1.0 / 3.0));
     }
 
     #[test]
