@@ -29,9 +29,34 @@ pub fn apply(f: Func, a: &[f64]) -> f64 {
 /// `a^b` with an exact small-integer fast path (so `x^2` is `x*x` bit for bit).
 pub fn pow(a: f64, b: f64) -> f64 {
     if b == b.trunc() && b.abs() <= 64.0 {
-        a.powi(b as i32)
+        powi(a, b as i32)
     } else {
         a.powf(b)
+    }
+}
+
+/// `x^n` by repeated squaring, one fixed sequence of multiplications for each `n` (the one
+/// compiler runtimes use for `powi`), written out so every evaluator of lawsmith — scalar,
+/// batched, and the generated code — computes the same bits on every platform: `x^2` is
+/// `x*x`, `x^3` is `x*(x*x)`, `x^4` is `(x*x)*(x*x)`; a negative `n` is `1/x^|n|`.
+pub fn powi(x: f64, n: i32) -> f64 {
+    let mut base = x;
+    let mut e = n.unsigned_abs();
+    let mut acc = 1.0;
+    loop {
+        if e & 1 != 0 {
+            acc *= base;
+        }
+        e >>= 1;
+        if e == 0 {
+            break;
+        }
+        base *= base;
+    }
+    if n < 0 {
+        1.0 / acc
+    } else {
+        acc
     }
 }
 
@@ -127,7 +152,7 @@ impl Arith for f64 {
         pow(*self, *b)
     }
     fn powi(&self, n: i32) -> f64 {
-        f64::powi(*self, n)
+        powi(*self, n)
     }
     fn call(f: Func, args: &[f64]) -> f64 {
         apply(f, args)
@@ -154,6 +179,9 @@ pub struct Tape {
     ops: Vec<Op>,
     outputs: Vec<u32>,
     vars: Vec<String>,
+    /// Per slot: a constant some instruction reads as a column (batched evaluation passes
+    /// constants to `+ * /` as scalars and fills only these).
+    const_column: Vec<bool>,
 }
 
 impl Tape {
@@ -243,10 +271,26 @@ impl Tape {
             }
             outputs.push(slot[&root]);
         }
+        let mut const_column = vec![false; ops.len()];
+        for op in &ops {
+            let read: &[u32] = match op {
+                Op::Neg(a) | Op::Powi(a, _) => std::slice::from_ref(a),
+                Op::Pow(a, b) => &[*a, *b][..],
+                Op::Call(_, args) => &args[..],
+                _ => &[],
+            };
+            for &i in read {
+                const_column[i as usize] = true;
+            }
+        }
+        for &o in &outputs {
+            const_column[o as usize] = true;
+        }
         Ok(Tape {
             ops,
             outputs,
             vars: vars.iter().map(|s| s.to_string()).collect(),
+            const_column,
         })
     }
 
@@ -302,11 +346,124 @@ impl Tape {
         }
     }
 
+    /// Evaluates every root at `lanes` points at once: `vars` holds one column of `lanes`
+    /// values per variable (variable-major, `vars[v * lanes + i]`), `out` receives one
+    /// column per root. Each instruction runs over all lanes in a tight loop the compiler
+    /// vectorises, so the interpretation cost is paid once per instruction, not per point.
+    /// Results equal [`Tape::eval_into`] bit for bit.
+    ///
+    /// # Panics
+    /// If `vars` or `out` is shorter than the tape's variables (roots) times `lanes`.
+    pub fn eval_batch(&self, vars: &[f64], lanes: usize, scratch: &mut Vec<f64>, out: &mut [f64]) {
+        assert!(vars.len() >= self.vars.len() * lanes && out.len() >= self.outputs.len() * lanes);
+        // every slot is written before it is read: grow without clearing
+        if scratch.len() < self.ops.len() * lanes {
+            scratch.resize(self.ops.len() * lanes, 0.0);
+        }
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the CPU supports AVX2 (checked just above); the function only changes how
+            // the same IEEE operations are vectorised, so the results are the same bits
+            unsafe { self.batch_avx2(vars, lanes, scratch, out) };
+            return;
+        }
+        self.batch_body(vars, lanes, scratch, out);
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn batch_avx2(&self, vars: &[f64], lanes: usize, scratch: &mut [f64], out: &mut [f64]) {
+        self.batch_body(vars, lanes, scratch, out);
+    }
+
+    #[inline(always)]
+    fn batch_body(&self, vars: &[f64], lanes: usize, scratch: &mut [f64], out: &mut [f64]) {
+        for (k, op) in self.ops.iter().enumerate() {
+            let (done, rest) = scratch.split_at_mut(k * lanes);
+            let dst = &mut rest[..lanes];
+            let col = |i: u32| &done[i as usize * lanes..(i as usize + 1) * lanes];
+            match op {
+                Op::Const(c, _) => {
+                    if self.const_column[k] {
+                        dst.fill(*c)
+                    }
+                }
+                Op::Var(v) => dst.copy_from_slice(&vars[v * lanes..(v + 1) * lanes]),
+                Op::Neg(a) => dst.iter_mut().zip(col(*a)).for_each(|(d, x)| *d = -x),
+                Op::Add(a, b) => match (self.constant(*a), self.constant(*b)) {
+                    (Some(x), Some(y)) => dst.fill(x + y),
+                    (None, Some(y)) => dst.iter_mut().zip(col(*a)).for_each(|(d, x)| *d = x + y),
+                    (Some(x), None) => dst.iter_mut().zip(col(*b)).for_each(|(d, y)| *d = x + y),
+                    (None, None) => binary(dst, col(*a), col(*b), |x, y| x + y),
+                },
+                Op::Mul(a, b) => match (self.constant(*a), self.constant(*b)) {
+                    (Some(x), Some(y)) => dst.fill(x * y),
+                    (None, Some(y)) => dst.iter_mut().zip(col(*a)).for_each(|(d, x)| *d = x * y),
+                    (Some(x), None) => dst.iter_mut().zip(col(*b)).for_each(|(d, y)| *d = x * y),
+                    (None, None) => binary(dst, col(*a), col(*b), |x, y| x * y),
+                },
+                Op::Div(a, b) => match (self.constant(*a), self.constant(*b)) {
+                    (Some(x), Some(y)) => dst.fill(x / y),
+                    (None, Some(y)) => dst.iter_mut().zip(col(*a)).for_each(|(d, x)| *d = x / y),
+                    (Some(x), None) => dst.iter_mut().zip(col(*b)).for_each(|(d, y)| *d = x / y),
+                    (None, None) => binary(dst, col(*a), col(*b), |x, y| x / y),
+                },
+                Op::Pow(a, b) => binary(dst, col(*a), col(*b), pow),
+                Op::Powi(a, n) => match *n {
+                    // the sequences of `powi`, spelled out so the loops vectorise
+                    2 => dst.iter_mut().zip(col(*a)).for_each(|(d, x)| *d = x * x),
+                    3 => dst
+                        .iter_mut()
+                        .zip(col(*a))
+                        .for_each(|(d, x)| *d = x * (x * x)),
+                    4 => dst.iter_mut().zip(col(*a)).for_each(|(d, x)| {
+                        let s = x * x;
+                        *d = s * s
+                    }),
+                    n => dst
+                        .iter_mut()
+                        .zip(col(*a))
+                        .for_each(|(d, x)| *d = powi(*x, n)),
+                },
+                Op::Call(f, args) => {
+                    for i in 0..lanes {
+                        let a = [
+                            done[args[0] as usize * lanes + i],
+                            done[args[1] as usize * lanes + i],
+                            done[args[2] as usize * lanes + i],
+                        ];
+                        dst[i] = apply(*f, &a[..f.arity()]);
+                    }
+                }
+            }
+        }
+        for (r, &slot) in self.outputs.iter().enumerate() {
+            let s = slot as usize * lanes;
+            out[r * lanes..(r + 1) * lanes].copy_from_slice(&scratch[s..s + lanes]);
+        }
+    }
+
+    /// The value of slot `i` when it is a constant.
+    #[inline(always)]
+    fn constant(&self, i: u32) -> Option<f64> {
+        match self.ops[i as usize] {
+            Op::Const(c, _) => Some(c),
+            _ => None,
+        }
+    }
+
     /// Evaluates the first root.
     pub fn eval(&self, vars: &[f64]) -> f64 {
         let mut scratch = Vec::new();
         let mut out = [0.0];
         self.eval_into(vars, &mut scratch, &mut out);
         out[0]
+    }
+}
+
+#[inline(always)]
+fn binary(dst: &mut [f64], a: &[f64], b: &[f64], f: impl Fn(f64, f64) -> f64) {
+    for ((d, x), y) in dst.iter_mut().zip(a).zip(b) {
+        *d = f(*x, *y);
     }
 }

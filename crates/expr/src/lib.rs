@@ -41,7 +41,7 @@ mod simplify;
 
 pub use dag::{Dag, DagLimits, ExprId, Func, Node};
 pub use diff::derivative;
-pub use eval::{apply, eval, pow, Arith, Tape};
+pub use eval::{apply, eval, pow, powi, Arith, Tape};
 pub use lower::{lower, parse_expr, LowerError, PlainSymbols, Resolver};
 pub use number::{as_terminating_decimal, parse_decimal, to_f64};
 pub use parse::{parse, parse_with, Ast, AstKind, ParseError, ParseSettings, Span};

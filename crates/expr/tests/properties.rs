@@ -215,6 +215,59 @@ fn tape_agrees_bit_for_bit_with_the_evaluator() {
 }
 
 #[test]
+fn batched_tape_agrees_bit_for_bit_with_the_scalar_tape() {
+    let mut rng = Rng(6);
+    let mut dag = Dag::new();
+    let g = Gen {
+        smooth_only: false,
+        rational_only: false,
+        all_functions: false,
+    };
+    let lanes = 13;
+    let (mut scratch, mut batch_scratch) = (Vec::new(), Vec::new());
+    for _ in 0..2_000 {
+        let e = random_expr(&mut dag, &mut rng, 5, g);
+        let f = random_expr(&mut dag, &mut rng, 4, g);
+        let tape = Tape::compile(&dag, &[e, f], &VARS).unwrap();
+        let points: Vec<Vec<f64>> = (0..lanes)
+            .map(|_| {
+                let env = random_env(&mut rng);
+                VARS.iter().map(|v| env[*v]).collect()
+            })
+            .collect();
+        let columns: Vec<f64> = (0..VARS.len())
+            .flat_map(|v| points.iter().map(move |p| p[v]))
+            .collect();
+        let mut out = vec![0.0; 2 * lanes];
+        tape.eval_batch(&columns, lanes, &mut batch_scratch, &mut out);
+        for (i, p) in points.iter().enumerate() {
+            let mut one = [0.0; 2];
+            tape.eval_into(p, &mut scratch, &mut one);
+            for r in 0..2 {
+                let (a, b) = (one[r], out[r * lanes + i]);
+                assert!(a.to_bits() == b.to_bits() || (a.is_nan() && b.is_nan()));
+            }
+        }
+    }
+}
+
+#[test]
+fn powers_by_squaring_follow_the_documented_sequence() {
+    // x^3 = x*(x*x) and x^4 = (x*x)*(x*x): one fixed rounding sequence per exponent
+    for x in [1.1f64, -3.7, 0.1, 1e-3, 7.25] {
+        assert_eq!(lawsmith_expr::powi(x, 2).to_bits(), (x * x).to_bits());
+        assert_eq!(lawsmith_expr::powi(x, 3).to_bits(), (x * (x * x)).to_bits());
+        let s = x * x;
+        assert_eq!(lawsmith_expr::powi(x, 4).to_bits(), (s * s).to_bits());
+        assert_eq!(
+            lawsmith_expr::powi(x, -2).to_bits(),
+            (1.0 / (x * x)).to_bits()
+        );
+        assert_eq!(lawsmith_expr::powi(x, 0), 1.0);
+    }
+}
+
+#[test]
 fn named_rules_fire_only_when_the_oracle_allows() {
     use lawsmith_expr::AssumeNothing;
     let cases = [
