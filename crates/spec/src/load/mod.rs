@@ -338,7 +338,13 @@ impl<'s> Loader<'s> {
                 self.symbols[i].rate = Some(r.rate.value.clone());
             }
             if rate_ok {
-                let unit = format!("({})/s", r.unit.value);
+                let u = r.unit.value.trim();
+                // `m` gives `m/s`; a compound unit is parenthesised: `(m/s)/s`
+                let unit = if u.chars().all(|c| c.is_ascii_alphanumeric() || c == '^') {
+                    format!("{u}/s")
+                } else {
+                    format!("({u})/s")
+                };
                 let rd = dim.div(&parse_unit("s").expect("s is a unit"));
                 let i = self.push_symbol(&r.rate.value, SymbolKind::Rate, &unit, rd);
                 self.symbols[i].range = rate_range;
