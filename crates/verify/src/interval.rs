@@ -335,20 +335,50 @@ impl Arith for Interval {
         if self.is_empty() || b.is_empty() {
             return Interval::empty();
         }
+        if self.lo >= 0.0 && b.lo >= 0.0 {
+            // both non-negative, the common case of squares and gains: two products
+            return Interval {
+                lo: prod(self.lo, b.lo, false).max(0.0),
+                hi: prod(self.hi, b.hi, true),
+            };
+        }
         let pairs = [
             (self.lo, b.lo),
             (self.lo, b.hi),
             (self.hi, b.lo),
             (self.hi, b.hi),
         ];
-        let lo = pairs
-            .iter()
-            .map(|&(x, y)| prod(x, y, false))
-            .fold(f64::INFINITY, f64::min);
-        let hi = pairs
-            .iter()
-            .map(|&(x, y)| prod(x, y, true))
-            .fold(f64::NEG_INFINITY, f64::max);
+        // round-to-nearest is monotone, so the smallest exact product is among the pairs
+        // whose nearest product is smallest; every such pair is bounded (a pair whose product
+        // is exact must not stand for a tied one whose exact product rounded up to it)
+        let near = |&(x, y): &(f64, f64)| {
+            let p = x * y;
+            if p.is_nan() {
+                0.0
+            } else {
+                p
+            }
+        };
+        let (mut imin, mut imax) = (0, 0);
+        let mut vals = [0.0; 4];
+        for (k, pr) in pairs.iter().enumerate() {
+            vals[k] = near(pr);
+            if vals[k] < vals[imin] {
+                imin = k;
+            }
+            if vals[k] > vals[imax] {
+                imax = k;
+            }
+        }
+        let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+        for (k, &(x, y)) in pairs.iter().enumerate() {
+            if vals[k] == vals[imin] {
+                lo = lo.min(prod(x, y, false));
+            }
+            if vals[k] == vals[imax] {
+                hi = hi.max(prod(x, y, true));
+            }
+        }
         Interval { lo, hi }
     }
 

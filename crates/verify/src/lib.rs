@@ -1,11 +1,21 @@
-//! Verification for lawsmith. Today: sound interval arithmetic, and interval evaluation of
-//! expressions through the same flat tape the f64 evaluator uses. The Lyapunov prover
-//! (well-posedness, sampling falsifier, branch and bound, certificates) is built on these.
+//! Verification for lawsmith: proves a spec's Lyapunov claim over its declared envelope, or
+//! finds a concrete counterexample.
 //!
-//! **Key decision:** our own small interval type on `f64::next_up`/`next_down` and the `libm`
-//! crate, instead of an interval library: the established one needs a CPU-specific build flag
-//! and GMP for its transcendental functions; this one stays portable, and its soundness is
-//! checked against point evaluations and against mpmath's interval arithmetic.
+//! The domain is a box in proof coordinates (each state's error around its reference, the
+//! references, their rates, the signals, the gains); parameters are exact constants. Every
+//! question is a [`Goal`]: a well-posedness condition of the laws (an `asin` argument in
+//! [−1, 1], a denominator away from zero, …), `V > 0` away from zero error, and the claim
+//! (`V̇ < 0`, `V̇ ≤ 0` or `V̇ ≤ −2λV`). Each goal is first sampled (a low-discrepancy sequence, the
+//! corners, points near zero error and on its coordinate planes) and then proved by branch and
+//! bound with sound interval arithmetic in centered form; near zero error, where `V̇` and its
+//! gradient vanish, an interval Hessian test closes the proof (Taylor's theorem).
+//!
+//! **Key decision:** the prover never reports a proof it does not have. Every leaf of the
+//! split tree carries its evidence (an enclosure, a Hessian test value, or a violated
+//! constraint) and is written to the certificate, and [`recheck`] re-evaluates every leaf of
+//! a certificate without the search. Intervals are our own, small and sound (outward rounding
+//! on `f64::next_up`/`next_down`, `libm` widened by 2 ulps), checked against point
+//! evaluations and against mpmath's interval arithmetic.
 //!
 //! ```
 //! use lawsmith_expr::{parse_expr, Dag, Tape};
@@ -21,6 +31,26 @@
 //! ```
 #![deny(missing_docs)]
 
+mod certificate;
+mod check;
+mod goal;
+mod hessian;
 mod interval;
+mod problem;
+pub mod report;
+mod sample;
+mod search;
 
+pub use certificate::{
+    certificate, recheck, sha256_hex, Origin, Rechecked, Rejection, CERTIFICATE_VERSION,
+};
+pub use check::{
+    check, prepare, CheckError, CheckReport, Counterexample, GoalKind, GoalResult, Prepared,
+    PreparedGoal, Saturation, Settings, Status, Verdict,
+};
+pub use goal::{Compiled, Feasibility, Goal, Scratch, Test};
+pub use hessian::Method;
 pub use interval::{Interval, LIBM_ULPS};
+pub use problem::{error_name, Problem, ProofForms, Role, Variable};
+pub use sample::{falsify, generalized_golden_ratio, PointSet, Sampled, Sequence};
+pub use search::{search, Budget, Counter, Evidence, Outcome, Report, Tree};

@@ -1,0 +1,463 @@
+//! Proof certificates: everything a reader needs to re-check a verdict without the search.
+//!
+//! A certificate records the spec's SHA-256, the domain, the settings, the verdict, and for
+//! every goal its expression, its test, and either the split tree of its proof (shape in
+//! preorder plus every leaf box with its evidence) or its counterexample. [`recheck`] derives
+//! the goals from the spec again, walks each tree recomputing every box from the root (so the
+//! leaves cover the domain by construction), and re-evaluates every leaf: the recorded box
+//! must equal the recomputed one, and the recorded bound must equal a fresh evaluation bit for
+//! bit (evaluation is deterministic) and prove the test. Any edit is therefore caught.
+//!
+//! Non-finite numbers are written as the strings `"inf"`, `"-inf"`, `"nan"` (JSON has none).
+
+use crate::check::{CheckReport, GoalKind, Prepared, Status, Verdict};
+use crate::goal::{Feasibility, Scratch, Test};
+use crate::hessian::Method;
+use crate::interval::Interval;
+use crate::search::{halves, reconfirm, Counter, Evidence};
+use rayon::prelude::*;
+use serde_json::{json, Map, Value};
+use sha2::{Digest, Sha256};
+
+/// The certificate format's version; bumped on any incompatible change.
+pub const CERTIFICATE_VERSION: u64 = 1;
+
+/// Lower-case hex SHA-256 of bytes.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    let d = Sha256::digest(bytes);
+    d.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+fn num(x: f64) -> Value {
+    if x.is_finite() {
+        json!(x)
+    } else if x.is_nan() {
+        json!("nan")
+    } else if x > 0.0 {
+        json!("inf")
+    } else {
+        json!("-inf")
+    }
+}
+
+fn parse_num(v: &Value) -> Option<f64> {
+    match v {
+        Value::Number(n) => n.as_f64(),
+        Value::String(s) => match s.as_str() {
+            "inf" => Some(f64::INFINITY),
+            "-inf" => Some(f64::NEG_INFINITY),
+            "nan" => Some(f64::NAN),
+            _ => None,
+        },
+        _ => None,
+    }
+}
+
+fn parse_point(v: &Value) -> Option<Vec<f64>> {
+    v.as_array()?.iter().map(parse_num).collect()
+}
+
+fn pair(i: &Interval) -> Value {
+    json!([num(i.lo()), num(i.hi())])
+}
+
+fn parse_pair(v: &Value) -> Option<Interval> {
+    let a = v.as_array()?;
+    if a.len() != 2 {
+        return None;
+    }
+    let (lo, hi) = (parse_num(&a[0])?, parse_num(&a[1])?);
+    (lo <= hi).then(|| Interval::new(lo, hi))
+}
+
+/// The test of a goal as written in a certificate.
+pub fn test_json(t: &Test) -> Value {
+    match *t {
+        Test::Negative { strict: true } => json!({"below": 0, "strict": true}),
+        Test::Negative { strict: false } => json!({"below": 0, "strict": false}),
+        Test::Within { lo, hi } => json!({"within": [num(lo), num(hi)]}),
+        Test::NonZero => json!("nonzero"),
+    }
+}
+
+fn kind_name(k: GoalKind) -> &'static str {
+    match k {
+        GoalKind::Condition => "condition",
+        GoalKind::Positive => "positive",
+        GoalKind::Claim => "claim",
+    }
+}
+
+fn evidence_json(bx: &[Interval], ev: &Evidence) -> Value {
+    let b: Vec<Value> = bx.iter().map(pair).collect();
+    match ev {
+        Evidence::Bound(f) => json!({"box": b, "bound": pair(f)}),
+        Evidence::Hessian(m, v) => {
+            json!({"box": b, "hessian": {"method": m.name(), "value": num(*v)}})
+        }
+        Evidence::Excluded(i) => json!({"box": b, "excluded": i}),
+    }
+}
+
+/// Where a certificate came from and how it was searched.
+#[derive(Clone, Debug)]
+pub struct Origin<'a> {
+    /// The spec file as given.
+    pub file: &'a str,
+    /// SHA-256 of its bytes.
+    pub sha256: String,
+    /// The tool version.
+    pub tool_version: &'a str,
+    /// The settings, as JSON.
+    pub settings: Value,
+}
+
+/// Writes the certificate of a check.
+pub fn certificate(report: &CheckReport, prepared: &Prepared, origin: &Origin) -> Value {
+    let domain: Vec<Value> = prepared
+        .problem
+        .variables
+        .iter()
+        .map(|v| {
+            json!({
+                "name": v.name, "symbol": v.symbol, "role": v.role.name(), "unit": v.unit,
+                "range": [num(v.lo), num(v.hi)],
+            })
+        })
+        .collect();
+    let mut goals = Vec::new();
+    let mut leaves_total = 0;
+    for (g, r) in prepared.goals.iter().zip(&report.goals) {
+        let c = &g.compiled;
+        let mut o = Map::new();
+        o.insert("kind".into(), json!(kind_name(g.kind)));
+        o.insert("label".into(), json!(c.goal.label));
+        o.insert("source".into(), json!(g.source));
+        o.insert("expr".into(), json!(c.text));
+        o.insert("test".into(), test_json(&c.goal.test));
+        o.insert("origin_exempt".into(), json!(c.goal.origin));
+        o.insert("dims".into(), json!(c.names));
+        let status = match &r.status {
+            Status::Proven => "proven",
+            Status::Refuted(_) => "refuted",
+            Status::Inconclusive(_) => "inconclusive",
+            Status::Skipped => "skipped",
+        };
+        o.insert("status".into(), json!(status));
+        if let Some(s) = &r.search {
+            o.insert("boxes".into(), json!(s.boxes));
+        }
+        if let Status::Inconclusive(why) = &r.status {
+            o.insert("reason".into(), json!(why));
+        }
+        if let Status::Refuted(cx) = &r.status {
+            let pt = |p: &[f64]| p.iter().map(|&x| num(x)).collect::<Vec<_>>();
+            let mut cj = json!({
+                "point": pt(&cx.point),
+                "value": num(cx.value),
+                "enclosure": pair(&cx.enclosure),
+            });
+            if let Some([a, b]) = &cx.bracket {
+                cj["bracket"] = json!([pt(a), pt(b)]);
+            }
+            o.insert("counterexample".into(), cj);
+        }
+        if let Some(tree) = r.search.as_ref().and_then(|s| s.tree.as_ref()) {
+            leaves_total += tree.leaves.len();
+            o.insert("tree".into(), json!(tree.shape));
+            o.insert(
+                "leaves".into(),
+                Value::Array(
+                    tree.leaves
+                        .iter()
+                        .map(|(b, e)| evidence_json(b, e))
+                        .collect(),
+                ),
+            );
+        }
+        goals.push(Value::Object(o));
+    }
+    json!({
+        "certificate": "lawsmith proof certificate",
+        "version": CERTIFICATE_VERSION,
+        "tool_version": origin.tool_version,
+        "spec": {"name": report.name, "file": origin.file, "sha256": origin.sha256},
+        "claim": report.claim.name(),
+        "verdict": report.verdict.name(),
+        "well_posed": report.well_posed,
+        "domain": domain,
+        "constraints": report.constraints,
+        "settings": origin.settings,
+        "counts": {"goals": goals.len(), "boxes": report.boxes, "leaves": leaves_total},
+        "min_margin": report.min_margin.map(num),
+        "goals": goals,
+    })
+}
+
+/// What a successful re-check covered.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Rechecked {
+    /// The verdict the certificate states (and the re-check confirmed).
+    pub verdict: Verdict,
+    /// Goals re-checked.
+    pub goals: usize,
+    /// Leaf boxes re-evaluated.
+    pub leaves: usize,
+    /// Counterexamples re-confirmed.
+    pub counterexamples: usize,
+}
+
+/// Why a certificate was rejected.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct Rejection(pub String);
+
+impl std::fmt::Display for Rejection {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl std::error::Error for Rejection {}
+
+fn reject<T>(msg: impl Into<String>) -> Result<T, Rejection> {
+    Err(Rejection(msg.into()))
+}
+
+fn field<'a>(v: &'a Value, key: &str, at: &str) -> Result<&'a Value, Rejection> {
+    v.get(key)
+        .ok_or_else(|| Rejection(format!("{at}: missing field `{key}`")))
+}
+
+/// Re-checks a certificate against the spec it claims (already prepared by
+/// [`crate::prepare`] from the spec whose bytes hash to `spec_sha256`).
+pub fn recheck(
+    cert: &Value,
+    spec_sha256: &str,
+    prepared: &Prepared,
+) -> Result<Rechecked, Rejection> {
+    if field(cert, "version", "certificate")?.as_u64() != Some(CERTIFICATE_VERSION) {
+        return reject(format!("certificate version is not {CERTIFICATE_VERSION}"));
+    }
+    let sha = field(field(cert, "spec", "certificate")?, "sha256", "spec")?;
+    if sha.as_str() != Some(spec_sha256) {
+        return reject(format!(
+            "the spec's SHA-256 is {spec_sha256} but the certificate was written for {}",
+            sha.as_str().unwrap_or("?")
+        ));
+    }
+    // the domain must be the spec's, bound for bound
+    let domain = field(cert, "domain", "certificate")?
+        .as_array()
+        .ok_or_else(|| Rejection("`domain` is not a list".into()))?;
+    let vars = &prepared.problem.variables;
+    if domain.len() != vars.len() {
+        return reject(format!(
+            "the certificate's domain has {} coordinates, the spec's {}",
+            domain.len(),
+            vars.len()
+        ));
+    }
+    for (d, v) in domain.iter().zip(vars) {
+        let range = parse_pair(field(d, "range", "domain")?);
+        if d.get("name").and_then(Value::as_str) != Some(v.name.as_str())
+            || range != Some(Interval::new(v.lo, v.hi))
+        {
+            return reject(format!(
+                "domain coordinate `{}` does not match the spec ({} in [{}, {}])",
+                d.get("name").and_then(Value::as_str).unwrap_or("?"),
+                v.name,
+                v.lo,
+                v.hi
+            ));
+        }
+    }
+    let goals = field(cert, "goals", "certificate")?
+        .as_array()
+        .ok_or_else(|| Rejection("`goals` is not a list".into()))?;
+    if goals.len() != prepared.goals.len() {
+        return reject(format!(
+            "the certificate has {} goals, the spec gives {}",
+            goals.len(),
+            prepared.goals.len()
+        ));
+    }
+    let mut out = Rechecked {
+        verdict: Verdict::Proven,
+        goals: 0,
+        leaves: 0,
+        counterexamples: 0,
+    };
+    let mut statuses = Vec::new();
+    for (gi, (gj, pg)) in goals.iter().zip(&prepared.goals).enumerate() {
+        let c = &pg.compiled;
+        let at = format!("goal {} ({})", gi + 1, c.goal.label);
+        if gj.get("expr").and_then(Value::as_str) != Some(c.text.as_str())
+            || gj.get("test") != Some(&test_json(&c.goal.test))
+            || gj.get("dims") != Some(&json!(c.names))
+        {
+            return reject(format!(
+                "{at}: expression, test or coordinates differ from the spec's"
+            ));
+        }
+        let status = field(gj, "status", &at)?.as_str().unwrap_or("");
+        statuses.push(status.to_string());
+        match status {
+            "proven" => out.leaves += recheck_tree(gj, prepared, gi, &at)?,
+            "refuted" => {
+                let cx = field(gj, "counterexample", &at)?;
+                let bad = || Rejection(format!("{at}: malformed counterexample"));
+                let point = parse_point(field(cx, "point", &at)?).ok_or_else(bad)?;
+                let bracket = match cx.get("bracket").and_then(Value::as_array) {
+                    Some(ends) if ends.len() == 2 => Some([
+                        parse_point(&ends[0]).ok_or_else(bad)?,
+                        parse_point(&ends[1]).ok_or_else(bad)?,
+                    ]),
+                    Some(_) => return Err(bad()),
+                    None => None,
+                };
+                if point.len() != c.dims.len() {
+                    return reject(format!("{at}: the counterexample has the wrong dimension"));
+                }
+                let counter = Counter {
+                    point,
+                    value: f64::NAN,
+                    enclosure: Interval::point(0.0),
+                    bracket,
+                };
+                let mut s = Scratch::default();
+                if !reconfirm(c, &counter, &mut s) {
+                    return reject(format!(
+                        "{at}: the recorded counterexample does not refute the goal"
+                    ));
+                }
+                out.counterexamples += 1;
+            }
+            "inconclusive" | "skipped" => {}
+            other => return reject(format!("{at}: unknown status `{other}`")),
+        }
+        out.goals += 1;
+    }
+    let implied = if statuses.iter().any(|s| s == "refuted") {
+        Verdict::Falsified
+    } else if statuses.iter().all(|s| s == "proven") {
+        Verdict::Proven
+    } else {
+        Verdict::Inconclusive
+    };
+    let stated = field(cert, "verdict", "certificate")?
+        .as_str()
+        .unwrap_or("");
+    if stated != implied.name() {
+        return reject(format!(
+            "the certificate states `{stated}` but its goals give `{}`",
+            implied.name()
+        ));
+    }
+    out.verdict = implied;
+    Ok(out)
+}
+
+/// Walks a goal's split tree from the root box, checks every recorded leaf box against the
+/// recomputed one, and re-evaluates every leaf's evidence in parallel. Returns the leaf count.
+fn recheck_tree(gj: &Value, prepared: &Prepared, gi: usize, at: &str) -> Result<usize, Rejection> {
+    let c = &prepared.goals[gi].compiled;
+    let shape: Vec<i64> = field(gj, "tree", at)?
+        .as_array()
+        .and_then(|a| a.iter().map(Value::as_i64).collect())
+        .ok_or_else(|| Rejection(format!("{at}: `tree` is not a list of integers")))?;
+    let leaves = field(gj, "leaves", at)?
+        .as_array()
+        .ok_or_else(|| Rejection(format!("{at}: `leaves` is not a list")))?;
+    // recompute the leaf boxes from the shape
+    let mut boxes = Vec::new();
+    let mut stack = vec![prepared.root(gi)];
+    let mut pos = 0;
+    while let Some(bx) = stack.pop() {
+        let Some(&s) = shape.get(pos) else {
+            return reject(format!("{at}: the tree ends before covering the domain"));
+        };
+        pos += 1;
+        if s < 0 {
+            boxes.push(bx);
+        } else {
+            let d = s as usize;
+            if d >= bx.len() || !(bx[d].mid() > bx[d].lo() && bx[d].mid() < bx[d].hi()) {
+                return reject(format!("{at}: the tree splits along an invalid dimension"));
+            }
+            let (lo, hi) = halves(&bx, d);
+            stack.push(hi);
+            stack.push(lo);
+        }
+    }
+    if pos != shape.len() || boxes.len() != leaves.len() {
+        return reject(format!(
+            "{at}: the tree has {} leaves and {} entries, the certificate lists {} leaves",
+            boxes.len(),
+            shape.len(),
+            leaves.len()
+        ));
+    }
+    let strict = matches!(c.goal.test, Test::Negative { strict: true });
+    let bad: Option<String> = boxes
+        .par_iter()
+        .zip(leaves.par_iter())
+        .enumerate()
+        .map_init(Scratch::default, |s, (li, (bx, leaf))| {
+            let recorded: Option<Vec<Interval>> = leaf
+                .get("box")
+                .and_then(Value::as_array)
+                .and_then(|a| a.iter().map(parse_pair).collect());
+            if recorded.as_deref() != Some(bx.as_slice()) {
+                return Some(format!(
+                    "leaf {li}: its box is not the one its tree position gives"
+                ));
+            }
+            if let Some(b) = leaf.get("bound") {
+                let recorded = parse_pair(b);
+                let holds_origin = c.holds_origin(bx);
+                let (f, _) = c.enclose(bx, s);
+                if recorded != Some(f) {
+                    return Some(format!(
+                        "leaf {li}: recorded bound {b} but the box evaluates to [{}, {}]",
+                        f.lo(),
+                        f.hi()
+                    ));
+                }
+                let exempt = holds_origin && strict;
+                if exempt || !c.goal.test.proves(f) {
+                    return Some(format!("leaf {li}: its bound does not prove the goal"));
+                }
+            } else if let Some(h) = leaf.get("hessian") {
+                let method = h
+                    .get("method")
+                    .and_then(Value::as_str)
+                    .and_then(Method::from_name);
+                let value = h.get("value").and_then(parse_num);
+                let (Some(method), Some(value)) = (method, value) else {
+                    return Some(format!("leaf {li}: malformed Hessian evidence"));
+                };
+                let v = c.origin_measure(method, bx, s);
+                let passes = if strict { v < 0.0 } else { v <= 0.0 };
+                if v.to_bits() != value.to_bits() || !passes {
+                    return Some(format!(
+                        "leaf {li}: recorded Hessian value {value} but the box gives {v}"
+                    ));
+                }
+            } else if let Some(i) = leaf.get("excluded").and_then(Value::as_u64) {
+                if c.feasibility(bx, s) != Feasibility::None(i as usize) {
+                    return Some(format!(
+                        "leaf {li}: constraint {i} does not fail everywhere on its box"
+                    ));
+                }
+            } else {
+                return Some(format!("leaf {li}: no evidence"));
+            }
+            None
+        })
+        .find_first(Option::is_some)
+        .flatten();
+    match bad {
+        Some(msg) => reject(format!("{at}: {msg}")),
+        None => Ok(boxes.len()),
+    }
+}

@@ -1,0 +1,329 @@
+//! The proof problem: the declared envelope as a box in *proof coordinates*, and the spec's
+//! expressions rewritten in them.
+//!
+//! A state's value is not a coordinate of its own: the envelope bounds its *error* around its
+//! reference, so the state `h` tracking `h_r` becomes `h_r + Δh` with `Δh` in the error box.
+//! The box is then a plain product of intervals (errors, references, rates, signals, gains),
+//! which is what branch and bound splits. Parameters are replaced by their exact values (the
+//! f64 the generated code will hold, as an exact rational), so they cost no dimension.
+
+use lawsmith_expr::{parse_decimal, AssumeAll, BigRational, Condition, Dag, ExprId, Simplifier};
+use lawsmith_spec::{Derivation, Spec, SymbolKind};
+use std::collections::HashMap;
+
+/// What a proof coordinate stands for.
+#[derive(Copy, Clone, Debug, PartialEq, Eq)]
+pub enum Role {
+    /// The error `state − reference` (or `state − equilibrium`) of a state.
+    Error,
+    /// A reference from the guidance filter.
+    Reference,
+    /// The rate of a reference.
+    Rate,
+    /// A measured or estimated signal.
+    Signal,
+    /// A run-time gain.
+    Gain,
+}
+
+impl Role {
+    /// Lower-case name for reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            Role::Error => "error",
+            Role::Reference => "reference",
+            Role::Rate => "rate",
+            Role::Signal => "signal",
+            Role::Gain => "gain",
+        }
+    }
+}
+
+/// One coordinate of the proof domain.
+#[derive(Clone, Debug)]
+pub struct Variable {
+    /// Name in proof expressions: `Δh` for the error of state `h`, else the symbol's name.
+    /// The `Δ` cannot occur in a spec (identifiers are ASCII), so names never collide.
+    pub name: String,
+    /// The spec symbol it belongs to (the state, for an error).
+    pub symbol: String,
+    /// What it stands for.
+    pub role: Role,
+    /// Unit as written in the spec.
+    pub unit: String,
+    /// Lower end of its range.
+    pub lo: f64,
+    /// Upper end of its range.
+    pub hi: f64,
+}
+
+/// A gain constraint in proof coordinates: `g < 0` (strict) or `g ≤ 0`.
+#[derive(Clone, Debug)]
+pub struct ProofConstraint {
+    /// The constraint as written.
+    pub text: String,
+    /// `lhs − rhs` for `<`/`<=`, `rhs − lhs` for `>`/`>=`.
+    pub g: ExprId,
+    /// True for `<` and `>`.
+    pub strict: bool,
+}
+
+/// The envelope and the expressions of one spec in proof coordinates.
+#[derive(Debug)]
+pub struct Problem {
+    /// The expression arena (a copy of the spec's, grown by the rewriting).
+    pub dag: Dag,
+    /// The coordinates: errors, references, rates, signals, gains, in that order.
+    pub variables: Vec<Variable>,
+    /// Gain constraints.
+    pub constraints: Vec<ProofConstraint>,
+    /// Parameters and their values.
+    pub parameters: Vec<(String, f64)>,
+    /// States: name, reference (or None), equilibrium value.
+    states: Vec<(String, Option<String>, f64)>,
+    to_proof: HashMap<String, ExprId>,
+}
+
+/// The name of the error coordinate of a state.
+pub fn error_name(state: &str) -> String {
+    format!("Δ{state}")
+}
+
+impl Problem {
+    /// Builds the proof domain of a loaded spec. The spec's own arena is copied, so ids of
+    /// `spec` and of a [`Derivation`] of it stay valid in [`Problem::dag`].
+    pub fn new(spec: &Spec) -> Problem {
+        let mut dag = spec.dag.clone();
+        let mut variables = Vec::new();
+        let mut to_proof = HashMap::new();
+        let mut parameters = Vec::new();
+        let mut states = Vec::new();
+        for s in spec.symbols_of(SymbolKind::State) {
+            let (lo, hi) = s.error.unwrap_or((0.0, 0.0));
+            let name = error_name(&s.name);
+            variables.push(Variable {
+                name: name.clone(),
+                symbol: s.name.clone(),
+                role: Role::Error,
+                unit: s.unit.clone(),
+                lo,
+                hi,
+            });
+            let delta = dag.sym(&name);
+            let base = match &s.reference {
+                Some(r) => dag.sym(r),
+                None => {
+                    let eq = s.equilibrium.unwrap_or(0.0);
+                    dag.num(exact(eq))
+                }
+            };
+            let value = dag.add(vec![base, delta]);
+            to_proof.insert(s.name.clone(), value);
+            states.push((
+                s.name.clone(),
+                s.reference.clone(),
+                s.equilibrium.unwrap_or(0.0),
+            ));
+        }
+        for (kind, role) in [
+            (SymbolKind::Reference, Role::Reference),
+            (SymbolKind::Rate, Role::Rate),
+            (SymbolKind::Signal, Role::Signal),
+            (SymbolKind::Gain, Role::Gain),
+        ] {
+            for s in spec.symbols_of(kind) {
+                let (lo, hi) = s.range.unwrap_or((0.0, 0.0));
+                variables.push(Variable {
+                    name: s.name.clone(),
+                    symbol: s.name.clone(),
+                    role,
+                    unit: s.unit.clone(),
+                    lo,
+                    hi,
+                });
+            }
+        }
+        for s in spec.symbols_of(SymbolKind::Parameter) {
+            let v = s.value.unwrap_or(0.0);
+            parameters.push((s.name.clone(), v));
+            let c = dag.num(exact(v));
+            to_proof.insert(s.name.clone(), c);
+        }
+        let mut problem = Problem {
+            dag,
+            variables,
+            constraints: Vec::new(),
+            parameters,
+            states,
+            to_proof,
+        };
+        for c in &spec.constraints {
+            let (a, b) = match c.op.as_str() {
+                "<" | "<=" => (c.lhs, c.rhs),
+                _ => (c.rhs, c.lhs),
+            };
+            let diff = problem.dag.sub(a, b);
+            let (g, _) = problem.express(diff);
+            problem.constraints.push(ProofConstraint {
+                text: c.text.clone(),
+                g,
+                strict: c.op == "<" || c.op == ">",
+            });
+        }
+        problem
+    }
+
+    /// Rewrites an expression over base symbols into proof coordinates and simplifies it.
+    /// Returns the side conditions the simplifier assumed (they must be proved too).
+    pub fn express(&mut self, e: ExprId) -> (ExprId, Vec<(&'static str, Condition)>) {
+        let sub = self.dag.substitute(e, &self.to_proof);
+        let mut oracle = AssumeAll::default();
+        let out = Simplifier::new(&mut self.dag, &mut oracle).simplify(&mut self.dag, sub);
+        (out, oracle.assumed)
+    }
+
+    /// Simplifies an expression already in proof coordinates, recording side conditions.
+    pub fn simplify(&mut self, e: ExprId) -> (ExprId, Vec<(&'static str, Condition)>) {
+        let mut oracle = AssumeAll::default();
+        let out = Simplifier::new(&mut self.dag, &mut oracle).simplify(&mut self.dag, e);
+        (out, oracle.assumed)
+    }
+
+    /// Index of the coordinate with this proof name.
+    pub fn index_of(&self, name: &str) -> Option<usize> {
+        self.variables.iter().position(|v| v.name == name)
+    }
+
+    /// Indices of the coordinates an expression depends on, in coordinate order. Symbols that
+    /// are not coordinates (a guidance command, say) are returned by name as the error.
+    pub fn coordinates_of(&self, e: ExprId) -> Result<Vec<usize>, String> {
+        let mut out = Vec::new();
+        for s in self.dag.symbols(e) {
+            match self.index_of(&s) {
+                Some(i) => out.push(i),
+                None => return Err(s),
+            }
+        }
+        out.sort_unstable();
+        Ok(out)
+    }
+
+    /// Indices of the error coordinates.
+    pub fn errors(&self) -> Vec<usize> {
+        (0..self.variables.len())
+            .filter(|&i| self.variables[i].role == Role::Error)
+            .collect()
+    }
+
+    /// `dims` grown by every coordinate of every constraint that shares a coordinate with it,
+    /// repeatedly, so a constraint can always be decided on a box over the result.
+    pub fn close_over_constraints(&self, dims: &[usize]) -> Vec<usize> {
+        let mut out: Vec<usize> = dims.to_vec();
+        let cvars: Vec<Vec<usize>> = self
+            .constraints
+            .iter()
+            .map(|c| self.coordinates_of(c.g).unwrap_or_default())
+            .collect();
+        loop {
+            let before = out.len();
+            for vs in &cvars {
+                if vs.iter().any(|v| out.contains(v)) {
+                    for v in vs {
+                        if !out.contains(v) {
+                            out.push(*v);
+                        }
+                    }
+                }
+            }
+            if out.len() == before {
+                break;
+            }
+        }
+        out.sort_unstable();
+        out
+    }
+
+    /// The value of every base symbol at a full point of the domain (one value per
+    /// coordinate): states as reference (or equilibrium) plus error, then references, rates,
+    /// signals, gains and parameters.
+    pub fn base_values(&self, point: &[f64]) -> Vec<(String, f64)> {
+        let value = |name: &str| {
+            self.index_of(name)
+                .map(|i| point[i])
+                .expect("a reference is a coordinate")
+        };
+        let mut out = Vec::new();
+        for (s, reference, eq) in &self.states {
+            let base = reference.as_deref().map_or(*eq, value);
+            out.push((s.clone(), base + value(&error_name(s))));
+        }
+        for (v, x) in self.variables.iter().zip(point) {
+            if v.role != Role::Error {
+                out.push((v.name.clone(), *x));
+            }
+        }
+        out.extend(self.parameters.iter().cloned());
+        out
+    }
+}
+
+/// The exact rational value of the shortest decimal that reads back as `x`: the number as the
+/// spec wrote it (`9.80665` is 196133/20000, not the binary double next to it). Both are within
+/// half an ulp of each other; the decimal is what the engineer declared and prints as such.
+pub fn exact(x: f64) -> BigRational {
+    let text = format!("{:e}", x.abs());
+    let v = parse_decimal(&text)
+        .or_else(|| BigRational::from_float(x.abs()))
+        .unwrap_or_else(|| BigRational::from_integer(0.into()));
+    if x < 0.0 {
+        -v
+    } else {
+        v
+    }
+}
+
+/// The spec's derivation rewritten in proof coordinates.
+#[derive(Debug, Clone)]
+pub struct ProofForms {
+    /// V.
+    pub candidate: ExprId,
+    /// V̇ along the closed loop.
+    pub vdot: ExprId,
+    /// Each actuator command.
+    pub actuators: Vec<(String, ExprId)>,
+    /// Each law.
+    pub laws: Vec<(String, ExprId)>,
+    /// Side conditions assumed while rewriting (in proof coordinates).
+    pub assumed: Vec<(&'static str, Condition)>,
+}
+
+impl Problem {
+    /// Rewrites V, V̇, the laws and the actuator commands of a derivation.
+    pub fn forms(&mut self, d: &Derivation) -> ProofForms {
+        let mut assumed = Vec::new();
+        let mut go = |p: &mut Problem, e: ExprId| {
+            let (out, a) = p.express(e);
+            assumed.extend(a);
+            out
+        };
+        let candidate = go(self, d.candidate);
+        let vdot = go(self, d.vdot);
+        let laws = d
+            .laws
+            .iter()
+            .map(|(n, e)| (n.clone(), go(self, *e)))
+            .collect();
+        let actuators = d
+            .actuators
+            .iter()
+            .map(|(n, e)| (n.clone(), go(self, *e)))
+            .collect();
+        ProofForms {
+            candidate,
+            vdot,
+            actuators,
+            laws,
+            assumed,
+        }
+    }
+}

@@ -1,0 +1,315 @@
+//! Rendering of a check report: readable text and JSON.
+
+use crate::check::{CheckReport, GoalKind, GoalResult, Status};
+use crate::goal::Test;
+use serde_json::{json, Map, Value};
+use std::fmt::Write as _;
+
+/// A value as f64 prints it, with negative zero shown as 0.
+fn plain(x: f64) -> String {
+    format!("{}", x + 0.0)
+}
+
+/// A number with 4 significant digits, in plain or scientific notation as fits.
+fn sig(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return format!("{x}");
+    }
+    let a = x.abs();
+    if (1e-3..1e5).contains(&a) {
+        let digits = (3 - a.log10().floor() as i32).max(0) as usize;
+        let s = format!("{x:.digits$}");
+        if s.contains('.') {
+            s.trim_end_matches('0').trim_end_matches('.').to_string()
+        } else {
+            s
+        }
+    } else {
+        format!("{x:.3e}")
+    }
+}
+
+fn status_word(s: &Status) -> &'static str {
+    match s {
+        Status::Proven => "proved",
+        Status::Refuted(_) => "FAILS",
+        Status::Inconclusive(_) => "undecided",
+        Status::Skipped => "skipped",
+    }
+}
+
+fn goal_counts(r: &GoalResult) -> String {
+    let mut parts = Vec::new();
+    if let Some(s) = &r.search {
+        let mut p = format!("{} box{}", s.boxes, if s.boxes == 1 { "" } else { "es" });
+        let mut how = Vec::new();
+        if s.by_bound > 0 {
+            how.push(format!("{} by bound", s.by_bound));
+        }
+        if s.by_hessian > 0 {
+            how.push(format!("{} by Hessian", s.by_hessian));
+        }
+        if s.excluded > 0 {
+            how.push(format!("{} excluded by constraints", s.excluded));
+        }
+        if !how.is_empty() {
+            p.push_str(&format!(": {}", how.join(", ")));
+        }
+        parts.push(p);
+    }
+    if let Some(s) = &r.sampled {
+        parts.push(format!(
+            "{} sample{}",
+            s.evaluated,
+            if s.evaluated == 1 { "" } else { "s" }
+        ));
+    }
+    parts.join("; ")
+}
+
+/// The report as text. `timings` adds wall times (leave them out for snapshots: everything
+/// else is deterministic).
+pub fn text(r: &CheckReport, path: &str, timings: bool) -> String {
+    let mut s = String::new();
+    let _ = writeln!(s, "{} ({path})", r.name);
+    let claim_goal = r.goals.iter().find(|g| g.kind == GoalKind::Claim);
+    let _ = writeln!(
+        s,
+        "claim    {}: {}",
+        r.claim.name(),
+        claim_goal.map_or("", |g| g.label.as_str())
+    );
+    let time = if timings {
+        format!(" in {:.2} s", r.seconds)
+    } else {
+        String::new()
+    };
+    let _ = writeln!(
+        s,
+        "verdict  {}{time} ({} boxes)",
+        r.verdict.name().to_uppercase(),
+        r.boxes
+    );
+    let _ = writeln!(
+        s,
+        "\ndomain (an error Δx is the state x minus its reference):"
+    );
+    let width = r
+        .variables
+        .iter()
+        .map(|v| v.name.chars().count())
+        .max()
+        .unwrap_or(1);
+    for v in &r.variables {
+        let pad = width - v.name.chars().count();
+        let _ = writeln!(
+            s,
+            "  {}{} {:<9} [{}, {}] {}",
+            v.name,
+            " ".repeat(pad),
+            v.role.name(),
+            sig(v.lo),
+            sig(v.hi),
+            v.unit
+        );
+    }
+    for c in &r.constraints {
+        let _ = writeln!(s, "  constraint {c}");
+    }
+    let conds: Vec<&GoalResult> = r
+        .goals
+        .iter()
+        .filter(|g| g.kind == GoalKind::Condition)
+        .collect();
+    let wp = match r.well_posed {
+        Some(true) => "proved",
+        Some(false) => "FAILS",
+        None => "undecided",
+    };
+    let _ = writeln!(
+        s,
+        "\nwell-posedness: {wp} ({} condition{})",
+        conds.len(),
+        if conds.len() == 1 { "" } else { "s" }
+    );
+    for g in &conds {
+        let _ = writeln!(
+            s,
+            "  {:<9} {}   [{}; {}]",
+            status_word(&g.status),
+            g.label,
+            g.source,
+            goal_counts(g)
+        );
+    }
+    let _ = writeln!(s, "\nLyapunov argument:");
+    for g in r.goals.iter().filter(|g| g.kind != GoalKind::Condition) {
+        let counts = goal_counts(g);
+        let counts = if counts.is_empty() {
+            String::new()
+        } else {
+            format!("   [{counts}]")
+        };
+        let _ = writeln!(s, "  {:<9} {}{counts}", status_word(&g.status), g.label);
+        if let Status::Inconclusive(why) = &g.status {
+            let _ = writeln!(s, "            {why}");
+            if let Some(search) = &g.search {
+                for (bx, bound) in search.worst.iter().take(3) {
+                    let desc: Vec<String> = g
+                        .dims
+                        .iter()
+                        .zip(bx)
+                        .map(|(&d, i)| {
+                            format!("{} [{}, {}]", r.variables[d].name, sig(i.lo()), sig(i.hi()))
+                        })
+                        .collect();
+                    let _ = writeln!(
+                        s,
+                        "            open box (bound {}): {}",
+                        sig(*bound),
+                        desc.join(", ")
+                    );
+                }
+            }
+        }
+    }
+    if let Some(m) = r.min_margin {
+        let f = match r.claim {
+            lawsmith_spec::Claim::Exponential(rate) => format!("(dV/dt + 2*{rate}*V)"),
+            _ => "dV/dt".into(),
+        };
+        let _ = writeln!(
+            s,
+            "  worst sampled margin -{f}/|e|^2 = {} (each error scaled by its range)",
+            sig(m)
+        );
+    }
+    if !r.saturation.is_empty() {
+        let _ = writeln!(
+            s,
+            "\nsaturation (the proof assumes the unsaturated law; share of sampled domain points):"
+        );
+        for a in &r.saturation {
+            let _ = writeln!(
+                s,
+                "  {:<12} {:>6.2}% outside [{}, {}]   (commands seen {} .. {}, {} points)",
+                a.actuator,
+                100.0 * a.share,
+                sig(a.limits.0),
+                sig(a.limits.1),
+                sig(a.seen.0),
+                sig(a.seen.1),
+                a.samples
+            );
+        }
+    }
+    if let Some(cx) = &r.counterexample {
+        let _ = writeln!(s, "\ncounterexample: `{}` fails at", cx.goal);
+        for (n, v) in &cx.point {
+            let _ = writeln!(s, "  {n} = {}", plain(*v));
+        }
+        for (n, v) in cx.coordinates.iter().filter(|(n, _)| n.starts_with('Δ')) {
+            let _ = writeln!(s, "  {n} = {}", plain(*v));
+        }
+        if cx.sign_change {
+            let _ = writeln!(
+                s,
+                "  the expression changes sign here: provably positive and provably negative \
+                 at two points a few ulps apart around this one"
+            );
+        } else {
+            let _ = writeln!(
+                s,
+                "  {} there = {} (enclosure [{}, {}])",
+                cx.quantity,
+                plain(cx.value),
+                plain(cx.enclosure.lo()),
+                plain(cx.enclosure.hi())
+            );
+        }
+        match cx.vdot {
+            // already shown when the statement is about V̇ itself
+            Some(_) if cx.quantity == "dV/dt" => {}
+            Some(v) => {
+                let _ = writeln!(s, "  dV/dt there = {} (f64)", plain(v));
+            }
+            None => {
+                let _ = writeln!(
+                    s,
+                    "  dV/dt is not defined there (it was derived assuming the condition)"
+                );
+            }
+        }
+    }
+    s
+}
+
+fn test_text(t: &Test) -> String {
+    match t {
+        Test::Negative { strict: true } => "< 0".into(),
+        Test::Negative { strict: false } => "<= 0".into(),
+        Test::Within { lo, hi } => format!("in [{lo}, {hi}]"),
+        Test::NonZero => "!= 0".into(),
+    }
+}
+
+/// The report as JSON: `{"verdict", "claim", "well_posed", "saturation": {actuator: share},
+/// "counterexample": {"point": {symbol: value}, "vdot": value, …} | null, "boxes",
+/// "min_margin", "seconds", …}`.
+pub fn json(r: &CheckReport, path: &str) -> Value {
+    let mut saturation = Map::new();
+    for a in &r.saturation {
+        saturation.insert(a.actuator.clone(), json!(a.share));
+    }
+    let counterexample = r.counterexample.as_ref().map_or(Value::Null, |cx| {
+        let point: Map<String, Value> = cx
+            .point
+            .iter()
+            .map(|(n, v)| (n.clone(), json!(v)))
+            .collect();
+        let errors: Map<String, Value> = cx
+            .coordinates
+            .iter()
+            .filter(|(n, _)| n.starts_with('Δ'))
+            .map(|(n, v)| (n.trim_start_matches('Δ').to_string(), json!(v)))
+            .collect();
+        json!({
+            "goal": cx.goal,
+            "point": point,
+            "errors": errors,
+            "quantity": cx.quantity,
+            "value": cx.value,
+            "vdot": cx.vdot,
+            "sign_change": cx.sign_change,
+        })
+    });
+    let goals: Vec<Value> = r
+        .goals
+        .iter()
+        .map(|g| {
+            json!({
+                "kind": match g.kind { GoalKind::Condition => "condition", GoalKind::Positive => "positive", GoalKind::Claim => "claim" },
+                "label": g.label,
+                "source": g.source,
+                "expr": g.text,
+                "test": test_text(&g.test),
+                "status": status_word(&g.status).to_lowercase(),
+                "boxes": g.search.as_ref().map(|s| s.boxes),
+                "samples": g.sampled.as_ref().map(|s| s.evaluated),
+            })
+        })
+        .collect();
+    json!({
+        "name": r.name,
+        "file": path,
+        "verdict": r.verdict.name(),
+        "claim": r.claim.name(),
+        "well_posed": r.well_posed,
+        "saturation": saturation,
+        "counterexample": counterexample,
+        "boxes": r.boxes,
+        "min_margin": r.min_margin,
+        "seconds": r.seconds,
+        "goals": goals,
+    })
+}
