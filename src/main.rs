@@ -1,10 +1,12 @@
 //! The `lawsmith` command line: parses arguments, reads files, dispatches to the library
-//! crates, prints, and maps outcomes to exit codes. No derivation logic lives here.
+//! crates, prints, and maps outcomes to exit codes. No derivation or proof logic lives here.
+
+mod check_cmd;
+mod derive_cmd;
+mod progress;
 
 use clap::{Parser, Subcommand, ValueEnum};
-use lawsmith_expr::{to_latex, to_text};
-use lawsmith_spec::{derive, load, render, Derivation, Spec};
-use serde_json::{json, Map, Value};
+use lawsmith_spec::{load, render, Spec};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -33,12 +35,41 @@ enum Command {
         #[arg(long, value_enum, default_value_t = Format::Text)]
         format: Format,
     },
+    /// Prove the Lyapunov claim over the declared envelope, or find a counterexample.
+    /// Exit code 0 proven, 1 falsified, 2 inconclusive, 3 invalid spec.
+    Check {
+        /// Spec files (YAML).
+        #[arg(required = true)]
+        specs: Vec<PathBuf>,
+        /// Output format.
+        #[arg(long, value_enum, default_value_t = ReportFormat::Text)]
+        format: ReportFormat,
+        /// Write the proof certificate (JSON) here; one spec only.
+        #[arg(long, value_name = "PATH")]
+        certificate: Option<PathBuf>,
+        #[command(flatten)]
+        limits: check_cmd::Limits,
+    },
+    /// Re-evaluate every leaf box of a certificate against its spec, without searching.
+    /// Exit code 0 accepted, 1 rejected, 3 unreadable input.
+    Recheck {
+        /// The certificate (JSON) written by `check --certificate`.
+        certificate: PathBuf,
+        /// The spec it claims to prove.
+        spec: PathBuf,
+    },
 }
 
 #[derive(Copy, Clone, PartialEq, Eq, ValueEnum)]
 enum Format {
     Text,
     Latex,
+    Json,
+}
+
+#[derive(Copy, Clone, PartialEq, Eq, ValueEnum)]
+enum ReportFormat {
+    Text,
     Json,
 }
 
@@ -55,12 +86,26 @@ fn main() -> ExitCode {
 
 fn run(cli: Cli) -> ExitCode {
     match cli.command {
-        Command::Derive { specs, format } => derive_cmd(&specs, format),
+        Command::Derive { specs, format } => derive_cmd::derive_cmd(&specs, format),
+        Command::Check {
+            specs,
+            format,
+            certificate,
+            limits,
+        } => check_cmd::check_cmd(&specs, format, certificate.as_deref(), &limits),
+        Command::Recheck { certificate, spec } => check_cmd::recheck_cmd(&certificate, &spec),
     }
 }
 
+/// A spec as read from disk.
+struct Loaded {
+    spec: Spec,
+    /// The file's bytes (for its SHA-256).
+    bytes: Vec<u8>,
+}
+
 /// Reads and validates one spec, printing diagnostics to stderr on failure.
-fn read_spec(path: &Path) -> Option<Spec> {
+fn read_spec(path: &Path) -> Option<Loaded> {
     let name = path.display().to_string();
     let bytes = match std::fs::read(path) {
         Ok(b) => b,
@@ -77,11 +122,11 @@ fn read_spec(path: &Path) -> Option<Spec> {
         );
         return None;
     }
-    let source = match String::from_utf8(bytes) {
+    let source = match std::str::from_utf8(&bytes) {
         Ok(s) => s,
         Err(e) => {
-            let at = e.utf8_error().valid_up_to();
-            let valid = String::from_utf8_lossy(&e.as_bytes()[..at]).to_string();
+            let at = e.valid_up_to();
+            let valid = String::from_utf8_lossy(&bytes[..at]).to_string();
             let line = valid.matches('\n').count() + 1;
             let col = valid.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
             eprintln!(
@@ -90,10 +135,10 @@ fn read_spec(path: &Path) -> Option<Spec> {
             return None;
         }
     };
-    match load(&source) {
-        Ok(spec) => Some(spec),
+    match load(source) {
+        Ok(spec) => Some(Loaded { spec, bytes }),
         Err(diags) => {
-            eprint!("{}", render(&name, &source, &diags));
+            eprint!("{}", render(&name, source, &diags));
             eprintln!(
                 "{name}: {} problem{} found",
                 diags.len(),
@@ -104,164 +149,27 @@ fn read_spec(path: &Path) -> Option<Spec> {
     }
 }
 
-fn derive_cmd(paths: &[PathBuf], format: Format) -> ExitCode {
-    let mut failed = false;
-    let mut json_out = Vec::new();
-    for (i, path) in paths.iter().enumerate() {
-        let Some(mut spec) = read_spec(path) else {
-            failed = true;
-            continue;
-        };
-        let d = match derive(&mut spec) {
-            Ok(d) => d,
-            Err(e) => {
-                eprintln!("error[derive]: {}: {e}", path.display());
-                failed = true;
-                continue;
-            }
-        };
-        match format {
-            Format::Json => json_out.push(derivation_json(&spec, &d, path)),
-            Format::Text => {
-                if i > 0 {
-                    println!();
-                }
-                print!("{}", derivation_text(&spec, &d, path));
-            }
-            Format::Latex => {
-                if i > 0 {
-                    println!();
-                }
-                print!("{}", derivation_latex(&spec, &d));
-            }
-        }
+/// Writes a file atomically: a temporary file beside it, then a rename, so a reader (or an
+/// interrupted run) sees either the old content or the new, never half of it.
+fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    use std::io::Write;
+    let dir = match path.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_else(|| "out".into());
+    let tmp = dir.join(format!(".{name}.lawsmith-{}.tmp", std::process::id()));
+    let result = (|| {
+        let mut f = std::fs::File::create(&tmp)?;
+        f.write_all(bytes)?;
+        f.sync_all()?;
+        std::fs::rename(&tmp, path)
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_file(&tmp);
     }
-    if format == Format::Json {
-        let v = if json_out.len() == 1 {
-            json_out.pop().expect("one")
-        } else {
-            Value::Array(json_out)
-        };
-        println!("{}", serde_json::to_string_pretty(&v).expect("json"));
-    }
-    if failed {
-        ExitCode::from(EXIT_INVALID)
-    } else {
-        ExitCode::SUCCESS
-    }
-}
-
-fn derivation_text(spec: &Spec, d: &Derivation, path: &Path) -> String {
-    let dag = &spec.dag;
-    let mut s = String::new();
-    s.push_str(&format!("{} ({})\n", spec.name, path.display()));
-    if let Some(sum) = &spec.summary {
-        s.push_str(&format!("  {sum}\n"));
-    }
-    s.push_str(&format!("claim: {}\n\n", spec.claim.name()));
-    for (n, e) in &d.where_defs {
-        s.push_str(&format!("where {n} = {}\n", to_text(dag, *e)));
-    }
-    s.push_str(&format!("V     = {}\n", to_text(dag, d.candidate)));
-    s.push_str(&format!("dV/dt = {}\n", to_text(dag, d.vdot)));
-    s.push_str("\nlaws (in base symbols):\n");
-    for (n, e) in &d.laws {
-        s.push_str(&format!("  {n} = {}\n", to_text(dag, *e)));
-    }
-    if !d.actuators.is_empty() {
-        s.push_str("actuators:\n");
-        for (n, e) in &d.actuators {
-            s.push_str(&format!("  {n} = {}\n", to_text(dag, *e)));
-        }
-    }
-    if !d.assumptions.is_empty() {
-        s.push_str("simplification assumed (to be proved over the envelope by `check`):\n");
-        for (rule, c) in &d.assumptions {
-            s.push_str(&format!(
-                "  [{rule}] {}\n",
-                c.kind.describe(&to_text(dag, c.expr))
-            ));
-        }
-    }
-    s
-}
-
-fn derivation_latex(spec: &Spec, d: &Derivation) -> String {
-    let dag = &spec.dag;
-    let mut s = format!("% {}: Lyapunov derivation\n\\begin{{align*}}\n", spec.name);
-    s.push_str(&format!("V &= {} \\\\\n", to_latex(dag, d.candidate)));
-    s.push_str(&format!("\\dot V &= {}", to_latex(dag, d.vdot)));
-    for (n, e) in &d.laws {
-        s.push_str(&format!(
-            " \\\\\n\\mathrm{{{}}} &= {}",
-            n.replace('_', "\\_"),
-            to_latex(dag, *e)
-        ));
-    }
-    s.push_str("\n\\end{align*}\n");
-    s
-}
-
-fn derivation_json(spec: &Spec, d: &Derivation, path: &Path) -> Value {
-    let dag = &spec.dag;
-    let mut laws = Map::new();
-    for (n, e) in &d.laws {
-        laws.insert(n.clone(), Value::String(to_text(dag, *e)));
-    }
-    let mut actuators = Map::new();
-    for (n, e) in &d.actuators {
-        actuators.insert(n.clone(), Value::String(to_text(dag, *e)));
-    }
-    let mut symbols = Map::new();
-    for s in &spec.symbols {
-        let mut o = Map::new();
-        o.insert("kind".into(), json!(s.kind.name()));
-        o.insert("unit".into(), json!(s.unit));
-        o.insert(
-            "range".into(),
-            s.range.map_or(Value::Null, |(a, b)| json!([a, b])),
-        );
-        if let Some(v) = s.value {
-            o.insert("value".into(), json!(v));
-        }
-        if let Some(v) = s.default {
-            o.insert("default".into(), json!(v));
-        }
-        if let Some(r) = &s.reference {
-            o.insert("reference".into(), json!(r));
-        }
-        if let Some(e) = s.equilibrium {
-            o.insert("equilibrium".into(), json!(e));
-        }
-        if let Some((a, b)) = s.error {
-            o.insert("error".into(), json!([a, b]));
-        }
-        if let Some(r) = &s.rate {
-            o.insert("rate".into(), json!(r));
-        }
-        symbols.insert(s.name.clone(), Value::Object(o));
-    }
-    let assumptions: Vec<Value> = d
-        .assumptions
-        .iter()
-        .map(|(rule, c)| {
-            json!({
-                "rule": rule,
-                "condition": format!("{:?}", c.kind),
-                "expr": to_text(dag, c.expr),
-            })
-        })
-        .collect();
-    json!({
-        "name": spec.name,
-        "file": path.display().to_string(),
-        "claim": spec.claim.name(),
-        "candidate": to_text(dag, d.candidate),
-        "vdot": to_text(dag, d.vdot),
-        "laws": laws,
-        "actuators": actuators,
-        "constraints": spec.constraints.iter().map(|c| c.text.clone()).collect::<Vec<_>>(),
-        "symbols": symbols,
-        "assumptions": assumptions,
-    })
+    result
 }

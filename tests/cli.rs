@@ -106,3 +106,99 @@ fn a_100000_deep_formula_through_the_binary_is_a_located_error() {
     assert!(Path::new(&p).exists());
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+#[test]
+fn check_exit_codes_follow_the_verdict() {
+    // 0 proven, 1 falsified, 2 inconclusive, 3 invalid spec
+    let cases: [(&[&str], i32); 4] = [
+        (&["check", "specs/energy_longitudinal.yaml"], 0),
+        (&["check", "tests/data/check/pendulum_definite.yaml"], 1),
+        (
+            &[
+                "check",
+                "tests/data/check/exponential_rate.yaml",
+                "--max-boxes",
+                "50",
+            ],
+            2,
+        ),
+        (&["check", "tests/data/err/unknown-symbol.yaml"], 3),
+    ];
+    for (args, code) in cases {
+        let out = lawsmith(args);
+        let text = String::from_utf8_lossy(&out.stdout).to_string()
+            + &String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(code), "{args:?}: {text}");
+        assert!(!text.contains("panicked"), "{text}");
+        if code == 2 {
+            assert!(text.contains("raise --max-boxes"), "{text}");
+        }
+    }
+}
+
+#[test]
+fn check_json_has_the_documented_keys() {
+    let out = lawsmith(&[
+        "check",
+        "--format",
+        "json",
+        "tests/data/check/pendulum_definite.yaml",
+    ]);
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    for key in [
+        "verdict",
+        "claim",
+        "well_posed",
+        "saturation",
+        "counterexample",
+        "boxes",
+        "min_margin",
+        "seconds",
+    ] {
+        assert!(v.get(key).is_some(), "missing {key}: {v}");
+    }
+    assert_eq!(v["verdict"], "falsified");
+    assert_eq!(v["claim"], "negative_definite");
+    assert_eq!(v["counterexample"]["point"]["omega"], 0.0);
+    assert_eq!(v["counterexample"]["vdot"], 0.0);
+    assert!(v["saturation"]["torque_cmd"].is_number());
+}
+
+#[test]
+fn a_written_certificate_rechecks_and_an_edited_one_does_not() {
+    let dir = std::env::temp_dir().join(format!("lawsmith-cert-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let cert = dir.join("energy.cert.json");
+    let c = cert.to_str().unwrap();
+    let out = lawsmith(&["check", "specs/energy_pitch.yaml", "--certificate", c]);
+    assert_eq!(out.status.code(), Some(0));
+    let out = lawsmith(&["recheck", c, "specs/energy_pitch.yaml"]);
+    let text = String::from_utf8_lossy(&out.stdout).to_string();
+    assert_eq!(out.status.code(), Some(0), "{text}");
+    assert!(text.starts_with("accepted"), "{text}");
+    // against another spec: the SHA-256 differs
+    let out = lawsmith(&["recheck", c, "specs/energy_longitudinal.yaml"]);
+    assert_eq!(out.status.code(), Some(1));
+    // one bound edited
+    let mut v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&cert).unwrap()).unwrap();
+    let goals = v["goals"].as_array_mut().unwrap();
+    let last = goals.last_mut().unwrap();
+    let leaf = last["leaves"]
+        .as_array_mut()
+        .unwrap()
+        .iter_mut()
+        .find(|l| l.get("bound").is_some())
+        .unwrap();
+    let hi = leaf["bound"][1].as_f64().unwrap();
+    leaf["bound"][1] = serde_json::json!(hi - 1.0);
+    std::fs::write(&cert, serde_json::to_string(&v).unwrap()).unwrap();
+    let out = lawsmith(&["recheck", c, "specs/energy_pitch.yaml"]);
+    let text = String::from_utf8_lossy(&out.stdout).to_string();
+    assert_eq!(out.status.code(), Some(1), "{text}");
+    assert!(
+        text.starts_with("rejected") && text.contains("recorded bound"),
+        "{text}"
+    );
+    std::fs::remove_dir_all(&dir).unwrap();
+}

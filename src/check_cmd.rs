@@ -1,0 +1,197 @@
+//! `lawsmith check` and `lawsmith recheck`: run the prover, print the report, write and
+//! re-check certificates, map verdicts to exit codes.
+
+use crate::progress::Progress;
+use crate::{read_spec, ReportFormat, EXIT_INVALID};
+use lawsmith_verify::{
+    certificate, check, prepare, recheck, report, sha256_hex, Budget, Origin, Settings, Verdict,
+};
+use serde_json::{json, Value};
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+use std::time::Duration;
+
+/// Exit codes of `check`.
+const EXIT_FALSIFIED: u8 = 1;
+const EXIT_INCONCLUSIVE: u8 = 2;
+
+/// The prover's limits, as options.
+#[derive(clap::Args, Clone, Debug)]
+pub struct Limits {
+    /// Boxes each branch-and-bound search may evaluate.
+    #[arg(long, default_value_t = Budget::default().max_boxes)]
+    max_boxes: usize,
+    /// Seconds each search may run.
+    #[arg(long, value_name = "SECONDS", default_value_t = Budget::default().time_limit.as_secs_f64())]
+    time_limit: f64,
+    /// Open boxes a search may hold in its queue (memory).
+    #[arg(long, default_value_t = Budget::default().max_queue)]
+    max_queue: usize,
+    /// Sampled points per goal before the proof.
+    #[arg(long, default_value_t = Settings::default().samples)]
+    samples: usize,
+}
+
+impl Limits {
+    pub fn settings(&self) -> Settings {
+        Settings {
+            samples: self.samples,
+            budget: Budget {
+                max_boxes: self.max_boxes,
+                time_limit: Duration::from_secs_f64(self.time_limit.max(0.0)),
+                max_queue: self.max_queue,
+            },
+        }
+    }
+
+    fn json(&self) -> Value {
+        json!({
+            "samples": self.samples, "max_boxes": self.max_boxes,
+            "time_limit_s": self.time_limit, "max_queue": self.max_queue,
+        })
+    }
+}
+
+fn exit_of(v: Verdict) -> u8 {
+    match v {
+        Verdict::Proven => 0,
+        Verdict::Falsified => EXIT_FALSIFIED,
+        Verdict::Inconclusive => EXIT_INCONCLUSIVE,
+    }
+}
+
+/// Severity for combining several specs: invalid > falsified > inconclusive > proven.
+fn severity(code: u8) -> u8 {
+    match code {
+        EXIT_INVALID => 3,
+        EXIT_FALSIFIED => 2,
+        EXIT_INCONCLUSIVE => 1,
+        _ => 0,
+    }
+}
+
+pub fn check_cmd(
+    paths: &[PathBuf],
+    format: ReportFormat,
+    cert_path: Option<&Path>,
+    limits: &Limits,
+) -> ExitCode {
+    if cert_path.is_some() && paths.len() != 1 {
+        eprintln!("error[usage]: --certificate takes exactly one spec");
+        return ExitCode::from(EXIT_INVALID);
+    }
+    let settings = limits.settings();
+    let progress = Progress::new();
+    let mut worst = 0u8;
+    let mut json_out = Vec::new();
+    for (i, path) in paths.iter().enumerate() {
+        let code = match read_spec(path) {
+            None => EXIT_INVALID,
+            Some(mut loaded) => {
+                let r = check(&mut loaded.spec, &settings, &|l, b, o| {
+                    progress.boxes(l, b, o)
+                });
+                progress.finish();
+                match r {
+                    Err(e) => {
+                        eprintln!("error[check]: {}: {e}", path.display());
+                        EXIT_INVALID
+                    }
+                    Ok((report, prepared)) => {
+                        if let Some(cp) = cert_path {
+                            let origin = Origin {
+                                file: &path.display().to_string(),
+                                sha256: sha256_hex(&loaded.bytes),
+                                tool_version: env!("CARGO_PKG_VERSION"),
+                                settings: limits.json(),
+                            };
+                            let cert = certificate(&report, &prepared, &origin);
+                            let text = serde_json::to_string(&cert).expect("json") + "\n";
+                            if let Err(e) = crate::write_atomic(cp, text.as_bytes()) {
+                                eprintln!("error[io]: cannot write {}: {e}", cp.display());
+                                return ExitCode::from(EXIT_INVALID);
+                            }
+                        }
+                        match format {
+                            ReportFormat::Json => {
+                                json_out.push(report::json(&report, &path.display().to_string()))
+                            }
+                            ReportFormat::Text => {
+                                if i > 0 {
+                                    println!();
+                                }
+                                print!(
+                                    "{}",
+                                    report::text(&report, &path.display().to_string(), true)
+                                );
+                            }
+                        }
+                        exit_of(report.verdict)
+                    }
+                }
+            }
+        };
+        if severity(code) > severity(worst) {
+            worst = code;
+        }
+    }
+    if format == ReportFormat::Json {
+        let v = if json_out.len() == 1 {
+            json_out.pop().expect("one")
+        } else {
+            Value::Array(json_out)
+        };
+        println!("{}", serde_json::to_string_pretty(&v).expect("json"));
+    }
+    ExitCode::from(worst)
+}
+
+pub fn recheck_cmd(cert_path: &Path, spec_path: &Path) -> ExitCode {
+    let text = match std::fs::read_to_string(cert_path) {
+        Ok(t) => t,
+        Err(e) => {
+            eprintln!("error[io]: cannot read {}: {e}", cert_path.display());
+            return ExitCode::from(EXIT_INVALID);
+        }
+    };
+    let cert: Value = match serde_json::from_str(&text) {
+        Ok(v) => v,
+        Err(e) => {
+            eprintln!(
+                "error[certificate]: {}:{}:{}: not JSON: {e}",
+                cert_path.display(),
+                e.line(),
+                e.column()
+            );
+            return ExitCode::from(EXIT_INVALID);
+        }
+    };
+    let Some(mut loaded) = read_spec(spec_path) else {
+        return ExitCode::from(EXIT_INVALID);
+    };
+    let prepared = match prepare(&mut loaded.spec) {
+        Ok(p) => p,
+        Err(e) => {
+            eprintln!("error[check]: {}: {e}", spec_path.display());
+            return ExitCode::from(EXIT_INVALID);
+        }
+    };
+    match recheck(&cert, &sha256_hex(&loaded.bytes), &prepared) {
+        Ok(r) => {
+            println!(
+                "accepted: {} re-checked against {} ({} goals, {} leaf boxes re-evaluated, {} counterexamples re-confirmed); verdict {}",
+                cert_path.display(),
+                spec_path.display(),
+                r.goals,
+                r.leaves,
+                r.counterexamples,
+                r.verdict.name()
+            );
+            ExitCode::SUCCESS
+        }
+        Err(e) => {
+            println!("rejected: {}: {e}", cert_path.display());
+            ExitCode::from(EXIT_FALSIFIED)
+        }
+    }
+}
