@@ -1,0 +1,366 @@
+//! The C99 emitter: `NAME.h` and `NAME.c`. No heap, no recursion, no global variables;
+//! `extern "C"` guards; inputs by `const` pointer. Clean under
+//! `-std=c99 -Wall -Wextra -Wpedantic -Werror -Wconversion -Wshadow`.
+
+use crate::controller::Controller;
+use crate::header::{float_literal, Provenance};
+use crate::ir::{Op, Program, Slot};
+use crate::Float;
+use lawsmith_expr::Func;
+use std::fmt::Write as _;
+
+struct Emit {
+    float: Float,
+}
+
+impl Emit {
+    fn ty(&self) -> &'static str {
+        match self.float {
+            Float::F32 => "float",
+            Float::F64 => "double",
+        }
+    }
+
+    fn lit(&self, x: f64) -> String {
+        match self.float {
+            Float::F32 => {
+                let s = format!("{:?}", x as f32);
+                let s = if s.contains('.') || s.contains('e') {
+                    s
+                } else {
+                    format!("{s}.0")
+                };
+                format!("{s}f")
+            }
+            Float::F64 => float_literal(x),
+        }
+    }
+
+    /// A literal safe after a binary operator: negative ones in parentheses.
+    fn operand(&self, x: f64) -> String {
+        let s = self.lit(x);
+        if s.starts_with('-') {
+            format!("({s})")
+        } else {
+            s
+        }
+    }
+
+    fn func(&self, f: Func) -> String {
+        let base = match f {
+            Func::Sin => "sin",
+            Func::Cos => "cos",
+            Func::Tan => "tan",
+            Func::Asin => "asin",
+            Func::Acos => "acos",
+            Func::Atan => "atan",
+            Func::Atan2 => "atan2",
+            Func::Sqrt => "sqrt",
+            Func::Exp => "exp",
+            Func::Ln => "log",
+            Func::Abs => "fabs",
+            Func::Min => "fmin",
+            Func::Max => "fmax",
+            Func::Clamp => unreachable!("lowered"),
+        };
+        match self.float {
+            Float::F32 => format!("{base}f"),
+            Float::F64 => base.to_string(),
+        }
+    }
+
+    /// The statements of a program (indented by `ind`) and each output's expression.
+    fn program(
+        &self,
+        p: &Program,
+        prefix: &str,
+        ind: &str,
+        input: &dyn Fn(usize) -> String,
+        out: &mut String,
+    ) -> Vec<String> {
+        let ty = self.ty();
+        let name = |s: Slot| -> String {
+            match p.ops[s as usize] {
+                Op::Input(i) => input(i),
+                _ => format!("t{s}"),
+            }
+        };
+        for (i, op) in p.ops.iter().enumerate() {
+            let value = match op {
+                Op::Input(_) => continue,
+                Op::Const(c) => self.lit(*c),
+                Op::Neg(a) => format!("-{}", name(*a)),
+                Op::Add(a, b) => format!("{} + {}", name(*a), name(*b)),
+                Op::Sub(a, b) => format!("{} - {}", name(*a), name(*b)),
+                Op::Mul(a, b) => format!("{} * {}", name(*a), name(*b)),
+                Op::Div(a, b) => format!("{} / {}", name(*a), name(*b)),
+                Op::Call1(f, a) => format!("{}({})", self.func(*f), name(*a)),
+                Op::Call2(f, a, b) => format!("{}({}, {})", self.func(*f), name(*a), name(*b)),
+                Op::Pow(a, b) => {
+                    let f = if self.float == Float::F32 {
+                        "powf"
+                    } else {
+                        "pow"
+                    };
+                    format!("{f}({}, {})", name(*a), name(*b))
+                }
+                Op::Clamp(a, lo, hi) => format!(
+                    "{prefix}_clamp({}, {}, {})",
+                    name(*a),
+                    self.lit(*lo),
+                    self.lit(*hi)
+                ),
+                Op::Select(c, a, b) => format!(
+                    "({} >= {}) ? {} : {}",
+                    name(*c),
+                    self.lit(0.0),
+                    name(*a),
+                    name(*b)
+                ),
+            };
+            let _ = writeln!(out, "{ind}const {ty} t{i} = {value};");
+        }
+        p.outputs.iter().map(|(_, s)| name(*s)).collect()
+    }
+}
+
+fn comment_block(prov: &Provenance, what: &str) -> String {
+    let mut s = String::from("/*\n");
+    for l in prov.lines(what) {
+        if l.is_empty() {
+            s.push_str(" *\n");
+        } else {
+            let _ = writeln!(s, " * {l}");
+        }
+    }
+    s.push_str(" */\n");
+    s
+}
+
+/// The header and the source of a controller.
+pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String) {
+    let e = Emit { float };
+    let ty = e.ty();
+    let p = &c.name;
+    let up = p.to_uppercase();
+    let inputs = c.input_names();
+
+    // ---- header ----
+    let mut h = comment_block(prov, "C99 header");
+    let guard = format!("{up}_H");
+    let _ = writeln!(
+        h,
+        "#ifndef {guard}\n#define {guard}\n\n#include <stdbool.h>\n#include <stdint.h>\n"
+    );
+    let _ = writeln!(h, "#ifdef __cplusplus\nextern \"C\" {{\n#endif\n");
+    let _ = writeln!(
+        h,
+        "/* Law `{p}`: {} arithmetic operations per step. */\n",
+        c.op_count()
+    );
+    let _ = writeln!(
+        h,
+        "/* Inputs of {p}_step: the states, references, their rates and the signals. */"
+    );
+    let _ = writeln!(h, "typedef struct {{");
+    for s in &c.states {
+        let _ = writeln!(h, "    {ty} {}; /* state [{}] */", s.name, s.unit);
+    }
+    for r in c.references.iter().chain(&c.rates).chain(&c.signals) {
+        let _ = writeln!(
+            h,
+            "    {ty} {}; /* [{}], proved over [{}, {}] */",
+            r.name, r.unit, r.range.0, r.range.1
+        );
+    }
+    let _ = writeln!(h, "}} {p}_inputs;\n");
+    let _ = writeln!(h, "/* Run-time gains. */\ntypedef struct {{");
+    for g in &c.gains {
+        let _ = writeln!(
+            h,
+            "    {ty} {}; /* [{}], proved over [{}, {}], default {} */",
+            g.name, g.unit, g.range.0, g.range.1, g.default
+        );
+    }
+    let _ = writeln!(h, "}} {p}_gains;\n");
+    let _ = writeln!(h, "/* What {p}_step computes. */\ntypedef struct {{");
+    for a in &c.actuators {
+        let _ = writeln!(
+            h,
+            "    {ty} {}; /* [{}], saturated to [{}, {}] */",
+            a.name, a.unit, a.limits.0, a.limits.1
+        );
+    }
+    let _ = writeln!(
+        h,
+        "    uint32_t limits; /* limits hit: the {up}_LIMIT_* bits */"
+    );
+    let _ = writeln!(h, "    bool domain; /* an input was NaN or outside the proved envelope, or the gains outside\n                    their proved set: the law was evaluated at the nearest point of the\n                    envelope (a NaN input at its range's midpoint or at zero error),\n                    with the default gains */");
+    let _ = writeln!(h, "}} {p}_outputs;\n");
+    for (i, a) in c.actuators.iter().enumerate() {
+        let n = a.name.to_uppercase();
+        let _ = writeln!(h, "#define {up}_LIMIT_{n}_LOW (UINT32_C(1) << {})", 2 * i);
+        let _ = writeln!(
+            h,
+            "#define {up}_LIMIT_{n}_HIGH (UINT32_C(1) << {})",
+            2 * i + 1
+        );
+    }
+    let _ = writeln!(h);
+    let _ = writeln!(h, "/* The spec's default gains; the generated code falls back to them. */\n{p}_gains {p}_default_gains(void);\n");
+    let _ = writeln!(h, "/* Do the gains lie in their proved ranges and meet the constraints? */\nbool {p}_gains_valid(const {p}_gains *g);\n");
+    let _ = writeln!(h, "/* One step of the control law: the actuator commands, saturated to their limits. */\nvoid {p}_step(const {p}_inputs *in, const {p}_gains *gains, {p}_outputs *out);\n");
+    if !c.filters.is_empty() {
+        let _ = writeln!(h, "/* The state of the guidance filters: each reference and its rate. Set it to the\n   initial references (rates zero) before the first update. */\ntypedef struct {{");
+        for f in &c.filters {
+            let r = &c.references[f.reference];
+            let _ = writeln!(h, "    {ty} {}; /* [{}] */", r.name, r.unit);
+            let _ = writeln!(
+                h,
+                "    {ty} {}; /* limited to [{}, {}] */",
+                f.rate, f.rate_limit.0, f.rate_limit.1
+            );
+        }
+        let _ = writeln!(h, "}} {p}_guidance;\n");
+        let _ = writeln!(
+            h,
+            "/* What the guidance filters follow. */\ntypedef struct {{"
+        );
+        for f in &c.filters {
+            let _ = writeln!(h, "    {ty} {};", f.command);
+        }
+        let _ = writeln!(h, "}} {p}_commands;\n");
+        let _ = writeln!(h, "/* Advances every reference filter over dt seconds towards its command: the exact\n   solution of r' = clamp(k*(c - r), lo, hi) for a constant command. A NaN command\n   holds its reference; gains outside their proved set are replaced by the defaults;\n   a dt that is not positive changes nothing. */\nvoid {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt);\n");
+    }
+    let _ = writeln!(h, "#ifdef __cplusplus\n}}\n#endif\n\n#endif /* {guard} */");
+
+    // ---- source ----
+    let mut s = comment_block(prov, "C99 source");
+    let _ = writeln!(s, "#include \"{p}.h\"\n\n#include <math.h>\n");
+    let _ = writeln!(s, "static inline {ty} {p}_clamp({ty} x, {ty} lo, {ty} hi)\n{{\n    return x < lo ? lo : (x > hi ? hi : x);\n}}\n");
+    let _ = writeln!(s, "{p}_gains {p}_default_gains(void)\n{{\n    {p}_gains g;");
+    for g in &c.gains {
+        let _ = writeln!(s, "    g.{} = {};", g.name, e.lit(g.default));
+    }
+    let _ = writeln!(s, "    return g;\n}}\n");
+    // static, so step and update inline it; the public function calls it
+    let _ = writeln!(s, "static inline bool {p}_gains_ok(const {p}_gains *g)\n{{");
+    let (cprog, strict) = &c.constraints;
+    let couts = e.program(
+        cprog,
+        p,
+        "    ",
+        &|i| format!("g->{}", c.gains[i].name),
+        &mut s,
+    );
+    let mut checks: Vec<String> = c
+        .gains
+        .iter()
+        .map(|g| {
+            format!(
+                "g->{0} >= {1} && g->{0} <= {2}",
+                g.name,
+                e.lit(g.range.0),
+                e.lit(g.range.1)
+            )
+        })
+        .collect();
+    for (o, st) in couts.iter().zip(strict) {
+        checks.push(format!(
+            "{o} {} {}",
+            if *st { "<" } else { "<=" },
+            e.lit(0.0)
+        ));
+    }
+    let expr = if checks.is_empty() {
+        "true".to_string()
+    } else {
+        checks.join("\n        && ")
+    };
+    let _ = writeln!(s, "    return {expr};\n}}\n");
+    let _ = writeln!(
+        s,
+        "bool {p}_gains_valid(const {p}_gains *g)\n{{\n    return {p}_gains_ok(g);\n}}\n"
+    );
+
+    let _ = writeln!(
+        s,
+        "void {p}_step(const {p}_inputs *in, const {p}_gains *gains, {p}_outputs *out)\n{{"
+    );
+    let _ = writeln!(
+        s,
+        "    bool domain = false;\n    uint32_t limits = 0u;\n    {p}_gains g;"
+    );
+    for (i, n) in inputs.iter().enumerate() {
+        let _ = writeln!(s, "    {ty} x{i} = in->{n};");
+    }
+    let ns = c.states.len();
+    for (j, r) in c
+        .references
+        .iter()
+        .chain(&c.rates)
+        .chain(&c.signals)
+        .enumerate()
+    {
+        let xi = format!("x{}", ns + j);
+        let (lo, hi) = (e.lit(r.range.0), e.lit(r.range.1));
+        let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
+        let _ = writeln!(s, "    if (!({xi} >= {lo} && {xi} <= {hi})) {{\n        domain = true;\n        {xi} = isnan({xi}) ? {mid} : {p}_clamp({xi}, {lo}, {hi});\n    }}");
+    }
+    for (i, st) in c.states.iter().enumerate() {
+        let base = match st.reference {
+            Some(r) => format!("x{}", ns + r),
+            None => e.operand(st.equilibrium),
+        };
+        let (lo, hi) = (e.lit(st.error.0), e.lit(st.error.1));
+        let zero = e.lit(crate::ir::clamp(0.0, st.error.0, st.error.1));
+        let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - {base};\n        if (!(e{i} >= {lo} && e{i} <= {hi})) {{\n            domain = true;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }}\n    }}");
+    }
+    let _ = writeln!(s, "    if ({p}_gains_ok(gains)) {{\n        g = *gains;\n    }} else {{\n        domain = true;\n        g = {p}_default_gains();\n    }}");
+    let _ = writeln!(s, "    /* the law (in the envelope) */");
+    let louts = e.program(
+        &c.law,
+        p,
+        "    ",
+        &|i| {
+            if i < inputs.len() {
+                format!("x{i}")
+            } else {
+                format!("g.{}", c.gains[i - inputs.len()].name)
+            }
+        },
+        &mut s,
+    );
+    let _ = writeln!(s, "    /* saturation */");
+    for (i, (a, o)) in c.actuators.iter().zip(&louts).enumerate() {
+        let n = a.name.to_uppercase();
+        let (lo, hi) = (e.lit(a.limits.0), e.lit(a.limits.1));
+        let _ = writeln!(s, "    {{\n        {ty} c{i} = {o};\n        if (!isfinite(c{i})) {{\n            domain = true;\n            c{i} = {};\n        }}\n        if (c{i} < {lo}) {{\n            c{i} = {lo};\n            limits |= {up}_LIMIT_{n}_LOW;\n        }} else if (c{i} > {hi}) {{\n            c{i} = {hi};\n            limits |= {up}_LIMIT_{n}_HIGH;\n        }}\n        out->{} = c{i};\n    }}", e.lit(a.safe), a.name);
+    }
+    let _ = writeln!(
+        s,
+        "    out->limits = limits;\n    out->domain = domain;\n}}"
+    );
+    if !c.filters.is_empty() {
+        let _ = writeln!(s, "\nvoid {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt)\n{{\n    {p}_gains g;\n    if (!(dt > {})) {{\n        return;\n    }}\n    g = {p}_gains_ok(gains) ? *gains : {p}_default_gains();", e.lit(0.0));
+        for f in &c.filters {
+            let rn = &c.references[f.reference].name;
+            let kn = &c.gains[f.gain].name;
+            let _ = writeln!(s, "    {{\n        const {ty} r = state->{rn};\n        const {ty} c = isnan(commands->{cn}) ? r : commands->{cn};\n        const {ty} k = g.{kn};", cn = f.command);
+            let outs = e.program(
+                &f.program,
+                p,
+                "        ",
+                &|i| ["r", "c", "k", "dt"][i].to_string(),
+                &mut s,
+            );
+            let _ = writeln!(
+                s,
+                "        state->{rn} = {};\n        state->{} = {};\n    }}",
+                outs[0], f.rate, outs[1]
+            );
+        }
+        let _ = writeln!(s, "}}");
+    }
+    (h, s)
+}

@@ -1,0 +1,601 @@
+//! The controller a spec describes, as the generated code implements it: the envelope the
+//! proof covers, the law and actuator program, the limits, the guidance filters, and the
+//! reference interpreter ([`Controller::step`], [`Controller::update`]) every emitter follows
+//! operation for operation.
+//!
+//! `step` evaluates the law at the nearest point of the proved envelope: each reference, rate
+//! and signal is clamped to its declared range, each state's error to its box (a NaN becomes
+//! the range midpoint, or zero error), and gains outside their ranges or constraints are
+//! replaced by the defaults; any of these raises the domain flag. The law is therefore only
+//! ever evaluated where the proof holds, and its output is never NaN. Each command is then
+//! saturated to its limits, with one flag bit per limit hit.
+
+use crate::ir::{clamp, Builder, IrError, Program, Slot};
+use lawsmith_expr::{ExprId, Func};
+use lawsmith_spec::{Spec, SymbolKind};
+use std::collections::HashMap;
+
+/// A reference, rate or signal: a value the law reads, with its proved range.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Ranged {
+    /// Name (a field of the inputs).
+    pub name: String,
+    /// Unit as written.
+    pub unit: String,
+    /// Proved range.
+    pub range: (f64, f64),
+}
+
+/// A state: its reference (an input) or its equilibrium, and its proved error box.
+#[derive(Clone, Debug, PartialEq)]
+pub struct State {
+    /// Name.
+    pub name: String,
+    /// Unit.
+    pub unit: String,
+    /// Index of its reference among [`Controller::references`], if it tracks one.
+    pub reference: Option<usize>,
+    /// Its equilibrium when it tracks no reference.
+    pub equilibrium: f64,
+    /// The error box.
+    pub error: (f64, f64),
+}
+
+/// A gain: range and default.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Gain {
+    /// Name.
+    pub name: String,
+    /// Unit.
+    pub unit: String,
+    /// Proved range.
+    pub range: (f64, f64),
+    /// Default (used when the given gains leave the proved set).
+    pub default: f64,
+}
+
+/// An actuator command and its limits.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Actuator {
+    /// Name (a field of the outputs).
+    pub name: String,
+    /// Unit.
+    pub unit: String,
+    /// Position limits.
+    pub limits: (f64, f64),
+    /// The documented safe output: zero clamped into the limits.
+    pub safe: f64,
+}
+
+/// A first-order reference filter with rate limits.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Filter {
+    /// Index of the reference it produces among [`Controller::references`].
+    pub reference: usize,
+    /// Name of the reference's rate.
+    pub rate: String,
+    /// Name of the command it follows.
+    pub command: String,
+    /// Index of its gain among [`Controller::gains`].
+    pub gain: usize,
+    /// Rate limits (lower < 0 < upper).
+    pub rate_limit: (f64, f64),
+    /// Inputs `[r, c, k, dt]`, outputs `[r_next, rate_next]`: the exact discretisation.
+    pub program: Program,
+}
+
+/// The controller of one spec.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Controller {
+    /// Spec name (an identifier: module and prefix of the generated code).
+    pub name: String,
+    /// States.
+    pub states: Vec<State>,
+    /// References.
+    pub references: Vec<Ranged>,
+    /// Reference rates.
+    pub rates: Vec<Ranged>,
+    /// Signals.
+    pub signals: Vec<Ranged>,
+    /// Gains.
+    pub gains: Vec<Gain>,
+    /// Constraints over the gains: `g < 0` (strict) or `g ≤ 0`; the program's outputs are
+    /// the `g`s over the gains.
+    pub constraints: (Program, Vec<bool>),
+    /// Constraint texts, for comments.
+    pub constraint_texts: Vec<String>,
+    /// Inputs: states, references, rates, signals, then gains; outputs: the commands.
+    pub law: Program,
+    /// Actuators, in output order.
+    pub actuators: Vec<Actuator>,
+    /// Guidance filters.
+    pub filters: Vec<Filter>,
+}
+
+/// What one control step produces.
+#[derive(Clone, Debug, PartialEq)]
+pub struct StepOutput {
+    /// The saturated commands, in actuator order.
+    pub commands: Vec<f64>,
+    /// Bit `2i` set: actuator `i` hit its lower limit; bit `2i+1`: its upper limit.
+    pub limits: u32,
+    /// Some input was NaN or outside the proved envelope (or the gains outside their set).
+    pub domain: bool,
+}
+
+/// Why no controller can be generated.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct EmitError(pub String);
+
+impl std::fmt::Display for EmitError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl std::error::Error for EmitError {}
+
+impl From<IrError> for EmitError {
+    fn from(e: IrError) -> Self {
+        EmitError(e.0)
+    }
+}
+
+/// Names the generated structs use for themselves; an actuator may not take them.
+pub const OUTPUT_FIELDS: [&str; 2] = ["limits", "domain"];
+
+/// Most actuators (two flag bits each in a 32-bit word).
+pub const MAX_ACTUATORS: usize = 16;
+
+/// A command saturated to its limits, as `step` saturates it.
+pub fn clamp_command(c: f64, (lo, hi): (f64, f64)) -> f64 {
+    clamp(c, lo, hi)
+}
+
+fn midpoint((lo, hi): (f64, f64)) -> f64 {
+    0.5 * lo + 0.5 * hi
+}
+
+fn range_of(s: &lawsmith_spec::Symbol) -> (f64, f64) {
+    s.range.unwrap_or((0.0, 0.0))
+}
+
+impl Controller {
+    /// Builds the controller of a loaded spec. Parameters become constants.
+    pub fn new(spec: &Spec) -> Result<Controller, EmitError> {
+        let name = spec.name.clone();
+        if name.is_empty()
+            || !name.chars().next().is_some_and(|c| c.is_ascii_alphabetic())
+            || !name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_')
+        {
+            return Err(EmitError(format!(
+                "the spec name `{name}` is not an identifier (letters, digits, `_`); it names the generated module and prefixes the C functions"
+            )));
+        }
+        let ranged = |kind| -> Vec<Ranged> {
+            spec.symbols_of(kind)
+                .map(|s| Ranged {
+                    name: s.name.clone(),
+                    unit: s.unit.clone(),
+                    range: range_of(s),
+                })
+                .collect()
+        };
+        let references = ranged(SymbolKind::Reference);
+        let rates = ranged(SymbolKind::Rate);
+        let signals = ranged(SymbolKind::Signal);
+        let states: Vec<State> = spec
+            .symbols_of(SymbolKind::State)
+            .map(|s| State {
+                name: s.name.clone(),
+                unit: s.unit.clone(),
+                reference: s
+                    .reference
+                    .as_ref()
+                    .and_then(|r| references.iter().position(|x| &x.name == r)),
+                equilibrium: s.equilibrium.unwrap_or(0.0),
+                error: s.error.unwrap_or((0.0, 0.0)),
+            })
+            .collect();
+        let gains: Vec<Gain> = spec
+            .symbols_of(SymbolKind::Gain)
+            .map(|s| {
+                let range = range_of(s);
+                Gain {
+                    name: s.name.clone(),
+                    unit: s.unit.clone(),
+                    range,
+                    default: s.default.unwrap_or_else(|| midpoint(range)),
+                }
+            })
+            .collect();
+        let actuators: Vec<Actuator> = spec
+            .actuators
+            .iter()
+            .map(|a| Actuator {
+                name: a.name.clone(),
+                unit: a.unit.clone(),
+                limits: a.limits,
+                safe: clamp(0.0, a.limits.0, a.limits.1),
+            })
+            .collect();
+        if actuators.len() > MAX_ACTUATORS {
+            return Err(EmitError(format!(
+                "{} actuators; the limit flags hold {MAX_ACTUATORS}",
+                actuators.len()
+            )));
+        }
+        if let Some(a) = actuators
+            .iter()
+            .find(|a| OUTPUT_FIELDS.contains(&a.name.as_str()))
+        {
+            return Err(EmitError(format!(
+                "actuator `{}` has the name of a field the generated outputs use themselves ({}); rename it",
+                a.name,
+                OUTPUT_FIELDS.join(", ")
+            )));
+        }
+
+        // parameters are constants: the decimals the spec wrote
+        let mut dag = spec.dag.clone();
+        let params: HashMap<String, ExprId> = spec
+            .symbols_of(SymbolKind::Parameter)
+            .map(|s| {
+                let v = lawsmith_verify::exact_decimal(s.value.unwrap_or(0.0));
+                (s.name.clone(), dag.num(v))
+            })
+            .collect();
+
+        let mut law_inputs: Vec<String> = states.iter().map(|s| s.name.clone()).collect();
+        law_inputs.extend(references.iter().map(|s| s.name.clone()));
+        law_inputs.extend(rates.iter().map(|s| s.name.clone()));
+        law_inputs.extend(signals.iter().map(|s| s.name.clone()));
+        law_inputs.extend(gains.iter().map(|s| s.name.clone()));
+        let mut b = Builder::new(&law_inputs);
+        for (input, e) in &spec.laws {
+            let e = dag.substitute(*e, &params);
+            let s = b.expr(&dag, e)?;
+            b.define(input, s);
+        }
+        for a in &spec.actuators {
+            let e = dag.substitute(a.law, &params);
+            let s = b.expr(&dag, e)?;
+            b.output(&a.name, s);
+        }
+        let law = b.finish();
+
+        let gain_names: Vec<String> = gains.iter().map(|g| g.name.clone()).collect();
+        let mut cb = Builder::new(&gain_names);
+        let mut strict = Vec::new();
+        for (i, c) in spec.constraints.iter().enumerate() {
+            let (a, bb) = match c.op.as_str() {
+                "<" | "<=" => (c.lhs, c.rhs),
+                _ => (c.rhs, c.lhs),
+            };
+            let diff = dag.sub(a, bb);
+            let diff = dag.substitute(diff, &params);
+            let s = cb.expr(&dag, diff)?;
+            cb.output(&format!("c{i}"), s);
+            strict.push(c.op == "<" || c.op == ">");
+        }
+        let constraints = (cb.finish(), strict);
+        let constraint_texts = spec.constraints.iter().map(|c| c.text.clone()).collect();
+
+        let mut filters = Vec::new();
+        for g in &spec.guidance {
+            let reference = references
+                .iter()
+                .position(|r| r.name == g.reference)
+                .ok_or_else(|| {
+                    EmitError(format!("guidance for unknown reference `{}`", g.reference))
+                })?;
+            let gain = gains.iter().position(|k| k.name == g.gain).ok_or_else(|| {
+                EmitError(format!(
+                    "the gain `{}` of the `{}` filter is not a gain",
+                    g.gain, g.reference
+                ))
+            })?;
+            let (lo, hi) = g.rate_limit;
+            if !(lo < 0.0 && hi > 0.0) {
+                return Err(EmitError(format!(
+                    "the rate limit [{lo}, {hi}] of the `{}` filter must hold zero inside",
+                    g.reference
+                )));
+            }
+            let lo_gain = gains[gain].range.0;
+            if lo_gain.is_nan() || lo_gain <= 0.0 {
+                return Err(EmitError(format!(
+                    "the gain `{}` of the `{}` filter must be positive over its range",
+                    g.gain, g.reference
+                )));
+            }
+            let rate = spec
+                .symbol(&g.reference)
+                .and_then(|s| s.rate.clone())
+                .unwrap_or_default();
+            filters.push(Filter {
+                reference,
+                rate,
+                command: g.command.clone(),
+                gain,
+                rate_limit: (lo, hi),
+                program: filter_program(lo, hi),
+            });
+        }
+        let c = Controller {
+            name,
+            states,
+            references,
+            rates,
+            signals,
+            gains,
+            constraints,
+            constraint_texts,
+            law,
+            actuators,
+            filters,
+        };
+        let defaults: Vec<f64> = c.gains.iter().map(|g| g.default).collect();
+        if !c.gains_valid(&defaults) {
+            return Err(EmitError(
+                "the default gains do not meet the constraints; the generated code falls back to them, so they must".into(),
+            ));
+        }
+        Ok(c)
+    }
+
+    /// Inputs of `step`, in order: states, references, rates, signals.
+    pub fn input_names(&self) -> Vec<String> {
+        let mut v: Vec<String> = self.states.iter().map(|s| s.name.clone()).collect();
+        v.extend(self.references.iter().map(|s| s.name.clone()));
+        v.extend(self.rates.iter().map(|s| s.name.clone()));
+        v.extend(self.signals.iter().map(|s| s.name.clone()));
+        v
+    }
+
+    /// The law's arithmetic operations (the figure `emit` prints).
+    pub fn op_count(&self) -> usize {
+        self.law.op_count()
+    }
+
+    /// Do these gains lie in their ranges and meet the constraints?
+    pub fn gains_valid(&self, gains: &[f64]) -> bool {
+        let in_range = self
+            .gains
+            .iter()
+            .zip(gains)
+            .all(|(g, &v)| v >= g.range.0 && v <= g.range.1);
+        if !in_range {
+            return false;
+        }
+        let (p, strict) = &self.constraints;
+        let g = p.run(gains, &mut Vec::new());
+        g.iter()
+            .zip(strict)
+            .all(|(&v, &s)| if s { v < 0.0 } else { v <= 0.0 })
+    }
+
+    /// One control step, as the generated `step` computes it. `inputs` follows
+    /// [`Controller::input_names`], `gains` the gains.
+    pub fn step(&self, inputs: &[f64], gains: &[f64]) -> StepOutput {
+        let mut domain = false;
+        let ns = self.states.len();
+        let (nr, nt) = (self.references.len(), self.rates.len());
+        let mut x: Vec<f64> = inputs.to_vec();
+        let mut guard = |v: &mut f64, (lo, hi): (f64, f64)| {
+            if !(*v >= lo && *v <= hi) {
+                domain = true;
+                *v = if v.is_nan() {
+                    midpoint((lo, hi))
+                } else {
+                    clamp(*v, lo, hi)
+                };
+            }
+        };
+        for (i, r) in self.references.iter().enumerate() {
+            guard(&mut x[ns + i], r.range);
+        }
+        for (i, r) in self.rates.iter().enumerate() {
+            guard(&mut x[ns + nr + i], r.range);
+        }
+        for (i, r) in self.signals.iter().enumerate() {
+            guard(&mut x[ns + nr + nt + i], r.range);
+        }
+        for (i, s) in self.states.iter().enumerate() {
+            let base = match s.reference {
+                Some(r) => x[ns + r],
+                None => s.equilibrium,
+            };
+            let e = x[i] - base;
+            let (lo, hi) = s.error;
+            if !(e >= lo && e <= hi) {
+                domain = true;
+                let e2 = if e.is_nan() {
+                    clamp(0.0, lo, hi)
+                } else {
+                    clamp(e, lo, hi)
+                };
+                x[i] = base + e2;
+            }
+        }
+        if self.gains_valid(gains) {
+            x.extend_from_slice(gains);
+        } else {
+            domain = true;
+            x.extend(self.gains.iter().map(|g| g.default));
+        }
+        let raw = self.law.run(&x, &mut Vec::new());
+        let mut limits = 0u32;
+        let mut commands = Vec::with_capacity(raw.len());
+        for (i, (a, &c)) in self.actuators.iter().zip(&raw).enumerate() {
+            let mut c = c;
+            if !c.is_finite() {
+                domain = true;
+                c = a.safe;
+            }
+            if c < a.limits.0 {
+                c = a.limits.0;
+                limits |= 1 << (2 * i);
+            } else if c > a.limits.1 {
+                c = a.limits.1;
+                limits |= 1 << (2 * i + 1);
+            }
+            commands.push(c);
+        }
+        StepOutput {
+            commands,
+            limits,
+            domain,
+        }
+    }
+
+    /// One guidance update of every filter, as the generated `update` computes it:
+    /// `refs[j]`/`rates[j]` are filter `j`'s reference and rate, advanced over `dt` towards
+    /// `commands[j]`. A NaN command holds the reference; gains outside their sets are
+    /// replaced by the defaults; a `dt` that is not positive changes nothing.
+    pub fn update(
+        &self,
+        refs: &mut [f64],
+        rates: &mut [f64],
+        commands: &[f64],
+        gains: &[f64],
+        dt: f64,
+    ) {
+        if dt.is_nan() || dt <= 0.0 {
+            return;
+        }
+        let valid = self.gains_valid(gains);
+        for (j, f) in self.filters.iter().enumerate() {
+            let k = if valid {
+                gains[f.gain]
+            } else {
+                self.gains[f.gain].default
+            };
+            let c = if commands[j].is_nan() {
+                refs[j]
+            } else {
+                commands[j]
+            };
+            let out = f.program.run(&[refs[j], c, k, dt], &mut Vec::new());
+            refs[j] = out[0];
+            rates[j] = out[1];
+        }
+    }
+}
+
+/// The exact discretisation over `dt` of `ṙ = clamp(k·(c − r), lo, hi)` for a constant
+/// command. With `e = c − r`: while `k·e` exceeds `hi`, `e` falls at the rate `hi` until it
+/// reaches `hi/k` (after `t₁ = (e − hi/k)/hi`), then decays as `exp(−k·t)`; symmetrically
+/// below with `lo`. Outputs the reference after `dt` and its rate there.
+fn filter_program(lo: f64, hi: f64) -> Program {
+    let names = ["r", "c", "k", "dt"].map(String::from);
+    let mut b = Builder::new(&names);
+    let (r, c, k, dt) = (0, 1, 2, 3);
+    let e0 = b.sub(c, r);
+    let zero = b.constant(0.0);
+    let branch = |b: &mut Builder, limit: f64| -> Slot {
+        let l = b.constant(limit);
+        let sat = b.div(l, k); // the error below which the rate is unsaturated
+        let over = b.sub(e0, sat);
+        let t1 = b.div(over, l);
+        let t1 = b.call2(Func::Max, t1, zero);
+        let ldt = b.mul(l, dt);
+        let linear = b.sub(e0, ldt);
+        let edge = if limit > 0.0 {
+            b.call2(Func::Min, e0, sat)
+        } else {
+            b.call2(Func::Max, e0, sat)
+        };
+        let rest = b.sub(dt, t1);
+        let kr = b.mul(k, rest);
+        let nkr = b.neg(kr);
+        let decay = b.call1(Func::Exp, nkr);
+        let exponential = b.mul(edge, decay);
+        let cond = b.sub(t1, dt);
+        b.select(cond, linear, exponential)
+    };
+    let up = branch(&mut b, hi);
+    let down = branch(&mut b, lo);
+    let e1 = b.select(e0, up, down);
+    let r1 = b.sub(c, e1);
+    let ke = b.mul(k, e1);
+    let rate = b.clamp(ke, lo, hi);
+    b.output("r", r1);
+    b.output("rate", rate);
+    b.finish()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// ṙ = clamp(k·(c − r), lo, hi), integrated by classic RK4 with a step far below 1/k.
+    fn rk4(r: f64, c: f64, k: f64, (lo, hi): (f64, f64), dt: f64) -> (f64, f64) {
+        let f = |r: f64| clamp(k * (c - r), lo, hi);
+        let n = 20_000;
+        let h = dt / n as f64;
+        let mut r = r;
+        for _ in 0..n {
+            let k1 = f(r);
+            let k2 = f(r + 0.5 * h * k1);
+            let k3 = f(r + 0.5 * h * k2);
+            let k4 = f(r + h * k3);
+            r += h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4);
+        }
+        (r, f(r))
+    }
+
+    #[test]
+    fn the_filter_update_is_the_exact_solution() {
+        // saturated then exponential, upwards and downwards, and unsaturated throughout
+        // (reference: a fine RK4 integration of the same ODE, common practice)
+        let limits = (-3.0, 2.0);
+        let p = filter_program(limits.0, limits.1);
+        let cases = [
+            (100.0, 130.0, 0.3, 0.5),
+            (100.0, 130.0, 0.3, 20.0),
+            (130.0, 100.0, 0.3, 20.0),
+            (100.0, 101.0, 0.8, 3.0),
+            (100.0, 99.5, 1.0, 0.02),
+            (0.0, 0.0, 0.5, 1.0),
+        ];
+        for (r, c, k, dt) in cases {
+            let out = p.run(&[r, c, k, dt], &mut Vec::new());
+            let (want_r, want_rate) = rk4(r, c, k, limits, dt);
+            assert!(
+                (out[0] - want_r).abs() < 1e-9,
+                "{r} → {c}, k {k}, dt {dt}: {} vs {want_r}",
+                out[0]
+            );
+            assert!(
+                (out[1] - want_rate).abs() < 1e-9,
+                "rate {} vs {want_rate}",
+                out[1]
+            );
+        }
+    }
+
+    #[test]
+    fn outside_the_envelope_the_law_is_evaluated_at_its_edge() {
+        let spec =
+            lawsmith_spec::load(include_str!("../../../specs/energy_longitudinal.yaml")).unwrap();
+        let c = Controller::new(&spec).unwrap();
+        let names = c.input_names();
+        let at = |n: &str| names.iter().position(|x| x == n).unwrap();
+        let gains = [0.25, 0.35, 0.3, 0.5];
+        let mut x = vec![120.0, 22.0, 120.0, 22.0, 0.0, 0.0, 8.0, 0.05];
+        let inside = c.step(&x, &gains);
+        assert!(!inside.domain);
+        // an altitude error of 40 m is outside the proved ±5 m: evaluated at +5 m
+        x[at("h")] = 160.0;
+        let far = c.step(&x, &gains);
+        x[at("h")] = 125.0;
+        let edge = c.step(&x, &gains);
+        assert!(far.domain && !edge.domain);
+        assert_eq!(far.commands, edge.commands);
+        // NaN drag: evaluated at the middle of its range; gains outside: the defaults
+        x[at("drag")] = f64::NAN;
+        let nan = c.step(&x, &[9.0, 0.35, 0.3, 0.5]);
+        assert!(nan.domain && nan.commands.iter().all(|v| v.is_finite()));
+    }
+}

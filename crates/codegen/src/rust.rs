@@ -1,0 +1,570 @@
+//! The Rust emitter: tokens built with `quote`, checked by parsing them with `syn`, formatted
+//! with `prettyplease`. The module uses only `core` and the `libm` crate, so it builds in a
+//! `#![no_std]` crate.
+
+use crate::controller::Controller;
+use crate::header::{float_literal, Provenance};
+use crate::ir::{Op, Program, Slot};
+use crate::Float;
+use lawsmith_expr::Func;
+use proc_macro2::{Ident, Span, TokenStream};
+use quote::{format_ident, quote};
+
+fn ident(s: &str) -> Ident {
+    Ident::new(s, Span::call_site())
+}
+
+struct Emit {
+    float: Float,
+}
+
+impl Emit {
+    fn ty(&self) -> TokenStream {
+        match self.float {
+            Float::F32 => quote!(f32),
+            Float::F64 => quote!(f64),
+        }
+    }
+
+    fn lit(&self, x: f64) -> TokenStream {
+        let text = match self.float {
+            Float::F32 => {
+                let s = format!("{:?}", x as f32);
+                if s.contains('.') || s.contains('e') {
+                    s
+                } else {
+                    format!("{s}.0")
+                }
+            }
+            Float::F64 => float_literal(x),
+        };
+        let abs = text.trim_start_matches('-');
+        let tok: TokenStream = abs.parse().expect("a float literal");
+        // a unary minus binds tighter than every operator the emitter puts around literals
+        if text.starts_with('-') {
+            quote!(-#tok)
+        } else {
+            tok
+        }
+    }
+
+    fn func(&self, f: Func) -> Ident {
+        let base = match f {
+            Func::Sin => "sin",
+            Func::Cos => "cos",
+            Func::Tan => "tan",
+            Func::Asin => "asin",
+            Func::Acos => "acos",
+            Func::Atan => "atan",
+            Func::Atan2 => "atan2",
+            Func::Sqrt => "sqrt",
+            Func::Exp => "exp",
+            Func::Ln => "log",
+            Func::Abs => "fabs",
+            Func::Min => "fmin",
+            Func::Max => "fmax",
+            Func::Clamp => unreachable!("lowered"),
+        };
+        match self.float {
+            Float::F32 => format_ident!("{}f", base),
+            Float::F64 => ident(base),
+        }
+    }
+
+    /// The statements of a program; `input(i)` gives the expression of input `i`. Returns the
+    /// statements and the expression of each output.
+    fn program(
+        &self,
+        p: &Program,
+        input: &dyn Fn(usize) -> TokenStream,
+    ) -> (TokenStream, Vec<TokenStream>) {
+        let ty = self.ty();
+        let name = |s: Slot| -> TokenStream {
+            match p.ops[s as usize] {
+                Op::Input(i) => input(i),
+                _ => {
+                    let t = format_ident!("t{}", s);
+                    quote!(#t)
+                }
+            }
+        };
+        let mut body = TokenStream::new();
+        for (i, op) in p.ops.iter().enumerate() {
+            let value = match op {
+                Op::Input(_) => continue,
+                Op::Const(c) => self.lit(*c),
+                Op::Neg(a) => {
+                    let a = name(*a);
+                    quote!(-#a)
+                }
+                Op::Add(a, b) => {
+                    let (a, b) = (name(*a), name(*b));
+                    quote!(#a + #b)
+                }
+                Op::Sub(a, b) => {
+                    let (a, b) = (name(*a), name(*b));
+                    quote!(#a - #b)
+                }
+                Op::Mul(a, b) => {
+                    let (a, b) = (name(*a), name(*b));
+                    quote!(#a * #b)
+                }
+                Op::Div(a, b) => {
+                    let (a, b) = (name(*a), name(*b));
+                    quote!(#a / #b)
+                }
+                Op::Call1(f, a) => {
+                    let (f, a) = (self.func(*f), name(*a));
+                    quote!(libm::#f(#a))
+                }
+                Op::Call2(f, a, b) => {
+                    let (f, a, b) = (self.func(*f), name(*a), name(*b));
+                    quote!(libm::#f(#a, #b))
+                }
+                Op::Pow(a, b) => {
+                    let f = match self.float {
+                        Float::F32 => ident("powf"),
+                        Float::F64 => ident("pow"),
+                    };
+                    let (a, b) = (name(*a), name(*b));
+                    quote!(libm::#f(#a, #b))
+                }
+                Op::Clamp(a, lo, hi) => {
+                    let (a, lo, hi) = (name(*a), self.lit(*lo), self.lit(*hi));
+                    quote!(clamp_to(#a, #lo, #hi))
+                }
+                Op::Select(c, a, b) => {
+                    let (c, a, b) = (name(*c), name(*a), name(*b));
+                    let zero = self.lit(0.0);
+                    quote!(if #c >= #zero { #a } else { #b })
+                }
+            };
+            let t = format_ident!("t{}", i);
+            body.extend(quote!(let #t: #ty = #value;));
+        }
+        let outs = p.outputs.iter().map(|(_, s)| name(*s)).collect();
+        (body, outs)
+    }
+}
+
+/// The generated Rust module for a controller.
+pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, String> {
+    let e = Emit { float };
+    let ty = e.ty();
+    let field = |n: &str| ident(n);
+    let inputs = c.input_names();
+    let input_fields: Vec<Ident> = inputs.iter().map(|n| field(n)).collect();
+    let gain_fields: Vec<Ident> = c.gains.iter().map(|g| field(&g.name)).collect();
+    let gain_defaults: Vec<TokenStream> = c.gains.iter().map(|g| e.lit(g.default)).collect();
+    let act_fields: Vec<Ident> = c.actuators.iter().map(|a| field(&a.name)).collect();
+    let doc_input: Vec<String> = c
+        .states
+        .iter()
+        .map(|s| format!("State `{}` [{}].", s.name, s.unit))
+        .chain(
+            c.references
+                .iter()
+                .chain(&c.rates)
+                .chain(&c.signals)
+                .map(|r| {
+                    format!(
+                        "`{}` [{}], proved over [{}, {}].",
+                        r.name, r.unit, r.range.0, r.range.1
+                    )
+                }),
+        )
+        .collect();
+    let doc_gain: Vec<String> = c
+        .gains
+        .iter()
+        .map(|g| {
+            format!(
+                "Gain `{}` [{}], proved over [{}, {}].",
+                g.name, g.unit, g.range.0, g.range.1
+            )
+        })
+        .collect();
+    let doc_act: Vec<String> = c
+        .actuators
+        .iter()
+        .map(|a| {
+            format!(
+                "Command `{}` [{}], saturated to [{}, {}].",
+                a.name, a.unit, a.limits.0, a.limits.1
+            )
+        })
+        .collect();
+
+    // flags
+    let mut flag_items = TokenStream::new();
+    for (i, a) in c.actuators.iter().enumerate() {
+        let lo = format_ident!("LIMIT_{}_LOW", a.name.to_uppercase());
+        let hi = format_ident!("LIMIT_{}_HIGH", a.name.to_uppercase());
+        let (bl, bh) = (
+            proc_macro2::Literal::u32_unsuffixed(1u32 << (2 * i)),
+            proc_macro2::Literal::u32_unsuffixed(1u32 << (2 * i + 1)),
+        );
+        let dl = format!(
+            "`limits` bit: `{}` was below {} and is saturated to it.",
+            a.name, a.limits.0
+        );
+        let dh = format!(
+            "`limits` bit: `{}` was above {} and is saturated to it.",
+            a.name, a.limits.1
+        );
+        flag_items.extend(quote! {
+            #[doc = #dl]
+            pub const #lo: u32 = #bl;
+            #[doc = #dh]
+            pub const #hi: u32 = #bh;
+        });
+    }
+
+    // the envelope guards of step()
+    let ns = c.states.len();
+    let (nr, nt) = (c.references.len(), c.rates.len());
+    let mut guards = TokenStream::new();
+    let x = |i: usize| format_ident!("x{}", i);
+    for (i, n) in inputs.iter().enumerate() {
+        let (xi, f) = (x(i), field(n));
+        guards.extend(quote!(let mut #xi: #ty = inputs.#f;));
+    }
+    let ranged = c.references.iter().chain(&c.rates).chain(&c.signals);
+    for (j, r) in ranged.enumerate() {
+        let xi = x(ns + j);
+        let (lo, hi) = (e.lit(r.range.0), e.lit(r.range.1));
+        let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
+        guards.extend(quote! {
+            if !(#xi >= #lo && #xi <= #hi) {
+                domain = true;
+                #xi = if #xi.is_nan() { #mid } else { clamp_to(#xi, #lo, #hi) };
+            }
+        });
+    }
+    for (i, s) in c.states.iter().enumerate() {
+        let xi = x(i);
+        let err = format_ident!("e{}", i);
+        let base = match s.reference {
+            Some(r) => {
+                let xr = x(ns + r);
+                quote!(#xr)
+            }
+            None => e.lit(s.equilibrium),
+        };
+        let (lo, hi) = (e.lit(s.error.0), e.lit(s.error.1));
+        let zero = e.lit(crate::ir::clamp(0.0, s.error.0, s.error.1));
+        guards.extend(quote! {
+            let #err = #xi - #base;
+            if !(#err >= #lo && #err <= #hi) {
+                domain = true;
+                #xi = #base + if #err.is_nan() { #zero } else { clamp_to(#err, #lo, #hi) };
+            }
+        });
+    }
+    let _ = nt;
+    let _ = nr;
+
+    // gains_valid()
+    let mut checks: Vec<TokenStream> = c
+        .gains
+        .iter()
+        .map(|g| {
+            let f = field(&g.name);
+            let (lo, hi) = (e.lit(g.range.0), e.lit(g.range.1));
+            quote!(g.#f >= #lo && g.#f <= #hi)
+        })
+        .collect();
+    let (cprog, strict) = &c.constraints;
+    let (cbody, couts) = e.program(cprog, &|i| {
+        let f = field(&c.gains[i].name);
+        quote!(g.#f)
+    });
+    for (o, s) in couts.iter().zip(strict) {
+        let zero = e.lit(0.0);
+        checks.push(if *s {
+            quote!(#o < #zero)
+        } else {
+            quote!(#o <= #zero)
+        });
+    }
+    let checks = if checks.is_empty() {
+        quote!(true)
+    } else {
+        quote!(#(#checks)&&*)
+    };
+
+    // the law
+    let (lbody, louts) = e.program(&c.law, &|i| {
+        if i < inputs.len() {
+            let xi = x(i);
+            quote!(#xi)
+        } else {
+            let f = field(&c.gains[i - inputs.len()].name);
+            quote!(g.#f)
+        }
+    });
+    let mut saturate = TokenStream::new();
+    let mut cmd_names = Vec::new();
+    for (i, (a, out)) in c.actuators.iter().zip(&louts).enumerate() {
+        let ci = format_ident!("c{}", i);
+        let (lo, hi, safe) = (e.lit(a.limits.0), e.lit(a.limits.1), e.lit(a.safe));
+        let (fl, fh) = (
+            format_ident!("LIMIT_{}_LOW", a.name.to_uppercase()),
+            format_ident!("LIMIT_{}_HIGH", a.name.to_uppercase()),
+        );
+        saturate.extend(quote! {
+            let mut #ci: #ty = #out;
+            if !#ci.is_finite() {
+                domain = true;
+                #ci = #safe;
+            }
+            if #ci < #lo {
+                #ci = #lo;
+                limits |= #fl;
+            } else if #ci > #hi {
+                #ci = #hi;
+                limits |= #fh;
+            }
+        });
+        cmd_names.push(ci);
+    }
+
+    // guidance
+    let mut guidance_items = TokenStream::new();
+    if !c.filters.is_empty() {
+        let gfields: Vec<Ident> = c
+            .filters
+            .iter()
+            .flat_map(|f| [field(&c.references[f.reference].name), field(&f.rate)])
+            .collect();
+        let gdocs: Vec<String> = c
+            .filters
+            .iter()
+            .flat_map(|f| {
+                let r = &c.references[f.reference];
+                [
+                    format!("Reference `{}` [{}].", r.name, r.unit),
+                    format!(
+                        "Its rate `{}`, limited to [{}, {}].",
+                        f.rate, f.rate_limit.0, f.rate_limit.1
+                    ),
+                ]
+            })
+            .collect();
+        let cfields: Vec<Ident> = c.filters.iter().map(|f| field(&f.command)).collect();
+        let unsuffixed = proc_macro2::Literal::usize_unsuffixed;
+        let ng = unsuffixed(gfields.len());
+        let nc = unsuffixed(cfields.len());
+        let gidx: Vec<proc_macro2::Literal> = (0..gfields.len()).map(unsuffixed).collect();
+        let cidx: Vec<proc_macro2::Literal> = (0..cfields.len()).map(unsuffixed).collect();
+        let gnames: Vec<String> = gfields.iter().map(|f| f.to_string()).collect();
+        let cnames: Vec<String> = cfields.iter().map(|f| f.to_string()).collect();
+        let mut blocks = TokenStream::new();
+        for f in &c.filters {
+            let (rf, qf, cf) = (
+                field(&c.references[f.reference].name),
+                field(&f.rate),
+                field(&f.command),
+            );
+            let kf = field(&c.gains[f.gain].name);
+            let (body, outs) = e.program(&f.program, &|i| match i {
+                0 => quote!(r),
+                1 => quote!(c),
+                2 => quote!(k),
+                _ => quote!(dt),
+            });
+            let (o_r, o_q) = (&outs[0], &outs[1]);
+            blocks.extend(quote! {
+                {
+                    let r: #ty = state.#rf;
+                    let c: #ty = if commands.#cf.is_nan() { r } else { commands.#cf };
+                    let k: #ty = g.#kf;
+                    #body
+                    state.#rf = #o_r;
+                    state.#qf = #o_q;
+                }
+            });
+        }
+        guidance_items = quote! {
+            /// The state of the guidance filters: each reference and its rate. Set it to the
+            /// initial references (rates zero) before the first update.
+            #[derive(Clone, Copy, Debug, PartialEq)]
+            pub struct Guidance {
+                #( #[doc = #gdocs] pub #gfields: #ty, )*
+            }
+
+            impl Guidance {
+                /// The field names, in the order of [`Guidance::from_array`].
+                pub const NAMES: [&'static str; #ng] = [#(#gnames),*];
+
+                /// The state from an array in the order of [`Guidance::NAMES`].
+                pub fn from_array(a: [#ty; #ng]) -> Guidance {
+                    Guidance { #( #gfields: a[#gidx], )* }
+                }
+
+                /// The state as an array in the order of [`Guidance::NAMES`].
+                pub fn to_array(&self) -> [#ty; #ng] {
+                    [#( self.#gfields, )*]
+                }
+            }
+
+            /// What the guidance filters follow.
+            #[derive(Clone, Copy, Debug, PartialEq)]
+            pub struct Commands {
+                #( pub #cfields: #ty, )*
+            }
+
+            impl Commands {
+                /// The field names, in the order of [`Commands::from_array`].
+                pub const NAMES: [&'static str; #nc] = [#(#cnames),*];
+
+                /// The commands from an array in the order of [`Commands::NAMES`].
+                pub fn from_array(a: [#ty; #nc]) -> Commands {
+                    Commands { #( #cfields: a[#cidx], )* }
+                }
+            }
+
+            /// Advances every reference filter over `dt` seconds towards its command: the
+            /// exact solution of `ṙ = clamp(k·(c − r), lo, hi)` for a constant command. A NaN
+            /// command holds its reference; gains outside their proved set are replaced by the
+            /// defaults; a `dt` that is not positive changes nothing.
+            pub fn update(state: &mut Guidance, commands: &Commands, gains: &Gains, dt: #ty) {
+                if !(dt > 0.0) {
+                    return;
+                }
+                let g: Gains = if gains_valid(gains) { *gains } else { Gains::DEFAULT };
+                #blocks
+            }
+        };
+    }
+
+    let unsuffixed = proc_macro2::Literal::usize_unsuffixed;
+    let n_in = unsuffixed(inputs.len());
+    let n_gain = unsuffixed(c.gains.len());
+    let n_act = unsuffixed(c.actuators.len());
+    let in_names: Vec<&str> = inputs.iter().map(String::as_str).collect();
+    let gain_names: Vec<&str> = c.gains.iter().map(|g| g.name.as_str()).collect();
+    let act_names: Vec<&str> = c.actuators.iter().map(|a| a.name.as_str()).collect();
+    let in_idx: Vec<proc_macro2::Literal> = (0..inputs.len()).map(unsuffixed).collect();
+    let gain_idx: Vec<proc_macro2::Literal> = (0..c.gains.len()).map(unsuffixed).collect();
+    let zero_u = quote!(0u32);
+    let file = quote! {
+        /// Inputs of `step`: the states, references, their rates and the signals.
+        #[derive(Clone, Copy, Debug, PartialEq)]
+        pub struct Inputs {
+            #( #[doc = #doc_input] pub #input_fields: #ty, )*
+        }
+
+        /// Run-time gains.
+        #[derive(Clone, Copy, Debug, PartialEq)]
+        pub struct Gains {
+            #( #[doc = #doc_gain] pub #gain_fields: #ty, )*
+        }
+
+        impl Inputs {
+            /// The field names, in the order of [`Inputs::from_array`].
+            pub const NAMES: [&'static str; #n_in] = [#(#in_names),*];
+
+            /// The inputs from an array in the order of [`Inputs::NAMES`].
+            pub fn from_array(a: [#ty; #n_in]) -> Inputs {
+                Inputs { #( #input_fields: a[#in_idx], )* }
+            }
+        }
+
+        impl Gains {
+            /// The defaults of the spec; `step` falls back to them when the given gains leave
+            /// their proved ranges or constraints.
+            pub const DEFAULT: Gains = Gains { #( #gain_fields: #gain_defaults, )* };
+
+            /// The field names, in the order of [`Gains::from_array`].
+            pub const NAMES: [&'static str; #n_gain] = [#(#gain_names),*];
+
+            /// The gains from an array in the order of [`Gains::NAMES`].
+            pub fn from_array(a: [#ty; #n_gain]) -> Gains {
+                Gains { #( #gain_fields: a[#gain_idx], )* }
+            }
+        }
+
+        impl Outputs {
+            /// The command names, in the order of [`Outputs::commands`].
+            pub const NAMES: [&'static str; #n_act] = [#(#act_names),*];
+
+            /// The commands as an array.
+            pub fn commands(&self) -> [#ty; #n_act] {
+                [#( self.#act_fields, )*]
+            }
+        }
+
+        impl Default for Gains {
+            fn default() -> Gains {
+                Gains::DEFAULT
+            }
+        }
+
+        /// What `step` computes.
+        #[derive(Clone, Copy, Debug, PartialEq)]
+        pub struct Outputs {
+            #( #[doc = #doc_act] pub #act_fields: #ty, )*
+            /// Limits hit: the `LIMIT_*` bits.
+            pub limits: u32,
+            /// An input was NaN or outside the proved envelope, or the gains outside their
+            /// proved set: the law was evaluated at the nearest point of the envelope (a NaN
+            /// input at its range's midpoint or at zero error), with the default gains.
+            pub domain: bool,
+        }
+
+        #flag_items
+
+        fn clamp_to(x: #ty, lo: #ty, hi: #ty) -> #ty {
+            if x < lo {
+                lo
+            } else if x > hi {
+                hi
+            } else {
+                x
+            }
+        }
+
+        /// Do the gains lie in their proved ranges and meet the constraints?
+        pub fn gains_valid(g: &Gains) -> bool {
+            #cbody
+            #checks
+        }
+
+        /// One step of the control law: the actuator commands, saturated to their limits.
+        pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
+            let mut domain = false;
+            #guards
+            let g: Gains = if gains_valid(gains) {
+                *gains
+            } else {
+                domain = true;
+                Gains::DEFAULT
+            };
+            #lbody
+            let mut limits: u32 = #zero_u;
+            #saturate
+            Outputs { #( #act_fields: #cmd_names, )* limits, domain }
+        }
+
+        #guidance_items
+    };
+    let parsed: syn::File =
+        syn::parse2(file).map_err(|err| format!("emitted Rust does not parse: {err}"))?;
+    let body = prettyplease::unparse(&parsed);
+    let mut out = String::new();
+    for l in prov.lines("Rust (no_std-friendly: core and the `libm` crate)") {
+        if l.is_empty() {
+            out.push_str("//\n");
+        } else {
+            out.push_str(&format!("// {l}\n"));
+        }
+    }
+    out.push_str(&format!(
+        "//\n// Law `{}`: {} arithmetic operations per step.\n#![allow(clippy::all, unused_mut, unused_variables, unused_assignments, non_snake_case)]\n\n",
+        c.name,
+        c.op_count()
+    ));
+    out.push_str(&body);
+    Ok(out)
+}
