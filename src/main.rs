@@ -1,8 +1,10 @@
 //! The `lawsmith` command line: parses arguments, reads files, dispatches to the library
 //! crates, prints, and maps outcomes to exit codes. No derivation or proof logic lives here.
 
+mod build_cmd;
 mod check_cmd;
 mod derive_cmd;
+mod emit_cmd;
 mod progress;
 
 use clap::{Parser, Subcommand, ValueEnum};
@@ -50,6 +52,49 @@ enum Command {
         #[command(flatten)]
         limits: check_cmd::Limits,
     },
+    /// Prove each spec and write its generated code (Rust, C99). An unproven law is refused
+    /// (exit 1) unless --allow-unproven. With --check: regenerate every spec of --specs-dir in
+    /// memory and compare with --generated; exit 1 with a unified diff when stale.
+    Emit {
+        /// Spec files (YAML).
+        #[arg(required_unless_present = "check")]
+        specs: Vec<PathBuf>,
+        /// Languages to emit.
+        #[arg(long, value_enum, default_value_t = LangArg::All)]
+        lang: LangArg,
+        /// Directory to write into.
+        #[arg(long, value_name = "DIR", required_unless_present = "check")]
+        out: Option<PathBuf>,
+        /// Floating-point type of the generated code.
+        #[arg(long, value_enum, default_value_t = FloatArg::F64)]
+        float: FloatArg,
+        /// Emit a law that is not proven, its header saying so in capitals.
+        #[arg(long)]
+        allow_unproven: bool,
+        /// Compare the committed generated code with a fresh emission instead of writing.
+        #[arg(long, conflicts_with_all = ["specs", "out"])]
+        check: bool,
+        /// Where the specs are (with --check).
+        #[arg(long, value_name = "DIR", default_value = "specs")]
+        specs_dir: PathBuf,
+        /// Where the generated code is (with --check).
+        #[arg(long, value_name = "DIR", default_value = "generated")]
+        generated: PathBuf,
+        #[command(flatten)]
+        limits: check_cmd::Limits,
+    },
+    /// The main job on the example specs: prove every spec of --specs-dir, write --generated,
+    /// print a summary table.
+    Build {
+        /// Where the specs are.
+        #[arg(long, value_name = "DIR", default_value = "specs")]
+        specs_dir: PathBuf,
+        /// Where to write the generated code (one directory per spec).
+        #[arg(long, value_name = "DIR", default_value = "generated")]
+        generated: PathBuf,
+        #[command(flatten)]
+        limits: check_cmd::Limits,
+    },
     /// Re-evaluate every leaf box of a certificate against its spec, without searching.
     /// Exit code 0 accepted, 1 rejected, 3 unreadable input.
     Recheck {
@@ -65,6 +110,19 @@ enum Format {
     Text,
     Latex,
     Json,
+}
+
+#[derive(Copy, Clone, PartialEq, Eq, ValueEnum)]
+enum LangArg {
+    Rust,
+    C,
+    All,
+}
+
+#[derive(Copy, Clone, PartialEq, Eq, ValueEnum)]
+enum FloatArg {
+    F32,
+    F64,
 }
 
 #[derive(Copy, Clone, PartialEq, Eq, ValueEnum)]
@@ -94,6 +152,38 @@ fn run(cli: Cli) -> ExitCode {
             limits,
         } => check_cmd::check_cmd(&specs, format, certificate.as_deref(), &limits),
         Command::Recheck { certificate, spec } => check_cmd::recheck_cmd(&certificate, &spec),
+        Command::Emit {
+            specs,
+            lang,
+            out,
+            float,
+            allow_unproven,
+            check,
+            specs_dir,
+            generated,
+            limits,
+        } => {
+            let settings = limits.settings();
+            if check {
+                return emit_cmd::check_cmd(&specs_dir, &generated, &settings);
+            }
+            let lang = match lang {
+                LangArg::Rust => lawsmith_codegen::Lang::Rust,
+                LangArg::C => lawsmith_codegen::Lang::C,
+                LangArg::All => lawsmith_codegen::Lang::All,
+            };
+            let float = match float {
+                FloatArg::F32 => lawsmith_codegen::Float::F32,
+                FloatArg::F64 => lawsmith_codegen::Float::F64,
+            };
+            let out = out.expect("clap requires --out without --check");
+            emit_cmd::emit_cmd(&specs, lang, float, &out, allow_unproven, &settings)
+        }
+        Command::Build {
+            specs_dir,
+            generated,
+            limits,
+        } => build_cmd::build_cmd(&specs_dir, &generated, &limits.settings()),
     }
 }
 
