@@ -202,3 +202,147 @@ fn a_written_certificate_rechecks_and_an_edited_one_does_not() {
     );
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+fn lawsmith_in(dir: &Path, args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_lawsmith"))
+        .args(args)
+        .current_dir(dir)
+        .output()
+        .unwrap()
+}
+
+fn copy_dir(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).unwrap();
+    for e in std::fs::read_dir(from).unwrap() {
+        let e = e.unwrap();
+        let dest = to.join(e.file_name());
+        if e.path().is_dir() {
+            copy_dir(&e.path(), &dest);
+        } else {
+            std::fs::copy(e.path(), dest).unwrap();
+        }
+    }
+}
+
+#[test]
+fn committed_generated_code_is_up_to_date() {
+    let out = lawsmith(&["emit", "--check"]);
+    let text =
+        String::from_utf8_lossy(&out.stdout).to_string() + &String::from_utf8_lossy(&out.stderr);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "generated/ is stale; run `lawsmith build`:\n{text}"
+    );
+    assert!(text.contains("up to date"), "{text}");
+}
+
+#[test]
+fn an_edited_spec_makes_the_generated_code_stale() {
+    let dir = std::env::temp_dir().join(format!("lawsmith-stale-{}", std::process::id()));
+    copy_dir(&root().join("specs"), &dir.join("specs"));
+    copy_dir(&root().join("generated"), &dir.join("generated"));
+    // an untouched copy is up to date
+    let out = lawsmith_in(&dir, &["emit", "--check"]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let spec = dir.join("specs/energy_pitch.yaml");
+    let text = std::fs::read_to_string(&spec).unwrap();
+    std::fs::write(&spec, text.replace("default: 0.2 }", "default: 0.21 }")).unwrap();
+    let out = lawsmith_in(&dir, &["emit", "--check"]);
+    let stdout = String::from_utf8_lossy(&out.stdout).to_string();
+    assert_eq!(out.status.code(), Some(1), "{stdout}");
+    // a unified diff of the default gain and the spec hash
+    assert!(
+        stdout.contains("--- generated/energy_pitch/energy_pitch.c"),
+        "{stdout}"
+    );
+    assert!(
+        stdout.contains("+    g.k_tot = 0.21;") && stdout.contains("-    g.k_tot = 0.2;"),
+        "{stdout}"
+    );
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn emit_refuses_reserved_words_unproven_laws_and_foreign_files() {
+    let dir = std::env::temp_dir().join(format!("lawsmith-emit-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let d = dir.to_str().unwrap();
+    // names that are reserved words of C or Rust: a located error, nothing written
+    let out = lawsmith(&["emit", "tests/data/err/reserved-word.yaml", "--out", d]);
+    let err = String::from_utf8_lossy(&out.stderr).to_string();
+    assert_eq!(out.status.code(), Some(3), "{err}");
+    for word in ["int", "fn", "struct", "default"] {
+        assert!(err.contains(&format!("`{word}`")), "{word}: {err}");
+    }
+    assert!(err.contains("reserved-word.yaml:"), "{err}");
+    assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 0);
+    // an unproven law is refused, and emitted with --allow-unproven marked in capitals
+    let out = lawsmith(&[
+        "emit",
+        "tests/data/check/pendulum_definite.yaml",
+        "--out",
+        d,
+    ]);
+    assert_eq!(out.status.code(), Some(1));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("error[unproven]"));
+    assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 0);
+    let out = lawsmith(&[
+        "emit",
+        "tests/data/check/pendulum_definite.yaml",
+        "--out",
+        d,
+        "--allow-unproven",
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let c = std::fs::read_to_string(dir.join("pendulum_definite.c")).unwrap();
+    assert!(
+        c.contains("THIS LAW IS NOT PROVEN") && c.contains("proof: FALSIFIED"),
+        "{c}"
+    );
+    // a file lawsmith did not write is never overwritten
+    let mine = dir.join("energy_pitch.h");
+    std::fs::write(&mine, "/* my own header */\n").unwrap();
+    let out = lawsmith(&["emit", "specs/energy_pitch.yaml", "--out", d]);
+    assert_eq!(out.status.code(), Some(3));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("not overwriting"));
+    assert_eq!(
+        std::fs::read_to_string(&mine).unwrap(),
+        "/* my own header */\n"
+    );
+    // two emits give the same bytes
+    std::fs::remove_file(&mine).unwrap();
+    let read = |n: &str| std::fs::read(dir.join(n)).unwrap();
+    assert_eq!(
+        lawsmith(&["emit", "specs/energy_pitch.yaml", "--out", d])
+            .status
+            .code(),
+        Some(0)
+    );
+    let first: Vec<Vec<u8>> = ["energy_pitch.rs", "energy_pitch.h", "energy_pitch.c"]
+        .iter()
+        .map(|n| read(n))
+        .collect();
+    assert_eq!(
+        lawsmith(&["emit", "specs/energy_pitch.yaml", "--out", d])
+            .status
+            .code(),
+        Some(0)
+    );
+    let second: Vec<Vec<u8>> = ["energy_pitch.rs", "energy_pitch.h", "energy_pitch.c"]
+        .iter()
+        .map(|n| read(n))
+        .collect();
+    assert_eq!(first, second);
+    std::fs::remove_dir_all(&dir).unwrap();
+}

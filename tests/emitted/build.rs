@@ -1,0 +1,54 @@
+//! Makes a module of every `generated/<spec>/<spec>.rs` and a dispatcher by spec name, so the
+//! tests can drive each generated controller through arrays.
+
+use std::fmt::Write as _;
+use std::path::Path;
+
+fn main() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../generated");
+    println!("cargo:rerun-if-changed={}", root.display());
+    let mut specs: Vec<(String, std::path::PathBuf, bool)> = Vec::new();
+    if let Ok(rd) = std::fs::read_dir(&root) {
+        for e in rd.flatten() {
+            let name = e.file_name().to_string_lossy().to_string();
+            let file = e.path().join(format!("{name}.rs"));
+            if file.exists() {
+                println!("cargo:rerun-if-changed={}", file.display());
+                let text = std::fs::read_to_string(&file).unwrap_or_default();
+                specs.push((name, file, text.contains("pub fn update(")));
+            }
+        }
+    }
+    specs.sort();
+    let mut out = String::new();
+    for (name, file, _) in &specs {
+        let _ = writeln!(
+            out,
+            "#[path = {:?}]\npub mod {name};",
+            file.display().to_string()
+        );
+    }
+    let _ = writeln!(
+        out,
+        "/// The specs with generated Rust.\npub const SPECS: &[&str] = &[{}];",
+        specs
+            .iter()
+            .map(|s| format!("{:?}", s.0))
+            .collect::<Vec<_>>()
+            .join(", ")
+    );
+    let _ = writeln!(out, "/// One `step` of spec `name`'s generated code: commands, limit bits, domain flag.\npub fn step(name: &str, inputs: &[f64], gains: &[f64]) -> Option<(Vec<f64>, u32, bool)> {{\n    match name {{");
+    for (name, _, _) in &specs {
+        let _ = writeln!(out, "        {name:?} => {{\n            let o = {name}::step(&{name}::Inputs::from_array(inputs.try_into().ok()?), &{name}::Gains::from_array(gains.try_into().ok()?));\n            Some((o.commands().to_vec(), o.limits, o.domain))\n        }}");
+    }
+    let _ = writeln!(out, "        _ => None,\n    }}\n}}");
+    let _ = writeln!(out, "/// One guidance `update` of spec `name`: the state as [reference, rate, …].\npub fn update(name: &str, state: &mut [f64], commands: &[f64], gains: &[f64], dt: f64) -> Option<()> {{\n    match name {{");
+    for (name, _, has) in &specs {
+        if *has {
+            let _ = writeln!(out, "        {name:?} => {{\n            let mut s = {name}::Guidance::from_array((&*state).try_into().ok()?);\n            {name}::update(&mut s, &{name}::Commands::from_array(commands.try_into().ok()?), &{name}::Gains::from_array(gains.try_into().ok()?), dt);\n            state.copy_from_slice(&s.to_array());\n            Some(())\n        }}");
+        }
+    }
+    let _ = writeln!(out, "        _ => None,\n    }}\n}}");
+    let dest = Path::new(&std::env::var("OUT_DIR").expect("OUT_DIR")).join("modules.rs");
+    std::fs::write(dest, out).expect("write modules.rs");
+}
