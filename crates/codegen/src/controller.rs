@@ -360,6 +360,10 @@ impl Controller {
 
     /// Do these gains lie in their ranges and meet the constraints?
     pub fn gains_valid(&self, gains: &[f64]) -> bool {
+        self.gains_valid_in(gains, &mut Workspace::default())
+    }
+
+    fn gains_valid_in(&self, gains: &[f64], ws: &mut Workspace) -> bool {
         let in_range = self
             .gains
             .iter()
@@ -369,8 +373,10 @@ impl Controller {
             return false;
         }
         let (p, strict) = &self.constraints;
-        let g = p.run(gains, &mut Vec::new());
-        g.iter()
+        ws.out.resize(p.outputs.len(), 0.0);
+        p.run_into(gains, &mut ws.slots, &mut ws.out);
+        ws.out
+            .iter()
             .zip(strict)
             .all(|(&v, &s)| if s { v < 0.0 } else { v <= 0.0 })
     }
@@ -378,10 +384,17 @@ impl Controller {
     /// One control step, as the generated `step` computes it. `inputs` follows
     /// [`Controller::input_names`], `gains` the gains.
     pub fn step(&self, inputs: &[f64], gains: &[f64]) -> StepOutput {
+        self.step_in(inputs, gains, &mut Workspace::default())
+    }
+
+    /// [`Controller::step`] with reusable buffers (for simulation loops).
+    pub fn step_in(&self, inputs: &[f64], gains: &[f64], ws: &mut Workspace) -> StepOutput {
         let mut domain = false;
         let ns = self.states.len();
         let (nr, nt) = (self.references.len(), self.rates.len());
-        let mut x: Vec<f64> = inputs.to_vec();
+        let mut x = std::mem::take(&mut ws.x);
+        x.clear();
+        x.extend_from_slice(inputs);
         let mut guard = |v: &mut f64, (lo, hi): (f64, f64)| {
             if !(*v >= lo && *v <= hi) {
                 domain = true;
@@ -418,13 +431,16 @@ impl Controller {
                 x[i] = base + e2;
             }
         }
-        if self.gains_valid(gains) {
+        if self.gains_valid_in(gains, ws) {
             x.extend_from_slice(gains);
         } else {
             domain = true;
             x.extend(self.gains.iter().map(|g| g.default));
         }
-        let raw = self.law.run(&x, &mut Vec::new());
+        let mut raw = std::mem::take(&mut ws.out);
+        raw.resize(self.law.outputs.len(), 0.0);
+        self.law.run_into(&x, &mut ws.slots, &mut raw);
+        ws.x = x;
         let mut limits = 0u32;
         let mut commands = Vec::with_capacity(raw.len());
         for (i, (a, &c)) in self.actuators.iter().zip(&raw).enumerate() {
@@ -442,6 +458,7 @@ impl Controller {
             }
             commands.push(c);
         }
+        ws.out = raw;
         StepOutput {
             commands,
             limits,
@@ -461,10 +478,23 @@ impl Controller {
         gains: &[f64],
         dt: f64,
     ) {
+        self.update_in(refs, rates, commands, gains, dt, &mut Workspace::default());
+    }
+
+    /// [`Controller::update`] with reusable buffers.
+    pub fn update_in(
+        &self,
+        refs: &mut [f64],
+        rates: &mut [f64],
+        commands: &[f64],
+        gains: &[f64],
+        dt: f64,
+        ws: &mut Workspace,
+    ) {
         if dt.is_nan() || dt <= 0.0 {
             return;
         }
-        let valid = self.gains_valid(gains);
+        let valid = self.gains_valid_in(gains, ws);
         for (j, f) in self.filters.iter().enumerate() {
             let k = if valid {
                 gains[f.gain]
@@ -476,11 +506,21 @@ impl Controller {
             } else {
                 commands[j]
             };
-            let out = f.program.run(&[refs[j], c, k, dt], &mut Vec::new());
+            let mut out = [0.0; 2];
+            f.program
+                .run_into(&[refs[j], c, k, dt], &mut ws.slots, &mut out);
             refs[j] = out[0];
             rates[j] = out[1];
         }
     }
+}
+
+/// Reusable buffers of [`Controller::step_in`] and [`Controller::update_in`].
+#[derive(Clone, Debug, Default)]
+pub struct Workspace {
+    slots: Vec<f64>,
+    x: Vec<f64>,
+    out: Vec<f64>,
 }
 
 /// The exact discretisation over `dt` of `ṙ = clamp(k·(c − r), lo, hi)` for a constant

@@ -634,8 +634,20 @@ impl Program {
 
     /// Runs the program: the reference semantics every emitter follows.
     pub fn run(&self, inputs: &[f64], slots: &mut Vec<f64>) -> Vec<f64> {
-        slots.clear();
-        for op in &self.ops {
+        let mut out = vec![0.0; self.outputs.len()];
+        self.run_into(inputs, slots, &mut out);
+        out
+    }
+
+    /// [`Program::run`] into `out` (one value per output), without allocating once `slots`
+    /// has grown.
+    pub fn run_into(&self, inputs: &[f64], slots: &mut Vec<f64>, out: &mut [f64]) {
+        // every slot is written before it is read (operands come first)
+        if slots.len() < self.ops.len() {
+            slots.resize(self.ops.len(), 0.0);
+        }
+        let slots = &mut slots[..self.ops.len()];
+        for (k, op) in self.ops.iter().enumerate() {
             let v = |s: &Slot| slots[*s as usize];
             let x = match op {
                 Op::Const(c) => *c,
@@ -657,12 +669,11 @@ impl Program {
                     }
                 }
             };
-            slots.push(x);
+            slots[k] = x;
         }
-        self.outputs
-            .iter()
-            .map(|(_, s)| slots[*s as usize])
-            .collect()
+        for (o, (_, s)) in out.iter_mut().zip(&self.outputs) {
+            *o = slots[*s as usize];
+        }
     }
 }
 

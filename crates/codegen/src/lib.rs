@@ -32,7 +32,7 @@ mod rust;
 
 pub use controller::{
     clamp_command, Actuator, Controller, EmitError, Filter, Gain, Ranged, State, StepOutput,
-    MAX_ACTUATORS, OUTPUT_FIELDS,
+    Workspace, MAX_ACTUATORS, OUTPUT_FIELDS,
 };
 pub use header::{float_literal, Provenance, MARKER};
 pub use ir::{Builder, IrError, Op, Program, Slot};
