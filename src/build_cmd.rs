@@ -1,15 +1,22 @@
-//! `lawsmith build`: the main job on every example spec: prove, generate `generated/`, print
-//! a summary table.
+//! `lawsmith build`: the main job on every example spec: prove, generate `generated/`, fly
+//! the example scenarios into `report/` with a `report/index.md`, print a summary table.
 
 use crate::emit_cmd::{emit_one, generated_dir, specs_in, write_files};
 use crate::progress::Progress;
-use crate::EXIT_INVALID;
+use crate::sim_cmd::{fly_all, load_setup, write_run};
+use crate::{write_atomic, EXIT_INVALID};
 use lawsmith_codegen::{Float, Lang};
 use lawsmith_verify::Settings;
+use std::fmt::Write as _;
 use std::path::Path;
 use std::process::ExitCode;
 
-pub fn build_cmd(specs_dir: &Path, generated: &Path, settings: &Settings) -> ExitCode {
+pub fn build_cmd(
+    specs_dir: &Path,
+    generated: &Path,
+    report: &Path,
+    settings: &Settings,
+) -> ExitCode {
     let specs = specs_in(specs_dir);
     if specs.is_empty() {
         eprintln!("error[usage]: no spec files in {}", specs_dir.display());
@@ -17,6 +24,7 @@ pub fn build_cmd(specs_dir: &Path, generated: &Path, settings: &Settings) -> Exi
     }
     let progress = Progress::new();
     let mut rows = Vec::new();
+    let mut md = String::from("# lawsmith report\n\nWritten by `lawsmith build`. The airframe and the scenarios are the invented demo\nairframe and scenarios of lawsmith's examples, not a real aircraft.\n\n## Specs\n\n| spec | claim | verdict | boxes | worst sampled margin | ops/step | saturation (share of sampled envelope) |\n|---|---|---|---:|---:|---:|---|\n");
     let mut code = 0u8;
     for spec in &specs {
         let name = spec
@@ -27,6 +35,7 @@ pub fn build_cmd(specs_dir: &Path, generated: &Path, settings: &Settings) -> Exi
         match emit_one(spec, settings, Lang::All, Float::F64, false, &progress) {
             Err(c) => {
                 code = code.max(c);
+                let _ = writeln!(md, "| {name} | - | not emitted | - | - | - | - |");
                 rows.push(vec![
                     name,
                     "-".into(),
@@ -46,6 +55,24 @@ pub fn build_cmd(specs_dir: &Path, generated: &Path, settings: &Settings) -> Exi
                         "write failed".into()
                     }
                 };
+                let sat: Vec<String> = e
+                    .report
+                    .saturation
+                    .iter()
+                    .map(|a| format!("{} {:.2}%", a.actuator, 100.0 * a.share))
+                    .collect();
+                let _ = writeln!(
+                    md,
+                    "| {name} | {} | {} | {} | {} | {} | {} |",
+                    e.report.claim.name(),
+                    e.report.verdict.name(),
+                    e.report.boxes,
+                    e.report
+                        .min_margin
+                        .map_or("-".into(), |m| format!("{m:.4e}")),
+                    e.controller.op_count(),
+                    sat.join(", ")
+                );
                 rows.push(vec![
                     name,
                     e.report.claim.name(),
@@ -63,6 +90,65 @@ pub fn build_cmd(specs_dir: &Path, generated: &Path, settings: &Settings) -> Exi
                 ]);
             }
         }
+    }
+    // the example scenarios
+    let scenarios = specs_in(&specs_dir.join("scenarios"));
+    if !scenarios.is_empty() {
+        md.push_str("\n## Scenarios\n\nEach scenario flies the energy law as generated (the interpreter of the emitted code)\nbeside the PID and LQR baselines; metrics are reported as measured, not tuned to a\nranking. `-` marks a metric the scenario does not define (no such step) or a step that\nnever settled. CSV time series are written beside the plots (not committed).\n");
+    }
+    let mut sim_rows = Vec::new();
+    for sc in &scenarios {
+        let stem = sc
+            .file_stem()
+            .unwrap_or_default()
+            .to_string_lossy()
+            .to_string();
+        let setup = match load_setup(sc) {
+            Ok(s) => s,
+            Err(c) => {
+                code = code.max(c);
+                continue;
+            }
+        };
+        match fly_all(&setup).and_then(|run| write_run(&report.join(&stem), &run).map(|_| run)) {
+            Ok(run) => {
+                let _ = writeln!(md, "\n### {}\n", run.name);
+                if let Some(s) = &run.summary {
+                    let _ = writeln!(md, "{s}\n");
+                }
+                md.push_str(&lawsmith_sim::output::markdown_table(&run));
+                let links: Vec<String> = [
+                    "altitude",
+                    "airspeed",
+                    "pitch",
+                    "throttle",
+                    "energy_error",
+                    "balance_error",
+                ]
+                .iter()
+                .map(|p| format!("[{p}]({stem}/{p}.svg)"))
+                .collect();
+                let _ = writeln!(
+                    md,
+                    "\nPlots: {}\n\n![altitude]({stem}/altitude.svg)",
+                    links.join(" · ")
+                );
+                sim_rows.push(stem);
+            }
+            Err(e) => {
+                eprintln!("error[sim]: {}: {e}", sc.display());
+                code = EXIT_INVALID;
+            }
+        }
+    }
+    if let Err(e) = std::fs::create_dir_all(report)
+        .and_then(|_| write_atomic(&report.join("index.md"), md.as_bytes()))
+    {
+        eprintln!(
+            "error[io]: cannot write {}: {e}",
+            report.join("index.md").display()
+        );
+        code = EXIT_INVALID;
     }
     let head = [
         "spec",
@@ -90,6 +176,15 @@ pub fn build_cmd(specs_dir: &Path, generated: &Path, settings: &Settings) -> Exi
     line(widths.iter().map(|w| "-".repeat(*w)).collect());
     for r in rows {
         line(r);
+    }
+    if !sim_rows.is_empty() {
+        println!(
+            "\nflew {} scenario(s) into {}/: {}; see {}",
+            sim_rows.len(),
+            report.display(),
+            sim_rows.join(", "),
+            report.join("index.md").display()
+        );
     }
     ExitCode::from(code)
 }

@@ -6,6 +6,7 @@ mod check_cmd;
 mod derive_cmd;
 mod emit_cmd;
 mod progress;
+mod sim_cmd;
 
 use clap::{Parser, Subcommand, ValueEnum};
 use lawsmith_spec::{load, render, Spec};
@@ -84,7 +85,7 @@ enum Command {
         limits: check_cmd::Limits,
     },
     /// The main job on the example specs: prove every spec of --specs-dir, write --generated,
-    /// print a summary table.
+    /// fly the scenarios of --specs-dir/scenarios into --report, print a summary table.
     Build {
         /// Where the specs are.
         #[arg(long, value_name = "DIR", default_value = "specs")]
@@ -92,8 +93,30 @@ enum Command {
         /// Where to write the generated code (one directory per spec).
         #[arg(long, value_name = "DIR", default_value = "generated")]
         generated: PathBuf,
+        /// Where to write the simulation report.
+        #[arg(long, value_name = "DIR", default_value = "report")]
+        report: PathBuf,
         #[command(flatten)]
         limits: check_cmd::Limits,
+    },
+    /// Fly a scenario: the spec's energy law (as generated) beside PID and LQR baselines.
+    /// Writes CSV time series and SVG plots to --out and prints the metrics side by side.
+    /// With --runs: a Monte Carlo campaign with dispersions, percentiles and histograms.
+    Sim {
+        /// The scenario (YAML).
+        scenario: PathBuf,
+        /// Directory to write into.
+        #[arg(long, value_name = "DIR")]
+        out: PathBuf,
+        /// Output format of the metrics.
+        #[arg(long, value_enum, default_value_t = ReportFormat::Text)]
+        format: ReportFormat,
+        /// Monte Carlo: this many dispersed runs.
+        #[arg(long)]
+        runs: Option<usize>,
+        /// Seed of the dispersions.
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
     },
     /// Re-evaluate every leaf box of a certificate against its spec, without searching.
     /// Exit code 0 accepted, 1 rejected, 3 unreadable input.
@@ -152,6 +175,13 @@ fn run(cli: Cli) -> ExitCode {
             limits,
         } => check_cmd::check_cmd(&specs, format, certificate.as_deref(), &limits),
         Command::Recheck { certificate, spec } => check_cmd::recheck_cmd(&certificate, &spec),
+        Command::Sim {
+            scenario,
+            out,
+            format,
+            runs,
+            seed,
+        } => sim_cmd::sim_cmd(&scenario, &out, format, runs, seed),
         Command::Emit {
             specs,
             lang,
@@ -182,8 +212,9 @@ fn run(cli: Cli) -> ExitCode {
         Command::Build {
             specs_dir,
             generated,
+            report,
             limits,
-        } => build_cmd::build_cmd(&specs_dir, &generated, &limits.settings()),
+        } => build_cmd::build_cmd(&specs_dir, &generated, &report, &limits.settings()),
     }
 }
 

@@ -346,3 +346,135 @@ fn emit_refuses_reserved_words_unproven_laws_and_foreign_files() {
     assert_eq!(first, second);
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+#[test]
+fn sim_writes_series_plots_and_the_metrics() {
+    let dir = std::env::temp_dir().join(format!("lawsmith-sim-{}", std::process::id()));
+    let d = dir.to_str().unwrap();
+    let out = lawsmith(&[
+        "sim",
+        "specs/scenarios/altitude_step_up.yaml",
+        "--out",
+        d,
+        "--format",
+        "json",
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["scenario"], "altitude_step_up");
+    for c in ["energy", "pid", "lqr"] {
+        let m = &v["controllers"][c];
+        assert!(m["altitude_overshoot"].is_number(), "{c}: {m}");
+        assert!(
+            m["peak_airspeed_deviation_in_climb"].is_number(),
+            "{c}: {m}"
+        );
+        // no airspeed step in this scenario: undefined, not zero
+        assert!(m["airspeed_settling_time"].is_null(), "{c}: {m}");
+        let csv = std::fs::read_to_string(dir.join(format!("{c}.csv"))).unwrap();
+        assert!(csv.starts_with("t,h,va,") && csv.lines().count() > 4000);
+    }
+    for p in [
+        "altitude",
+        "airspeed",
+        "pitch",
+        "throttle",
+        "energy_error",
+        "balance_error",
+    ] {
+        let svg = std::fs::read_to_string(dir.join(format!("{p}.svg"))).unwrap();
+        assert!(
+            svg.starts_with("<svg") && svg.matches("<polyline").count() >= 3,
+            "{p}"
+        );
+    }
+    // a short Monte Carlo campaign: percentiles and histograms
+    let out = lawsmith(&[
+        "sim",
+        "specs/scenarios/altitude_step_up.yaml",
+        "--out",
+        d,
+        "--runs",
+        "4",
+        "--seed",
+        "9",
+        "--format",
+        "json",
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["runs"], 4);
+    assert!(
+        v["controllers"]["energy"]["energy_error_rms"]["p95"].is_number(),
+        "{v}"
+    );
+    assert!(dir.join("histogram_altitude_overshoot.svg").exists());
+    // a scenario error names the file and is exit code 3
+    let bad = dir.join("bad.yaml");
+    std::fs::write(
+        &bad,
+        "name: x\nspec: nowhere.yaml\nduration: 10\ninitial: { h: 1, va: 2 }\n",
+    )
+    .unwrap();
+    let out = lawsmith(&["sim", bad.to_str().unwrap(), "--out", d]);
+    assert_eq!(out.status.code(), Some(3));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("cannot read"));
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn the_committed_report_is_what_build_writes() {
+    // report/ is committed (the README quotes it): a fresh build must give the same bytes
+    let dir = std::env::temp_dir().join(format!("lawsmith-report-{}", std::process::id()));
+    let (gen, rep) = (dir.join("generated"), dir.join("report"));
+    let out = lawsmith(&[
+        "build",
+        "--generated",
+        gen.to_str().unwrap(),
+        "--report",
+        rep.to_str().unwrap(),
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let mut compared = 0;
+    for e in std::fs::read_dir(root().join("report")).unwrap() {
+        let p = e.unwrap().path();
+        let files: Vec<PathBuf> = if p.is_dir() {
+            std::fs::read_dir(&p)
+                .unwrap()
+                .map(|f| f.unwrap().path())
+                .collect()
+        } else {
+            vec![p.clone()]
+        };
+        for f in files
+            .into_iter()
+            .filter(|f| f.extension().is_some_and(|x| x == "svg" || x == "md"))
+        {
+            let rel = f.strip_prefix(root().join("report")).unwrap();
+            let fresh = std::fs::read(rep.join(rel)).unwrap_or_default();
+            assert!(
+                fresh == std::fs::read(&f).unwrap(),
+                "report/{} is stale: run `lawsmith build`",
+                rel.display()
+            );
+            compared += 1;
+        }
+    }
+    assert!(compared >= 30, "{compared} files");
+    std::fs::remove_dir_all(&dir).unwrap();
+}
