@@ -1,6 +1,6 @@
 //! Runs the independent SymPy derivation (tests/python/crosscheck_derive.py; references:
 //! SymPy and mpmath from PyPI) against `lawsmith derive --format json` for every spec in
-//! specs/ and tests/data/ok, at 1,000 random points each, tolerance 1e-12 relative.
+//! specs/, tests/data/ok and tests/data/bound, at 1,000 random points each, tolerance 1e-12 relative.
 
 use std::path::Path;
 use std::process::Command;
@@ -8,7 +8,7 @@ use std::process::Command;
 fn specs() -> Vec<String> {
     let root = Path::new(env!("CARGO_MANIFEST_DIR"));
     let mut out = Vec::new();
-    for dir in ["specs", "tests/data/ok"] {
+    for dir in ["specs", "tests/data/ok", "tests/data/bound"] {
         for e in std::fs::read_dir(root.join(dir)).unwrap() {
             let p = e.unwrap().path();
             if p.extension().is_some_and(|x| x == "yaml") {

@@ -72,6 +72,11 @@ def sympy_derivation(spec):
                 local.setdefault(n, sym(n))
         for d in refs.values():
             local.setdefault(d["rate"], sym(d["rate"]))
+        # the plant's true value of an estimate: estimate*(1 + error) or estimate + error,
+        # the error a symbol named with a leading delta
+        for n, d in (spec.get("uncertain") or {}).items():
+            est, err = sym(d["estimate"]), sym("\u03b4" + n)
+            local[n] = est * (1 + err) if "relative" in d else est + err
         return parse_expr(str(text), local_dict=local, transformations=TRANSFORMS, evaluate=True)
 
     for s, f in (spec.get("dynamics") or {}).items():
@@ -107,6 +112,10 @@ def sample(symbols, rng):
             lo, hi = s["range"]
             point[name] = rng.uniform(lo, hi)
     for name, s in symbols.items():
+        if s.get("error_symbol"):
+            lo, hi = s["range"]
+            point[s["error_symbol"]] = rng.uniform(lo, hi)
+    for name, s in symbols.items():
         if s["kind"] == "state":
             lo, hi = s["error"]
             centre = point[s["reference"]] if s.get("reference") else s.get("equilibrium", 0.0)
@@ -140,7 +149,8 @@ def main():
         with open(path, encoding="utf-8") as fh:
             spec = yaml.safe_load(fh)
         v_ref, vdot_ref, laws_ref = sympy_derivation(spec)
-        names = list(got["symbols"].keys())
+        names = list(got["symbols"].keys()) + [
+            s["error_symbol"] for s in got["symbols"].values() if s.get("error_symbol")]
         pairs = [("V", lawsmith_expr(got["candidate"], names), v_ref),
                  ("Vdot", lawsmith_expr(got["vdot"], names) * (1 + sp.Float(args.perturb, 60)), vdot_ref)]
         pairs += [(f"law {n}", lawsmith_expr(got["laws"][n], names), e) for n, e in laws_ref.items()]

@@ -163,6 +163,11 @@ const GREEK: [&str; 24] = [
 ];
 
 fn latex_name(name: &str) -> String {
+    // an uncertainty coordinate `δx` (the error of an estimate): \delta before the name, so
+    // the output stays ASCII and compiles with any TeX engine
+    if let Some(rest) = name.strip_prefix('δ') {
+        return format!("\\delta {}", latex_name(rest));
+    }
     let word = |w: &str| -> String {
         if GREEK.contains(&w) {
             format!("\\{w}")

@@ -1,7 +1,7 @@
 //! The closed loop and V̇: laws substituted in order, dynamics closed with the laws, and
 //! V̇ = Σ ∂V/∂x·ẋ + Σ ∂V/∂r·ṙ, simplified to canonical form.
 
-use crate::model::{Spec, SymbolKind};
+use crate::model::{uncertainty_name, ErrorForm, Spec, SymbolKind};
 use lawsmith_expr::{derivative, AssumeAll, Condition, ExprId, Oracle, Simplifier};
 use std::collections::HashMap;
 
@@ -19,7 +19,8 @@ pub struct Derivation {
     pub actuators: Vec<(String, ExprId)>,
     /// The `where` definitions of the candidate, simplified.
     pub where_defs: Vec<(String, ExprId)>,
-    /// Closed-loop state derivatives.
+    /// Closed-loop state derivatives (true values of uncertain quantities written as
+    /// estimate and error, the error `δNAME` a symbol of its own).
     pub closed_loop: Vec<(String, ExprId)>,
     /// Side conditions the simplification relied on (rule name, condition); the verifier
     /// proves them over the envelope.
@@ -57,10 +58,36 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         law_map.insert(input.clone(), full);
         laws.push((input.clone(), full));
     }
+    // the plant sees true values: `estimate·(1 + δ)` or `estimate + δ`, where the estimate
+    // (a signal, or an input computed by its law) is what the controller sees
+    let mut true_values: HashMap<String, ExprId> = HashMap::new();
+    for s in spec
+        .symbols
+        .iter()
+        .filter(|s| s.kind == SymbolKind::Uncertain)
+    {
+        let Some((estimate, form)) = &s.estimate else {
+            continue;
+        };
+        let e = dag.sym(estimate);
+        let delta = dag.sym(&uncertainty_name(&s.name));
+        let value = match form {
+            ErrorForm::Relative => {
+                let one = dag.int(1);
+                let factor = dag.add(vec![one, delta]);
+                dag.mul(vec![e, factor])
+            }
+            ErrorForm::Absolute => dag.add(vec![e, delta]),
+        };
+        true_values.insert(s.name.clone(), value);
+    }
     let closed: Vec<(String, ExprId)> = spec
         .dynamics
         .iter()
-        .map(|(s, f)| (s.clone(), dag.substitute(*f, &law_map)))
+        .map(|(s, f)| {
+            let plant = dag.substitute(*f, &true_values);
+            (s.clone(), dag.substitute(plant, &law_map))
+        })
         .collect();
     let v = spec.candidate;
     let mut terms = Vec::new();

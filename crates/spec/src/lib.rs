@@ -46,6 +46,9 @@ mod units;
 pub use derive::{derive, derive_with, Derivation, DeriveError};
 pub use diag::{render, Diagnostic};
 pub use load::{load, MAX_SPEC_BYTES};
-pub use model::{Actuator, Claim, Constraint, Guidance, Spec, Symbol, SymbolKind};
+pub use model::{
+    uncertainty_name, Actuator, Claim, Constraint, ErrorForm, Guidance, Spec, Symbol, SymbolKind,
+};
 pub use names::{identifier_problem, reserved_reason, C_RESERVED, RUST_RESERVED};
+pub use schema::json_schema;
 pub use units::{named_units, parse_unit, Dim};

@@ -22,6 +22,9 @@ pub enum SymbolKind {
     Input,
     /// A guidance command.
     Command,
+    /// The plant's true value of an estimated signal or input, within a declared error of the
+    /// estimate. Only the dynamics may use it.
+    Uncertain,
 }
 
 impl SymbolKind {
@@ -36,6 +39,7 @@ impl SymbolKind {
             SymbolKind::Signal => "signal",
             SymbolKind::Input => "input",
             SymbolKind::Command => "command",
+            SymbolKind::Uncertain => "true value",
         }
     }
 }
@@ -66,6 +70,24 @@ pub struct Symbol {
     pub error: Option<(f64, f64)>,
     /// Reference: the name of its rate.
     pub rate: Option<String>,
+    /// Uncertain quantity: the estimate it differs from, and how (its `range` is the range
+    /// of the error, relative or absolute).
+    pub estimate: Option<(String, ErrorForm)>,
+}
+
+/// How an uncertain quantity differs from its estimate.
+#[derive(Copy, Clone, Debug, PartialEq, Eq)]
+pub enum ErrorForm {
+    /// `true = estimate · (1 + δ)`.
+    Relative,
+    /// `true = estimate + δ`.
+    Absolute,
+}
+
+/// The name of the error coordinate `δ` of an uncertain quantity. The `δ` cannot occur in a
+/// spec (identifiers are ASCII), so the name never collides with a declared one.
+pub fn uncertainty_name(quantity: &str) -> String {
+    format!("δ{quantity}")
 }
 
 /// What the Lyapunov argument claims.
@@ -77,6 +99,10 @@ pub enum Claim {
     NegativeSemidefinite,
     /// V̇ ≤ −2·rate·V.
     Exponential(f64),
+    /// The smallest level `c` with V̇ < 0 wherever V ≥ c in the domain (every trajectory
+    /// enters {V ≤ c} and stays), and the bound it implies on each error; with
+    /// [`Spec::required_bounds`], those bounds must not exceed the required ones.
+    UltimateBound,
 }
 
 impl Claim {
@@ -86,6 +112,7 @@ impl Claim {
             Claim::NegativeDefinite => "negative_definite".into(),
             Claim::NegativeSemidefinite => "negative_semidefinite".into(),
             Claim::Exponential(r) => format!("exponential({r})"),
+            Claim::UltimateBound => "ultimate_bound".into(),
         }
     }
 }
@@ -154,6 +181,9 @@ pub struct Spec {
     pub candidate: ExprId,
     /// What is claimed of V̇.
     pub claim: Claim,
+    /// For an ultimate-bound claim with required bounds: state → largest allowed |error|, in
+    /// state order (empty for `auto`).
+    pub required_bounds: Vec<(String, f64)>,
     /// Laws in evaluation order: input → expression (earlier inputs as symbols).
     pub laws: Vec<(String, ExprId)>,
     /// Gain constraints.

@@ -1,5 +1,10 @@
 //! The raw YAML schema, as serde reads it. Every name and formula keeps its position.
+//!
+//! The same types give the spec's JSON Schema ([`json_schema`]), so editors can validate a
+//! spec as it is typed; `schema/spec.schema.json` is that output, committed and checked for
+//! staleness by the tests.
 
+use schemars::{json_schema, JsonSchema, Schema, SchemaGenerator};
 use serde::Deserialize;
 use serde_saphyr::Spanned;
 use std::fmt;
@@ -45,10 +50,85 @@ impl<'de, V: Deserialize<'de>> Deserialize<'de> for Ordered<V> {
     }
 }
 
+impl<V: JsonSchema> JsonSchema for Ordered<V> {
+    fn schema_name() -> std::borrow::Cow<'static, str> {
+        format!("Ordered_{}", V::schema_name()).into()
+    }
+
+    fn json_schema(g: &mut SchemaGenerator) -> Schema {
+        let value = g.subschema_for::<V>();
+        json_schema!({
+            "type": ["object", "null"],
+            "description": "A mapping of names (identifiers), in the order they are evaluated.",
+            "propertyNames": { "pattern": "^[A-Za-z_][A-Za-z0-9_]*$" },
+            "additionalProperties": value,
+        })
+    }
+}
+
+/// A unit or a formula: YAML may read `1` or `0` as a number, which serde takes as text.
+struct Scalar;
+
+impl JsonSchema for Scalar {
+    fn schema_name() -> std::borrow::Cow<'static, str> {
+        "Scalar".into()
+    }
+
+    fn json_schema(_: &mut SchemaGenerator) -> Schema {
+        json_schema!({ "type": ["string", "number"] })
+    }
+}
+
+/// A claim: one of the named claims, `{ exponential: RATE }` or `{ ultimate_bound: … }`.
+fn claim_schema(_: &mut SchemaGenerator) -> Schema {
+    json_schema!({
+        "oneOf": [
+            { "enum": ["negative_definite", "negative_semidefinite"] },
+            {
+                "type": "object",
+                "properties": { "exponential": { "type": "number", "exclusiveMinimum": 0 } },
+                "required": ["exponential"],
+                "additionalProperties": false
+            },
+            {
+                "type": "object",
+                "properties": {
+                    "ultimate_bound": {
+                        "oneOf": [
+                            { "const": "auto" },
+                            { "type": "array", "items": { "type": "number", "exclusiveMinimum": 0 } },
+                            {
+                                "type": "object",
+                                "additionalProperties": { "type": "number", "exclusiveMinimum": 0 }
+                            }
+                        ]
+                    }
+                },
+                "required": ["ultimate_bound"],
+                "additionalProperties": false
+            }
+        ]
+    })
+}
+
+/// The JSON Schema (draft 2020-12) of a spec file, from the types serde reads it with.
+pub fn json_schema() -> serde_json::Value {
+    let mut schema = schemars::generate::SchemaSettings::draft2020_12()
+        .into_generator()
+        .into_root_schema_for::<RawSpec>();
+    schema.insert("title".into(), "lawsmith spec".into());
+    schema.insert(
+        "description".into(),
+        "A control law with its plant model, energies, Lyapunov candidate and claim, actuators and guidance (see README.md).".into(),
+    );
+    schema.to_value()
+}
+
 /// Top level of a spec file.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawSpec {
+    #[schemars(with = "String")]
     pub name: SpannedStr,
     #[serde(default)]
     pub summary: Option<String>,
@@ -59,6 +139,7 @@ pub struct RawSpec {
     #[serde(default)]
     pub gains: Ordered<RawGain>,
     #[serde(default)]
+    #[schemars(with = "Vec<String>")]
     pub constraints: Vec<SpannedStr>,
     #[serde(default)]
     pub states: Ordered<RawState>,
@@ -69,11 +150,16 @@ pub struct RawSpec {
     #[serde(default)]
     pub inputs: Ordered<RawInput>,
     #[serde(default)]
+    pub uncertain: Ordered<RawUncertain>,
+    #[serde(default)]
+    #[schemars(with = "Ordered<Scalar>")]
     pub dynamics: Ordered<SpannedStr>,
     #[serde(default)]
+    #[schemars(with = "Ordered<Scalar>")]
     pub energies: Ordered<SpannedStr>,
     pub lyapunov: RawLyapunov,
     #[serde(default)]
+    #[schemars(with = "Ordered<Scalar>")]
     pub laws: Ordered<SpannedStr>,
     #[serde(default)]
     pub actuators: Ordered<RawActuator>,
@@ -81,62 +167,94 @@ pub struct RawSpec {
     pub guidance: Ordered<RawGuidance>,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawParameter {
+    #[schemars(with = "f64")]
     pub value: Spanned<f64>,
+    #[schemars(with = "Scalar")]
     pub unit: SpannedStr,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawGain {
+    #[schemars(with = "[f64; 2]")]
     pub range: Spanned<Vec<f64>>,
+    #[schemars(with = "Scalar")]
     pub unit: SpannedStr,
     #[serde(default)]
+    #[schemars(with = "Option<f64>")]
     pub default: Option<Spanned<f64>>,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawState {
+    #[schemars(with = "Scalar")]
     pub unit: SpannedStr,
     #[serde(default)]
+    #[schemars(with = "Option<String>")]
     pub reference: Option<SpannedStr>,
     #[serde(default)]
+    #[schemars(with = "Option<f64>")]
     pub equilibrium: Option<Spanned<f64>>,
+    #[schemars(with = "[f64; 2]")]
     pub error: Spanned<Vec<f64>>,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawReference {
+    #[schemars(with = "Scalar")]
     pub unit: SpannedStr,
+    #[schemars(with = "[f64; 2]")]
     pub range: Spanned<Vec<f64>>,
+    #[schemars(with = "String")]
     pub rate: SpannedStr,
+    #[schemars(with = "[f64; 2]")]
     pub rate_range: Spanned<Vec<f64>>,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawSignal {
+    #[schemars(with = "Scalar")]
     pub unit: SpannedStr,
+    #[schemars(with = "[f64; 2]")]
     pub range: Spanned<Vec<f64>>,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawInput {
+    #[schemars(with = "Scalar")]
     pub unit: SpannedStr,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawLyapunov {
     #[serde(default, rename = "where")]
+    #[schemars(with = "Ordered<Scalar>")]
     pub where_: Ordered<SpannedStr>,
+    #[schemars(with = "Scalar")]
     pub candidate: SpannedStr,
+    #[schemars(schema_with = "claim_schema")]
     pub claim: Spanned<RawClaim>,
+}
+
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawUncertain {
+    #[schemars(with = "String")]
+    pub estimate: SpannedStr,
+    #[serde(default)]
+    #[schemars(with = "Option<[f64; 2]>")]
+    pub relative: Option<Spanned<Vec<f64>>>,
+    #[serde(default)]
+    #[schemars(with = "Option<[f64; 2]>")]
+    pub absolute: Option<Spanned<Vec<f64>>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -144,20 +262,36 @@ pub struct RawLyapunov {
 pub enum RawClaim {
     Named(String),
     Exponential { exponential: f64 },
+    Bound { ultimate_bound: RawBound },
 }
 
+/// `auto`, a list of bounds in state order, or a mapping state → bound.
 #[derive(Debug, Deserialize)]
+#[serde(untagged)]
+pub enum RawBound {
+    Auto(String),
+    List(Vec<f64>),
+    Map(std::collections::BTreeMap<String, f64>),
+}
+
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawActuator {
+    #[schemars(with = "Scalar")]
     pub law: SpannedStr,
+    #[schemars(with = "Scalar")]
     pub unit: SpannedStr,
+    #[schemars(with = "[f64; 2]")]
     pub limits: Spanned<Vec<f64>>,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawGuidance {
+    #[schemars(with = "String")]
     pub command: SpannedStr,
+    #[schemars(with = "String")]
     pub gain: SpannedStr,
+    #[schemars(with = "[f64; 2]")]
     pub rate_limit: Spanned<Vec<f64>>,
 }

@@ -78,7 +78,9 @@ fn yaml_diagnostic(source: &str, e: &serde_saphyr::Error) -> Diagnostic {
         .label("second occurrence")
         .hint("YAML keeps only one of them; remove or rename the other");
     }
-    let class = if message.contains("budget") || message.contains("alias") {
+    let class = if message.contains("non-finite float") {
+        "non-finite"
+    } else if message.contains("budget") || message.contains("alias") {
         "yaml-budget"
     } else if message.contains("unknown field") || message.contains("missing field") {
         "schema"
@@ -88,6 +90,9 @@ fn yaml_diagnostic(source: &str, e: &serde_saphyr::Error) -> Diagnostic {
     let mut d = Diagnostic::new(class, message, offset..offset + 1);
     if class == "schema" {
         d = d.hint("see the spec format in README.md; keys are case-sensitive");
+    }
+    if class == "non-finite" {
+        d = d.hint("write a finite decimal number; a proof needs bounded ranges and values");
     }
     d
 }
@@ -255,6 +260,7 @@ impl<'s> Loader<'s> {
             equilibrium: None,
             error: None,
             rate: None,
+            estimate: None,
         });
         self.symbols.len() - 1
     }
@@ -354,7 +360,24 @@ impl<'s> Loader<'s> {
         for (n, s) in &raw.states.0 {
             let ok = self.declare(n, SymbolKind::State);
             let dim = self.unit(&s.unit);
-            let error = self.pair(&s.error, "error box");
+            let mut error = self.pair(&s.error, "error box");
+            if let Some((lo, hi)) = error {
+                if !(lo < 0.0 && 0.0 < hi) {
+                    self.err(
+                        Diagnostic::new(
+                            "empty-error-box",
+                            format!(
+                                "the error box [{lo}, {hi}] of `{}` does not hold zero error inside it",
+                                n.value
+                            ),
+                            range_of(self.src, &s.error),
+                        )
+                        .label("min must be below 0 and max above")
+                        .hint("the proof is about errors around zero; write e.g. [-1, 1]"),
+                    );
+                    error = None;
+                }
+            }
             if let (Some(r), Some(e)) = (&s.reference, &s.equilibrium) {
                 let _ = r;
                 let span = range_of(self.src, e);
@@ -472,6 +495,9 @@ impl<'s> Loader<'s> {
                 self.inputs.push(n.value.clone());
             }
         }
+        for (n, u) in &raw.uncertain.0 {
+            self.declare_uncertain(n, u);
+        }
         // definitions: energies and `where` names share one namespace with the symbols; they
         // are declared with the `Command` kind (never an input of a formula) and recognised
         // through `defs`
@@ -537,29 +563,7 @@ impl<'s> Loader<'s> {
                 });
             }
         }
-        let claim =
-            match &raw.lyapunov.claim.value {
-                RawClaim::Named(s) if s == "negative_definite" => Claim::NegativeDefinite,
-                RawClaim::Named(s) if s == "negative_semidefinite" => Claim::NegativeSemidefinite,
-                RawClaim::Exponential { exponential }
-                    if *exponential > 0.0 && exponential.is_finite() =>
-                {
-                    Claim::Exponential(*exponential)
-                }
-                other => {
-                    let span = range_of(self.src, &raw.lyapunov.claim);
-                    let what = match other {
-                        RawClaim::Named(s) => format!("unknown claim `{s}`"),
-                        RawClaim::Exponential { exponential } => {
-                            format!("exponential rate {exponential} must be positive and finite")
-                        }
-                    };
-                    self.err(Diagnostic::new("bad-claim", what, span).hint(
-                        "use negative_definite, negative_semidefinite or { exponential: RATE }",
-                    ));
-                    Claim::NegativeDefinite
-                }
-            };
+        let (claim, required_bounds) = self.claim(&raw);
 
         // 2. structure: dynamics for every state, a law for every input
         let mut dag = Dag::new();
@@ -688,6 +692,7 @@ impl<'s> Loader<'s> {
                 text: text.clone(),
                 law_index: None,
                 dynamics: None,
+                plant: true,
             };
             if let Some(id) = self.lower_in(&mut dag, ast, &ctx) {
                 dynamics.push((state.clone(), id));
@@ -701,8 +706,10 @@ impl<'s> Loader<'s> {
                 text: text.clone(),
                 law_index: Some(i),
                 dynamics: Some(&dyn_map),
+                plant: false,
             };
             if let Some(id) = self.lower_in(&mut dag, ast, &ctx) {
+                self.no_true_values(&dag, id, *base, text, &format!("the law for `{input}`"));
                 laws.push((input.clone(), id));
             }
         }
@@ -713,8 +720,13 @@ impl<'s> Loader<'s> {
                 text: raw.lyapunov.candidate.value.clone(),
                 law_index: None,
                 dynamics: Some(&dyn_map),
+                plant: false,
             };
             candidate = self.lower_in(&mut dag, ast, &ctx);
+            if let Some(id) = candidate {
+                let text = raw.lyapunov.candidate.value.clone();
+                self.no_true_values(&dag, id, *base, &text, "the candidate");
+            }
         }
         let mut actuators = Vec::new();
         for (name, ast, base, text, unit, limits) in &act_asts {
@@ -723,8 +735,10 @@ impl<'s> Loader<'s> {
                 text: text.clone(),
                 law_index: Some(law_asts.len()),
                 dynamics: Some(&dyn_map),
+                plant: false,
             };
             if let (Some(id), Some(l)) = (self.lower_in(&mut dag, ast, &ctx), limits) {
+                self.no_true_values(&dag, id, *base, text, &format!("actuator `{name}`"));
                 actuators.push(Actuator {
                     name: name.clone(),
                     law: id,
@@ -740,6 +754,7 @@ impl<'s> Loader<'s> {
                 text: text.clone(),
                 law_index: None,
                 dynamics: None,
+                plant: false,
             };
             let l = self.lower_in(&mut dag, la, &ctx_l);
             let ctx_r = Ctx {
@@ -747,6 +762,7 @@ impl<'s> Loader<'s> {
                 text: text.clone(),
                 law_index: None,
                 dynamics: None,
+                plant: false,
             };
             let r = self.lower_in(&mut dag, ra, &ctx_r);
             if let (Some(lhs), Some(rhs)) = (l, r) {
@@ -810,11 +826,189 @@ impl<'s> Loader<'s> {
             where_defs,
             candidate: candidate.ok_or(())?,
             claim,
+            required_bounds,
             laws,
             constraints,
             actuators,
             guidance: guidance_cmds,
         })
+    }
+
+    /// Reports a formula of the controller (or the candidate) that came to depend on a true
+    /// value through `ddt(…)` of a state, whose dynamics use it.
+    fn no_true_values(&mut self, dag: &Dag, id: ExprId, base: usize, text: &str, what: &str) {
+        let used: Vec<String> = dag
+            .symbols(id)
+            .into_iter()
+            .filter(|s| self.decl.get(s).map(|d| d.0) == Some(SymbolKind::Uncertain))
+            .collect();
+        if let Some(u) = used.first() {
+            self.err(
+                Diagnostic::new(
+                    "uncertain-in-law",
+                    format!(
+                        "{what} depends on `{u}`, the plant's true value, through ddt(…) of a state whose dynamics use it"
+                    ),
+                    base..base + text.len().max(1),
+                )
+                .label("uses the true dynamics")
+                .hint("write the derivative from estimates, e.g. ddt(ref(…)), or move the true value out of the dynamics"),
+            );
+        }
+    }
+
+    /// Declares an uncertain quantity: the plant's true value of a signal or an input.
+    fn declare_uncertain(&mut self, n: &SpannedStr, u: &RawUncertain) {
+        let ok = self.declare(n, SymbolKind::Uncertain);
+        let span = self.name_span(&u.estimate);
+        let estimate = self
+            .symbols
+            .iter()
+            .find(|s| s.name == u.estimate.value)
+            .map(|s| (s.kind, s.unit.clone(), s.dim));
+        let (unit, dim) = match estimate {
+            Some((SymbolKind::Signal | SymbolKind::Input, unit, dim)) => (unit, dim),
+            Some((k, _, _)) => {
+                self.err(
+                    Diagnostic::new(
+                        "bad-uncertain",
+                        format!(
+                            "`{}` is a {}; an uncertain quantity is the true value of a signal or an input",
+                            u.estimate.value,
+                            k.name()
+                        ),
+                        span,
+                    )
+                    .label("not a signal or input"),
+                );
+                return;
+            }
+            None => {
+                let mut names = self.names_of(SymbolKind::Signal);
+                names.extend(self.names_of(SymbolKind::Input));
+                self.err(unknown(
+                    "unknown-symbol",
+                    &u.estimate.value,
+                    "signal or input",
+                    span,
+                    names,
+                ));
+                return;
+            }
+        };
+        let (form, raw_range) = match (&u.relative, &u.absolute) {
+            (Some(r), None) => (ErrorForm::Relative, r),
+            (None, Some(a)) => (ErrorForm::Absolute, a),
+            _ => {
+                let span = self.name_span(n);
+                self.err(
+                    Diagnostic::new(
+                        "bad-uncertain",
+                        format!(
+                            "uncertain `{}` needs exactly one of `relative: [min, max]` and `absolute: [min, max]`",
+                            n.value
+                        ),
+                        span,
+                    )
+                    .hint("relative: true = estimate·(1 + error); absolute: true = estimate + error (in the estimate's unit)"),
+                );
+                return;
+            }
+        };
+        let Some((lo, hi)) = self.pair(raw_range, "error range") else {
+            return;
+        };
+        if form == ErrorForm::Relative && lo <= -1.0 {
+            let span = range_of(self.src, raw_range);
+            self.err(
+                Diagnostic::new(
+                    "bad-uncertain",
+                    format!(
+                        "a relative error of {lo} would make the true value zero or flip its sign"
+                    ),
+                    span,
+                )
+                .label("must be above -1"),
+            );
+            return;
+        }
+        if ok {
+            let i = self.push_symbol(&n.value, SymbolKind::Uncertain, &unit, dim);
+            self.symbols[i].range = Some((lo, hi));
+            self.symbols[i].estimate = Some((u.estimate.value.clone(), form));
+        }
+    }
+
+    /// The claim, and the required bounds of an ultimate-bound claim.
+    fn claim(&mut self, raw: &RawSpec) -> (Claim, Vec<(String, f64)>) {
+        let span = range_of(self.src, &raw.lyapunov.claim);
+        let hint = "use negative_definite, negative_semidefinite, { exponential: RATE } or { ultimate_bound: auto | { STATE: BOUND, … } }";
+        let states = self.names_of(SymbolKind::State);
+        let bad = |what: String| Diagnostic::new("bad-claim", what, span.clone()).hint(hint);
+        match &raw.lyapunov.claim.value {
+            RawClaim::Named(s) if s == "negative_definite" => {
+                return (Claim::NegativeDefinite, vec![])
+            }
+            RawClaim::Named(s) if s == "negative_semidefinite" => {
+                return (Claim::NegativeSemidefinite, vec![])
+            }
+            RawClaim::Exponential { exponential }
+                if *exponential > 0.0 && exponential.is_finite() =>
+            {
+                return (Claim::Exponential(*exponential), vec![])
+            }
+            RawClaim::Named(s) => self.err(bad(format!("unknown claim `{s}`"))),
+            RawClaim::Exponential { exponential } => self.err(bad(format!(
+                "exponential rate {exponential} must be positive and finite"
+            ))),
+            RawClaim::Bound { ultimate_bound } => {
+                let required: Vec<(String, f64)> = match ultimate_bound {
+                    RawBound::Auto(s) if s == "auto" => Vec::new(),
+                    RawBound::Auto(s) => {
+                        self.err(bad(format!(
+                            "ultimate_bound takes `auto` or bounds per state error, not `{s}`"
+                        )));
+                        return (Claim::UltimateBound, vec![]);
+                    }
+                    RawBound::List(v) => {
+                        if v.len() != states.len() {
+                            self.err(bad(format!(
+                                "ultimate_bound lists {} bounds for {} states ({})",
+                                v.len(),
+                                states.len(),
+                                states.join(", ")
+                            )));
+                            return (Claim::UltimateBound, vec![]);
+                        }
+                        states.iter().cloned().zip(v.iter().copied()).collect()
+                    }
+                    RawBound::Map(m) => {
+                        for k in m.keys() {
+                            if !states.contains(k) {
+                                let mut d = bad(format!(
+                                    "ultimate_bound names `{k}`, which is not a state"
+                                ));
+                                if let Some(s) = nearest(k, states.iter().map(String::as_str)) {
+                                    d = d.hint(format!("did you mean `{s}`?"));
+                                }
+                                self.err(d);
+                            }
+                        }
+                        states
+                            .iter()
+                            .filter_map(|s| Some((s.clone(), *m.get(s)?)))
+                            .collect()
+                    }
+                };
+                if let Some((s, b)) = required.iter().find(|(_, b)| !(*b > 0.0 && b.is_finite())) {
+                    self.err(bad(format!(
+                        "the bound on `{s}` must be positive and finite, not {b}"
+                    )));
+                }
+                return (Claim::UltimateBound, required);
+            }
+        }
+        (Claim::NegativeDefinite, vec![])
     }
 
     fn names_of(&self, kind: SymbolKind) -> Vec<String> {

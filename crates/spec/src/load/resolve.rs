@@ -55,6 +55,7 @@ impl Loader<'_> {
             text,
             law_index: None,
             dynamics: ctx_dyn,
+            plant: false,
         };
         let id = self.lower_in(dag, &ast, &ctx)?;
         self.defs.get_mut(name)?.lowered = Some(id);
@@ -69,6 +70,8 @@ pub(super) struct Ctx<'a> {
     pub(super) law_index: Option<usize>,
     /// Dynamics available to `ddt`.
     pub(super) dynamics: Option<&'a HashMap<String, ExprId>>,
+    /// Lowering the plant's dynamics: uncertain quantities (true values) may be used.
+    pub(super) plant: bool,
 }
 
 struct SpecResolver<'l, 's, 'c> {
@@ -98,6 +101,17 @@ impl Resolver for SpecResolver<'_, '_, '_> {
                 hint: None,
             });
         };
+        if sym.kind == SymbolKind::Uncertain && !self.ctx.plant {
+            let estimate = sym.estimate.as_ref().map_or("", |e| e.0.as_str());
+            return Err(LowerError {
+                class: "uncertain-in-law",
+                message: format!(
+                    "`{name}` is the plant's true value, which the controller does not know; only the dynamics may use it"
+                ),
+                span,
+                hint: Some(format!("use its estimate `{estimate}`")),
+            });
+        }
         if sym.kind == SymbolKind::Input {
             let idx = self
                 .loader
