@@ -10,11 +10,12 @@
 //!
 //! Non-finite numbers are written as the strings `"inf"`, `"-inf"`, `"nan"` (JSON has none).
 
+use crate::bound::{above, sublevel_root, BoundReport, Side};
 use crate::check::{CheckReport, GoalKind, Prepared, Status, Verdict};
-use crate::goal::{Feasibility, Scratch, Test};
+use crate::goal::{Compiled, Feasibility, Scratch, Test};
 use crate::hessian::Method;
 use crate::interval::Interval;
-use crate::search::{halves, reconfirm, Counter, Evidence};
+use crate::search::{halves, reconfirm, Counter, Evidence, Tree};
 use rayon::prelude::*;
 use serde_json::{json, Map, Value};
 use sha2::{Digest, Sha256};
@@ -96,7 +97,59 @@ fn evidence_json(bx: &[Interval], ev: &Evidence) -> Value {
             json!({"box": b, "hessian": {"method": m.name(), "value": num(*v)}})
         }
         Evidence::Excluded(i) => json!({"box": b, "excluded": i}),
+        Evidence::BelowLevel(v) => json!({"box": b, "below_level": pair(v)}),
     }
+}
+
+fn tree_json(o: &mut Map<String, Value>, tree: &Tree) -> usize {
+    o.insert("tree".into(), json!(tree.shape));
+    o.insert(
+        "leaves".into(),
+        Value::Array(
+            tree.leaves
+                .iter()
+                .map(|(b, e)| evidence_json(b, e))
+                .collect(),
+        ),
+    );
+    tree.leaves.len()
+}
+
+/// The ultimate-bound section of a certificate: the level, the bounds and every sublevel
+/// proof with its tree.
+fn bound_json(b: &BoundReport, prepared: &Prepared) -> (Value, usize) {
+    let sub = prepared.sublevel.as_ref();
+    let mut leaves = 0;
+    let proofs: Vec<Value> = b
+        .sublevel
+        .iter()
+        .map(|p| {
+            let mut o = Map::new();
+            let name = sub.map_or("?", |g| g.names[p.coordinate].as_str());
+            o.insert("coordinate".into(), json!(name));
+            o.insert("side".into(), json!(p.side.name()));
+            o.insert("from".into(), num(p.from));
+            o.insert("level".into(), num(p.level));
+            o.insert("boxes".into(), json!(p.report.boxes));
+            if let Some(t) = &p.report.tree {
+                leaves += tree_json(&mut o, t);
+            }
+            Value::Object(o)
+        })
+        .collect();
+    let v = json!({
+        "level": num(b.level),
+        "refuted_level": b.refuted_level.map(num),
+        "attraction": num(b.attraction),
+        "bounds": b.bounds.iter().map(|e| json!({
+            "state": e.state, "unit": e.unit, "lower": num(e.lower), "upper": num(e.upper),
+        })).collect::<Vec<_>>(),
+        "required": b.required.iter().map(|(s, x, met)| json!({
+            "state": s, "bound": num(*x), "met": met,
+        })).collect::<Vec<_>>(),
+        "sublevel": proofs,
+    });
+    (v, leaves)
 }
 
 /// Where a certificate came from and how it was searched.
@@ -163,17 +216,12 @@ pub fn certificate(report: &CheckReport, prepared: &Prepared, origin: &Origin) -
             o.insert("counterexample".into(), cj);
         }
         if let Some(tree) = r.search.as_ref().and_then(|s| s.tree.as_ref()) {
-            leaves_total += tree.leaves.len();
-            o.insert("tree".into(), json!(tree.shape));
-            o.insert(
-                "leaves".into(),
-                Value::Array(
-                    tree.leaves
-                        .iter()
-                        .map(|(b, e)| evidence_json(b, e))
-                        .collect(),
-                ),
-            );
+            leaves_total += tree_json(&mut o, tree);
+        }
+        if let (GoalKind::Claim, Some(b)) = (g.kind, &report.bound) {
+            let (v, n) = bound_json(b, prepared);
+            leaves_total += n;
+            o.insert("ultimate_bound".into(), v);
         }
         goals.push(Value::Object(o));
     }
@@ -301,8 +349,18 @@ pub fn recheck(
         }
         let status = field(gj, "status", &at)?.as_str().unwrap_or("");
         statuses.push(status.to_string());
+        // an ultimate bound's claim goal is proved at the certificate's level
+        let mut at_level = None;
+        if let (GoalKind::Claim, Some(_)) = (pg.kind, &prepared.sublevel) {
+            if status == "proven" {
+                let (level, leaves) = recheck_bound(gj, prepared, &at)?;
+                out.leaves += leaves;
+                at_level = Some(crate::bound::at_level(c, level));
+            }
+        }
+        let c = at_level.as_ref().unwrap_or(c);
         match status {
-            "proven" => out.leaves += recheck_tree(gj, prepared, gi, &at)?,
+            "proven" => out.leaves += recheck_tree(gj, c, prepared.root(gi), &at)?,
             "refuted" => {
                 let cx = field(gj, "counterexample", &at)?;
                 let bad = || Rejection(format!("{at}: malformed counterexample"));
@@ -357,10 +415,144 @@ pub fn recheck(
     Ok(out)
 }
 
+/// Re-checks the ultimate-bound section of a proven claim: every sublevel proof's tree, and
+/// that the proofs present imply the stated bounds and region of attraction. Returns the
+/// level the claim goal must be proved at, and the leaves re-evaluated.
+fn recheck_bound(gj: &Value, prepared: &Prepared, at: &str) -> Result<(f64, usize), Rejection> {
+    let sub = prepared
+        .sublevel
+        .as_ref()
+        .ok_or_else(|| Rejection(format!("{at}: the spec's claim has no ultimate bound")))?;
+    let b = field(gj, "ultimate_bound", at)?;
+    let bad = |what: &str| Rejection(format!("{at}: malformed ultimate bound ({what})"));
+    let level = field(b, "level", at)
+        .ok()
+        .and_then(parse_num)
+        .ok_or_else(|| bad("level"))?;
+    let attraction = field(b, "attraction", at)
+        .ok()
+        .and_then(parse_num)
+        .ok_or_else(|| bad("attraction"))?;
+    if !(level >= 0.0 && level.is_finite() && attraction >= 0.0 && attraction.is_finite()) {
+        return Err(bad("level"));
+    }
+    let root = prepared.sublevel_root();
+    let mut proved: Vec<(usize, Side, f64, f64)> = Vec::new();
+    let mut leaves = 0;
+    for (i, p) in field(b, "sublevel", at)?
+        .as_array()
+        .ok_or_else(|| bad("sublevel"))?
+        .iter()
+        .enumerate()
+    {
+        let name = p.get("coordinate").and_then(Value::as_str).unwrap_or("");
+        let k = sub
+            .names
+            .iter()
+            .position(|n| n == name)
+            .filter(|k| sub.errors.contains(k))
+            .ok_or_else(|| bad("coordinate"))?;
+        let side = p
+            .get("side")
+            .and_then(Value::as_str)
+            .and_then(Side::from_name)
+            .ok_or_else(|| bad("side"))?;
+        let from = p
+            .get("from")
+            .and_then(parse_num)
+            .ok_or_else(|| bad("from"))?;
+        let lv = p
+            .get("level")
+            .and_then(parse_num)
+            .ok_or_else(|| bad("level"))?;
+        if !root[k].contains(from) {
+            return Err(bad("from"));
+        }
+        let g = above(sub, lv);
+        let r = sublevel_root(&root, k, side, from);
+        leaves += recheck_tree(p, &g, r, &format!("{at}, sublevel proof {}", i + 1))?;
+        proved.push((k, side, from, lv));
+    }
+    // every face of the error box at the attraction level
+    for &k in &sub.errors {
+        for end in [root[k].lo(), root[k].hi()] {
+            if end != 0.0
+                && attraction > 0.0
+                && !proved
+                    .iter()
+                    .any(|&(pk, s, f, l)| pk == k && s == Side::Face && f == end && l == attraction)
+            {
+                return reject(format!(
+                    "{at}: no proof that V > {attraction} on the face {} = {end}",
+                    sub.names[k]
+                ));
+            }
+        }
+    }
+    if level > 0.0 && level >= attraction {
+        return reject(format!(
+            "{at}: the level {level} is not below the region of attraction {attraction}"
+        ));
+    }
+    // every stated bound by a proof at the level
+    for e in field(b, "bounds", at)?
+        .as_array()
+        .ok_or_else(|| bad("bounds"))?
+    {
+        let state = e.get("state").and_then(Value::as_str).unwrap_or("");
+        let k = sub
+            .errors
+            .iter()
+            .copied()
+            .find(|&k| prepared.problem.variables[sub.dims[k]].symbol == state)
+            .ok_or_else(|| bad("bounds"))?;
+        let lower = e
+            .get("lower")
+            .and_then(parse_num)
+            .ok_or_else(|| bad("bounds"))?;
+        let upper = e
+            .get("upper")
+            .and_then(parse_num)
+            .ok_or_else(|| bad("bounds"))?;
+        let covered = |side: Side, b: f64, end: f64| {
+            ((level == 0.0 || end == 0.0) && b == 0.0)
+                || proved
+                    .iter()
+                    .any(|&(pk, s, f, l)| pk == k && s == side && f == b && l == level)
+        };
+        if !covered(Side::Upper, upper, root[k].hi()) || !covered(Side::Lower, lower, root[k].lo())
+        {
+            return reject(format!(
+                "{at}: the bound [{lower}, {upper}] on `{state}` is not proved at level {level}"
+            ));
+        }
+        if let Some(req) = field(b, "required", at)?.as_array() {
+            for r in req {
+                if r.get("state").and_then(Value::as_str) == Some(state) {
+                    let need = r
+                        .get("bound")
+                        .and_then(parse_num)
+                        .ok_or_else(|| bad("required"))?;
+                    if lower.abs().max(upper.abs()) > need {
+                        return reject(format!(
+                            "{at}: the bound on `{state}` exceeds the required {need}"
+                        ));
+                    }
+                }
+            }
+        }
+    }
+    Ok((level, leaves))
+}
+
 /// Walks a goal's split tree from the root box, checks every recorded leaf box against the
 /// recomputed one, and re-evaluates every leaf's evidence in parallel. Returns the leaf count.
-fn recheck_tree(gj: &Value, prepared: &Prepared, gi: usize, at: &str) -> Result<usize, Rejection> {
-    let c = &prepared.goals[gi].compiled;
+fn recheck_tree(
+    gj: &Value,
+    c: &Compiled,
+    root: Vec<Interval>,
+    at: &str,
+) -> Result<usize, Rejection> {
     let shape: Vec<i64> = field(gj, "tree", at)?
         .as_array()
         .and_then(|a| a.iter().map(Value::as_i64).collect())
@@ -370,7 +562,7 @@ fn recheck_tree(gj: &Value, prepared: &Prepared, gi: usize, at: &str) -> Result<
         .ok_or_else(|| Rejection(format!("{at}: `leaves` is not a list")))?;
     // recompute the leaf boxes from the shape
     let mut boxes = Vec::new();
-    let mut stack = vec![prepared.root(gi)];
+    let mut stack = vec![root];
     let mut pos = 0;
     while let Some(bx) = stack.pop() {
         let Some(&s) = shape.get(pos) else {
@@ -442,6 +634,17 @@ fn recheck_tree(gj: &Value, prepared: &Prepared, gi: usize, at: &str) -> Result<
                     return Some(format!(
                         "leaf {li}: recorded Hessian value {value} but the box gives {v}"
                     ));
+                }
+            } else if let Some(v) = leaf.get("below_level") {
+                let recorded = parse_pair(v);
+                match c.feasibility(bx, s) {
+                    Feasibility::Below(f) if Some(f) == recorded && f.hi() < c.level => {}
+                    _ => {
+                        return Some(format!(
+                            "leaf {li}: V is not below the level {} on its box",
+                            c.level
+                        ))
+                    }
                 }
             } else if let Some(i) = leaf.get("excluded").and_then(Value::as_u64) {
                 if c.feasibility(bx, s) != Feasibility::None(i as usize) {

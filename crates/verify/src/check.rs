@@ -1,6 +1,7 @@
 //! `check`: well-posedness, V positive definite, and the claim, each falsified by sampling and
 //! then proved by branch and bound; plus the actuator saturation shares.
 
+use crate::bound::{ultimate_bound, BoundOutcome, BoundReport, BoundSettings};
 use crate::goal::{Compiled, Goal, Test};
 use crate::interval::Interval;
 use crate::problem::{exact, Problem, ProofForms, Variable};
@@ -19,6 +20,8 @@ pub struct Settings {
     pub samples: usize,
     /// Limits of each branch-and-bound search.
     pub budget: Budget,
+    /// Tolerances of an ultimate-bound claim's bisections.
+    pub bound: BoundSettings,
 }
 
 impl Default for Settings {
@@ -28,6 +31,7 @@ impl Default for Settings {
         Settings {
             samples: 20_000,
             budget: Budget::default(),
+            bound: BoundSettings::default(),
         }
     }
 }
@@ -168,6 +172,8 @@ pub struct CheckReport {
     pub boxes: usize,
     /// Wall time of the whole check.
     pub seconds: f64,
+    /// For an ultimate-bound claim: the level, the bounds and their proofs.
+    pub bound: Option<BoundReport>,
 }
 
 /// A check that could not run (the spec is unusable for a proof).
@@ -270,6 +276,7 @@ fn condition_goal(problem: &mut Problem, c: &Cond) -> (Goal, Vec<Cond>) {
             expr,
             test,
             origin: false,
+            region: None,
         },
         more,
     )
@@ -335,12 +342,21 @@ fn claim_goal(problem: &mut Problem, forms: &ProofForms, claim: Claim) -> Goal {
             expr: forms.vdot,
             test: Test::Negative { strict: true },
             origin: true,
+            region: None,
         },
         Claim::NegativeSemidefinite => Goal {
             label: "dV/dt <= 0".into(),
             expr: forms.vdot,
             test: Test::Negative { strict: false },
             origin: true,
+            region: None,
+        },
+        Claim::UltimateBound => Goal {
+            label: "dV/dt < 0 wherever V >= c".into(),
+            expr: forms.vdot,
+            test: Test::Negative { strict: true },
+            origin: true,
+            region: Some(forms.candidate),
         },
         Claim::Exponential(rate) => {
             let two_rate = exact(rate) * BigRational::from_integer(2.into());
@@ -353,6 +369,7 @@ fn claim_goal(problem: &mut Problem, forms: &ProofForms, claim: Claim) -> Goal {
                 expr,
                 test: Test::Negative { strict: false },
                 origin: true,
+                region: None,
             }
         }
     }
@@ -381,6 +398,11 @@ pub struct Prepared {
     pub goals: Vec<PreparedGoal>,
     /// The claim.
     pub claim: Claim,
+    /// For an ultimate-bound claim: the goal `V > level` over V's coordinates (its test is
+    /// set per proof), and the required bounds.
+    pub sublevel: Option<Compiled>,
+    /// Required bounds of an ultimate-bound claim (state, bound).
+    pub required: Vec<(String, f64)>,
     full: FullTapes,
 }
 
@@ -439,6 +461,7 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
             expr: neg_v,
             test: Test::Negative { strict: true },
             origin: true,
+            region: None,
         },
     ));
     let cg = claim_goal(&mut problem, &forms, spec.claim);
@@ -452,6 +475,25 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
             compiled: Compiled::new(&mut problem, g).map_err(CheckError)?,
         });
     }
+    let sublevel = match spec.claim {
+        Claim::UltimateBound => Some(
+            Compiled::new(
+                &mut problem,
+                Goal {
+                    label: "V > c".into(),
+                    expr: forms.candidate,
+                    test: Test::Within {
+                        lo: 0.0,
+                        hi: f64::INFINITY,
+                    },
+                    origin: false,
+                    region: None,
+                },
+            )
+            .map_err(CheckError)?,
+        ),
+        _ => None,
+    };
     let names: Vec<String> = problem.variables.iter().map(|v| v.name.clone()).collect();
     let name_refs: Vec<&str> = names.iter().map(String::as_str).collect();
     let full = FullTapes {
@@ -468,6 +510,8 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
         forms,
         goals: prepared_goals,
         claim: spec.claim,
+        sublevel,
+        required: spec.required_bounds.clone(),
         full,
     })
 }
@@ -476,6 +520,18 @@ impl Prepared {
     /// The root box of a goal.
     pub fn root(&self, goal: usize) -> Vec<Interval> {
         root_of(&self.problem, &self.goals[goal].compiled.dims)
+    }
+
+    /// The root box of the sublevel goal (empty without one).
+    pub fn sublevel_root(&self) -> Vec<Interval> {
+        self.sublevel
+            .as_ref()
+            .map_or(Vec::new(), |g| root_of(&self.problem, &g.dims))
+    }
+
+    /// Index of the claim's goal.
+    pub fn claim_index(&self) -> Option<usize> {
+        self.goals.iter().position(|g| g.kind == GoalKind::Claim)
     }
 
     /// A counterexample of goal `goal` at `point` (over its dims) in every symbol.
@@ -531,6 +587,7 @@ pub fn check(
     let mut results = Vec::new();
     let mut failed = false;
     let mut boxes = 0;
+    let mut bound = None;
     for (gi, pg) in prepared.goals.iter().enumerate() {
         let c = &pg.compiled;
         let g = &c.goal;
@@ -553,6 +610,34 @@ pub fn check(
             continue;
         }
         let root = prepared.root(gi);
+        if let (GoalKind::Claim, Some(sub)) = (pg.kind, &prepared.sublevel) {
+            let b = ultimate_bound(
+                &prepared.problem,
+                c,
+                &root,
+                sub,
+                &prepared.sublevel_root(),
+                &prepared.required,
+                settings,
+                &settings.bound,
+                progress,
+            );
+            boxes += b.boxes;
+            r.status = match &b.outcome {
+                BoundOutcome::Proven => Status::Proven,
+                BoundOutcome::Refuted(cx, _) => Status::Refuted(cx.clone()),
+                BoundOutcome::Inconclusive(why) => Status::Inconclusive(why.clone()),
+            };
+            r.label = match (&b.outcome, b.level > 0.0 || !b.bounds.is_empty()) {
+                (BoundOutcome::Proven, false) => "dV/dt < 0 wherever the error is not zero".into(),
+                (_, true) => format!("dV/dt < 0 wherever V >= {:.4e}", b.level),
+                _ => "dV/dt < 0 wherever V >= c, for a level c inside the error box".into(),
+            };
+            r.search = b.level_report.clone();
+            bound = Some(b);
+            results.push(r);
+            continue;
+        }
         let sampled = falsify(c, &root, settings.samples);
         if let Some(cx) = sampled.counter.clone() {
             r.status = Status::Refuted(cx);
@@ -627,6 +712,7 @@ pub fn check(
         min_margin,
         boxes,
         seconds: start.elapsed().as_secs_f64(),
+        bound,
     };
     Ok((report, prepared))
 }

@@ -91,10 +91,13 @@ pub struct Goal {
     pub test: Test,
     /// The test is exempt where every error is zero (Lyapunov statements).
     pub origin: bool,
+    /// The goal is asked only where this expression (V, for an ultimate bound) is at least
+    /// [`Compiled::level`]; elsewhere it holds vacuously.
+    pub region: Option<ExprId>,
 }
 
 /// A goal compiled to tapes over its own coordinates (`dims`).
-#[derive(Debug)]
+#[derive(Clone, Debug)]
 pub struct Compiled {
     /// The goal.
     pub goal: Goal,
@@ -111,19 +114,28 @@ pub struct Compiled {
     /// Positions (in `dims`) of the non-error coordinates `f` is affine in (∂²f/∂x² ≡ 0):
     /// bounds over them are taken at the vertices of their sub-box instead of by splitting.
     pub affine: Vec<usize>,
+    /// With a region: the goal is asked only where the region's expression is at least this
+    /// level (no restriction while it is 0 or below).
+    pub level: f64,
     value: Tape,
     grad: Tape,
     hessian: Option<Tape>,
     constraints: Vec<(Tape, bool, usize)>,
+    /// The region's expression with its gradient, and alone.
+    region: Option<(Tape, Tape)>,
 }
 
 /// How a box stands with respect to the gain constraints.
-#[derive(Copy, Clone, Debug, PartialEq, Eq)]
+#[derive(Copy, Clone, Debug, PartialEq)]
 pub enum Feasibility {
     /// Every point meets every constraint.
     All,
     /// Constraint `i` fails at every point.
     None(usize),
+    /// The region's expression is below the level at every point (its enclosure).
+    Below(Interval),
+    /// Every constraint holds, but the box straddles the level of the region.
+    Straddles,
     /// Undecided.
     Some,
 }
@@ -178,6 +190,17 @@ impl Compiled {
         let mut dims = problem
             .coordinates_of(goal.expr)
             .map_err(|s| format!("`{s}` is not a coordinate of the proof domain"))?;
+        if let Some(r) = goal.region {
+            let more = problem
+                .coordinates_of(r)
+                .map_err(|s| format!("`{s}` is not a coordinate of the proof domain"))?;
+            for d in more {
+                if !dims.contains(&d) {
+                    dims.push(d);
+                }
+            }
+            dims.sort_unstable();
+        }
         if goal.origin {
             for e in problem.errors() {
                 if !dims.contains(&e) {
@@ -259,8 +282,25 @@ impl Compiled {
                 ));
             }
         }
+        let region = match goal.region {
+            Some(r) => {
+                let dag = &mut problem.dag;
+                let mut roots = vec![r];
+                for n in &names {
+                    let d = derivative(dag, r, n);
+                    roots.push(simplify_plain(dag, d));
+                }
+                Some((
+                    Tape::compile(dag, &roots, &name_refs)?,
+                    Tape::compile(dag, &[r], &name_refs)?,
+                ))
+            }
+            None => None,
+        };
         Ok(Compiled {
             text: to_text(&problem.dag, f),
+            level: 0.0,
+            region,
             goal,
             dims,
             names,
@@ -318,6 +358,45 @@ impl Compiled {
         }
         let at_vertices = Interval::new(lo, hi);
         (whole.intersect(&at_vertices), grad)
+    }
+
+    /// The point `p` with its affine coordinates moved to the vertex of `bx` where the test is
+    /// closest to failing (f64 evaluations): where a box's worst case lies, since `f` is
+    /// multilinear in them. None when no affine coordinate has width.
+    pub fn worst_vertex(&self, p: &[f64], bx: &[Interval], s: &mut Scratch) -> Option<Vec<f64>> {
+        let free: Vec<usize> = self
+            .affine
+            .iter()
+            .copied()
+            .filter(|&k| bx[k].width() > 0.0)
+            .collect();
+        if free.is_empty() {
+            return None;
+        }
+        let mut x = p.to_vec();
+        let mut best: Option<(f64, u64)> = None;
+        for mask in 0..1u64 << free.len() {
+            for (bit, &k) in free.iter().enumerate() {
+                x[k] = if mask & (1 << bit) != 0 {
+                    bx[k].hi()
+                } else {
+                    bx[k].lo()
+                };
+            }
+            let slack = self.goal.test.slack(self.value(&x, s));
+            if slack.is_finite() && best.is_none_or(|(b, _)| slack < b) {
+                best = Some((slack, mask));
+            }
+        }
+        let (_, mask) = best?;
+        for (bit, &k) in free.iter().enumerate() {
+            x[k] = if mask & (1 << bit) != 0 {
+                bx[k].hi()
+            } else {
+                bx[k].lo()
+            };
+        }
+        Some(x)
     }
 
     /// The boxes with every affine coordinate of non-zero width at one end of its interval
@@ -452,11 +531,65 @@ impl Compiled {
             let surely_true = if *strict { g.hi() < 0.0 } else { g.hi() <= 0.0 };
             all &= surely_true;
         }
+        if let Some(v) = self.region_enclosure(bx, s) {
+            if v.hi() < self.level {
+                return Feasibility::Below(v);
+            }
+            if all && v.lo() < self.level {
+                return Feasibility::Straddles;
+            }
+        }
         if all {
             Feasibility::All
         } else {
             Feasibility::Some
         }
+    }
+
+    /// True when the goal is restricted to a region (a positive level is set).
+    pub fn restricted(&self) -> bool {
+        self.region.is_some() && self.level > 0.0
+    }
+
+    /// Enclosure of the region's expression over a box (natural extension intersected with
+    /// the centered form), while the goal is restricted.
+    pub fn region_enclosure(&self, bx: &[Interval], s: &mut Scratch) -> Option<Interval> {
+        if !self.restricted() {
+            return None;
+        }
+        let (tape, _) = self.region.as_ref()?;
+        let n = self.dims.len();
+        s.out.clear();
+        s.out.resize(n + 1, Interval::point(0.0));
+        tape.run(bx, &mut s.iv, &mut s.out);
+        let natural = s.out[0];
+        let grad: Vec<Interval> = s.out[1..].to_vec();
+        if natural.is_empty() || grad.iter().any(|g| !g.is_finite()) {
+            return Some(natural);
+        }
+        s.point.clear();
+        s.point.extend(bx.iter().map(|x| Interval::point(x.mid())));
+        let mut at_mid = vec![Interval::point(0.0); n + 1];
+        tape.run(&s.point, &mut s.iv, &mut at_mid);
+        let mut centered = at_mid[0];
+        for k in 0..n {
+            if bx[k].width() > 0.0 {
+                let dx = bx[k].add(&Interval::point(-bx[k].mid()));
+                centered = centered.add(&grad[k].mul(&dx));
+            }
+        }
+        if centered.is_empty() || !centered.is_finite() {
+            return Some(natural);
+        }
+        Some(natural.intersect(&centered))
+    }
+
+    /// The region's expression in f64 at a point (None when the goal has no region).
+    pub fn region_value(&self, x: &[f64], s: &mut Scratch) -> Option<f64> {
+        let (_, tape) = self.region.as_ref()?;
+        let mut out = [0.0];
+        tape.eval_into(x, &mut s.f, &mut out);
+        Some(out[0])
     }
 
     /// Do the constraints provably hold at this point?
@@ -490,11 +623,19 @@ impl Compiled {
                 *ok &= if *strict { *g < 0.0 } else { *g <= 0.0 };
             }
         }
+        if let (true, Some((_, tape))) = (self.restricted(), &self.region) {
+            s.out_batch.clear();
+            s.out_batch.resize(lanes, 0.0);
+            tape.eval_batch(cols, lanes, &mut s.batch, &mut s.out_batch);
+            for (ok, v) in feasible.iter_mut().zip(&s.out_batch) {
+                *ok &= *v >= self.level;
+            }
+        }
     }
 
     /// Does the f64 point meet the constraints (cheap pre-filter for sampling)?
     pub fn feasible_f64(&self, x: &[f64], s: &mut Scratch) -> bool {
-        self.constraints.iter().all(|(tape, strict, _)| {
+        let constraints = self.constraints.iter().all(|(tape, strict, _)| {
             let mut out = [0.0];
             tape.eval_into(x, &mut s.f, &mut out);
             if *strict {
@@ -502,7 +643,9 @@ impl Compiled {
             } else {
                 out[0] <= 0.0
             }
-        })
+        });
+        constraints
+            && (!self.restricted() || self.region_value(x, s).is_some_and(|v| v >= self.level))
     }
 
     /// True when every error coordinate of the box contains zero.

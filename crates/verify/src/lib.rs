@@ -5,7 +5,8 @@
 //! references, their rates, the signals, the gains); parameters are exact constants. Every
 //! question is a [`Goal`]: a well-posedness condition of the laws (an `asin` argument in
 //! [−1, 1], a denominator away from zero, …), `V > 0` away from zero error, and the claim
-//! (`V̇ < 0`, `V̇ ≤ 0` or `V̇ ≤ −2λV`). Each goal is first sampled (a low-discrepancy sequence, the
+//! (`V̇ < 0`, `V̇ ≤ 0`, `V̇ ≤ −2λV`, or — with estimate errors — V̇ < 0 wherever V ≥ c, an
+//! ultimate bound). Each goal is first sampled (a low-discrepancy sequence, the
 //! corners, points near zero error and on its coordinate planes) and then proved by branch and
 //! bound with sound interval arithmetic in centered form; near zero error, where `V̇` and its
 //! gradient vanish, an interval Hessian test closes the proof (Taylor's theorem).
@@ -31,16 +32,22 @@
 //! ```
 #![deny(missing_docs)]
 
+mod bound;
 mod certificate;
 mod check;
 mod goal;
 mod hessian;
 mod interval;
+mod margin;
 mod problem;
 pub mod report;
 mod sample;
 mod search;
 
+pub use bound::{
+    at_level, sublevel_root, ultimate_bound, BoundOutcome, BoundReport, BoundSettings, ErrorBound,
+    LevelStep, Side, SublevelProof,
+};
 pub use certificate::{
     certificate, recheck, sha256_hex, Origin, Rechecked, Rejection, CERTIFICATE_VERSION,
 };
@@ -51,6 +58,7 @@ pub use check::{
 pub use goal::{Compiled, Feasibility, Goal, Scratch, Test};
 pub use hessian::Method;
 pub use interval::{Interval, LIBM_ULPS};
+pub use margin::{margin, MarginPoint, MarginReport, MarginSettings};
 pub use problem::{error_name, exact as exact_decimal, Problem, ProofForms, Role, Variable};
 pub use sample::{falsify, generalized_golden_ratio, PointSet, Sampled, Sequence};
 pub use search::{search, Budget, Counter, Evidence, Outcome, Report, Tree};

@@ -3,12 +3,13 @@
 //!
 //! A state's value is not a coordinate of its own: the envelope bounds its *error* around its
 //! reference, so the state `h` tracking `h_r` becomes `h_r + Δh` with `Δh` in the error box.
-//! The box is then a plain product of intervals (errors, references, rates, signals, gains),
-//! which is what branch and bound splits. Parameters are replaced by their exact values (the
+//! The box is then a plain product of intervals (errors, references, rates, signals, estimate
+//! errors, gains), which is what branch and bound splits. An uncertain quantity (the plant's
+//! true drag, say) is its estimate times `1 + δ` (or plus `δ`), and `δ` is a coordinate. Parameters are replaced by their exact values (the
 //! f64 the generated code will hold, as an exact rational), so they cost no dimension.
 
 use lawsmith_expr::{parse_decimal, AssumeAll, BigRational, Condition, Dag, ExprId, Simplifier};
-use lawsmith_spec::{Derivation, Spec, SymbolKind};
+use lawsmith_spec::{uncertainty_name, Derivation, ErrorForm, Spec, SymbolKind};
 use std::collections::HashMap;
 
 /// What a proof coordinate stands for.
@@ -22,6 +23,8 @@ pub enum Role {
     Rate,
     /// A measured or estimated signal.
     Signal,
+    /// The error of an estimate: the plant's true value differs from what the law sees.
+    Uncertainty,
     /// A run-time gain.
     Gain,
 }
@@ -34,6 +37,7 @@ impl Role {
             Role::Reference => "reference",
             Role::Rate => "rate",
             Role::Signal => "signal",
+            Role::Uncertainty => "uncertainty",
             Role::Gain => "gain",
         }
     }
@@ -73,7 +77,8 @@ pub struct ProofConstraint {
 pub struct Problem {
     /// The expression arena (a copy of the spec's, grown by the rewriting).
     pub dag: Dag,
-    /// The coordinates: errors, references, rates, signals, gains, in that order.
+    /// The coordinates: errors, references, rates, signals, estimate errors, gains, in that
+    /// order.
     pub variables: Vec<Variable>,
     /// Gain constraints.
     pub constraints: Vec<ProofConstraint>,
@@ -81,6 +86,9 @@ pub struct Problem {
     pub parameters: Vec<(String, f64)>,
     /// States: name, reference (or None), equilibrium value.
     states: Vec<(String, Option<String>, f64)>,
+    /// Uncertain quantities: name, estimate, form, and the error when its range is a point
+    /// (for reporting true values).
+    uncertain: Vec<(String, String, ErrorForm, Option<f64>)>,
     to_proof: HashMap<String, ExprId>,
 }
 
@@ -125,19 +133,41 @@ impl Problem {
                 s.equilibrium.unwrap_or(0.0),
             ));
         }
+        let mut uncertain = Vec::new();
         for (kind, role) in [
             (SymbolKind::Reference, Role::Reference),
             (SymbolKind::Rate, Role::Rate),
             (SymbolKind::Signal, Role::Signal),
+            (SymbolKind::Uncertain, Role::Uncertainty),
             (SymbolKind::Gain, Role::Gain),
         ] {
             for s in spec.symbols_of(kind) {
                 let (lo, hi) = s.range.unwrap_or((0.0, 0.0));
+                let (name, unit) = match &s.estimate {
+                    Some((estimate, form)) => {
+                        let known = (lo == hi).then_some(lo);
+                        uncertain.push((s.name.clone(), estimate.clone(), *form, known));
+                        let name = uncertainty_name(&s.name);
+                        if lo == hi {
+                            // a known error is a constant, not a coordinate: with zero error
+                            // the problem is exactly the one without the uncertainty
+                            let c = dag.num(exact(lo));
+                            to_proof.insert(name, c);
+                            continue;
+                        }
+                        let unit = match form {
+                            ErrorForm::Relative => "1".to_string(),
+                            ErrorForm::Absolute => s.unit.clone(),
+                        };
+                        (name, unit)
+                    }
+                    None => (s.name.clone(), s.unit.clone()),
+                };
                 variables.push(Variable {
-                    name: s.name.clone(),
+                    name,
                     symbol: s.name.clone(),
                     role,
-                    unit: s.unit.clone(),
+                    unit,
                     lo,
                     hi,
                 });
@@ -155,6 +185,7 @@ impl Problem {
             constraints: Vec::new(),
             parameters,
             states,
+            uncertain,
             to_proof,
         };
         for c in &spec.constraints {
@@ -245,7 +276,8 @@ impl Problem {
 
     /// The value of every base symbol at a full point of the domain (one value per
     /// coordinate): states as reference (or equilibrium) plus error, then references, rates,
-    /// signals, gains and parameters.
+    /// signals, estimate errors, gains and parameters, then the true value of every uncertain
+    /// quantity whose estimate is a signal.
     pub fn base_values(&self, point: &[f64]) -> Vec<(String, f64)> {
         let value = |name: &str| {
             self.index_of(name)
@@ -263,7 +295,29 @@ impl Problem {
             }
         }
         out.extend(self.parameters.iter().cloned());
+        for (name, estimate, form, known) in &self.uncertain {
+            let delta = match (self.index_of(&uncertainty_name(name)), known) {
+                (Some(d), _) => point[d],
+                (None, Some(c)) => *c,
+                (None, None) => continue,
+            };
+            let Some(e) = self.index_of(estimate) else {
+                continue;
+            };
+            let v = match form {
+                ErrorForm::Relative => point[e] * (1.0 + delta),
+                ErrorForm::Absolute => point[e] + delta,
+            };
+            out.push((name.clone(), v));
+        }
         out
+    }
+
+    /// Indices of the estimate-error coordinates.
+    pub fn uncertainties(&self) -> Vec<usize> {
+        (0..self.variables.len())
+            .filter(|&i| self.variables[i].role == Role::Uncertainty)
+            .collect()
     }
 }
 

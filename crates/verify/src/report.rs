@@ -1,5 +1,6 @@
 //! Rendering of a check report: readable text and JSON.
 
+use crate::bound::{BoundOutcome, BoundReport};
 use crate::check::{CheckReport, GoalKind, GoalResult, Status};
 use crate::goal::Test;
 use serde_json::{json, Map, Value};
@@ -49,7 +50,12 @@ fn goal_counts(r: &GoalResult) -> String {
         if s.by_hessian > 0 {
             how.push(format!("{} by Hessian", s.by_hessian));
         }
-        if s.excluded > 0 {
+        if s.excluded > 0 && r.kind == GoalKind::Claim && r.label.contains("V >=") {
+            how.push(format!(
+                "{} below the level or excluded by constraints",
+                s.excluded
+            ));
+        } else if s.excluded > 0 {
             how.push(format!("{} excluded by constraints", s.excluded));
         }
         if !how.is_empty() {
@@ -100,11 +106,18 @@ pub fn text(r: &CheckReport, path: &str, timings: bool) -> String {
         .map(|v| v.name.chars().count())
         .max()
         .unwrap_or(1);
+    let role_width = r
+        .variables
+        .iter()
+        .map(|v| v.role.name().len())
+        .max()
+        .unwrap_or(1)
+        .max(9);
     for v in &r.variables {
         let pad = width - v.name.chars().count();
         let _ = writeln!(
             s,
-            "  {}{} {:<9} [{}, {}] {}",
+            "  {}{} {:<role_width$} [{}, {}] {}",
             v.name,
             " ".repeat(pad),
             v.role.name(),
@@ -172,6 +185,9 @@ pub fn text(r: &CheckReport, path: &str, timings: bool) -> String {
                 }
             }
         }
+    }
+    if let Some(b) = &r.bound {
+        bound_text(&mut s, b);
     }
     if let Some(m) = r.min_margin {
         let f = match r.claim {
@@ -244,6 +260,126 @@ pub fn text(r: &CheckReport, path: &str, timings: bool) -> String {
     s
 }
 
+/// The claim with what was proved of it: for an ultimate bound, the level and the error
+/// bounds (the errors are bounded, not driven to zero); otherwise the claim's name. ASCII
+/// only: it goes into generated headers.
+pub fn claim_summary(r: &CheckReport) -> String {
+    match &r.bound {
+        Some(b) if matches!(b.outcome, BoundOutcome::Proven) && b.level > 0.0 => {
+            let bounds: Vec<String> = b
+                .bounds
+                .iter()
+                .map(|e| format!("|{} error| <= {} {}", e.state, sig(e.magnitude()), e.unit))
+                .collect();
+            format!(
+                "ultimate_bound: once V <= {}, {} (errors bounded, not driven to zero)",
+                sig(b.level),
+                bounds.join(", ")
+            )
+        }
+        Some(b) if matches!(b.outcome, BoundOutcome::Proven) => {
+            "ultimate_bound: c = 0, every error goes to zero".into()
+        }
+        _ => r.claim.name(),
+    }
+}
+
+/// The ultimate-bound section of the text report.
+fn bound_text(s: &mut String, b: &BoundReport) {
+    let _ = writeln!(s, "\nultimate bound:");
+    if b.level == 0.0 && matches!(b.outcome, BoundOutcome::Proven) {
+        let _ = writeln!(
+            s,
+            "  dV/dt < 0 wherever the error is not zero: every error goes to zero (c = 0)"
+        );
+    } else if !matches!(b.outcome, BoundOutcome::Proven) && b.bounds.is_empty() {
+        let _ = writeln!(
+            s,
+            "  no level proved ({} level proofs tried{})",
+            b.steps.len(),
+            b.refuted_level.map_or(String::new(), |r| format!(
+                "; a point with dV/dt >= 0 and V = {} rules out every level below it",
+                sig(r)
+            ))
+        );
+    } else {
+        let _ = writeln!(
+            s,
+            "  level    c = {} ({} level proofs; {})",
+            sig(b.level),
+            b.steps.len(),
+            b.refuted_level
+                .map_or("no level refuted".to_string(), |r| format!(
+                    "a point with dV/dt >= 0 and V = {} rules out every level below it",
+                    sig(r)
+                ))
+        );
+        if !b.bounds.is_empty() {
+            let _ = writeln!(s, "  inside {{V <= c}}, guaranteed:");
+            for e in &b.bounds {
+                let _ = writeln!(
+                    s,
+                    "    Δ{} in [{}, {}] {}   (|Δ{}| <= {} {})",
+                    e.state,
+                    sig(e.lower),
+                    sig(e.upper),
+                    e.unit,
+                    e.state,
+                    sig(e.magnitude()),
+                    e.unit
+                );
+            }
+        }
+    }
+    let _ = writeln!(
+        s,
+        "  region of attraction: V < {} (V exceeds it on every face of the error box)",
+        sig(b.attraction)
+    );
+    for (st, req, met) in &b.required {
+        let _ = writeln!(
+            s,
+            "  required |Δ{st}| <= {}: {}",
+            sig(*req),
+            if *met { "met" } else { "NOT MET" }
+        );
+    }
+    match &b.outcome {
+        BoundOutcome::Proven => {}
+        BoundOutcome::Refuted(_, why) | BoundOutcome::Inconclusive(why) => {
+            let _ = writeln!(s, "  {why}");
+        }
+    }
+}
+
+/// The ultimate-bound section of the JSON report.
+fn bound_json(b: &BoundReport) -> Value {
+    let bounds: Map<String, Value> = b
+        .bounds
+        .iter()
+        .map(|e| {
+            (
+                e.state.clone(),
+                json!({"lower": e.lower, "upper": e.upper, "unit": e.unit}),
+            )
+        })
+        .collect();
+    let required: Map<String, Value> = b
+        .required
+        .iter()
+        .map(|(s, x, met)| (s.clone(), json!({"bound": x, "met": met})))
+        .collect();
+    json!({
+        "level": b.level,
+        "refuted_level": b.refuted_level,
+        "attraction": b.attraction,
+        "bounds": bounds,
+        "required": required,
+        "level_proofs": b.steps.len(),
+        "boxes": b.boxes,
+    })
+}
+
 fn test_text(t: &Test) -> String {
     match t {
         Test::Negative { strict: true } => "< 0".into(),
@@ -311,5 +447,6 @@ pub fn json(r: &CheckReport, path: &str) -> Value {
         "min_margin": r.min_margin,
         "seconds": r.seconds,
         "goals": goals,
+        "ultimate_bound": r.bound.as_ref().map(bound_json),
     })
 }

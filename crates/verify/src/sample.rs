@@ -414,6 +414,7 @@ mod tests {
             expr: e,
             test: Test::Negative { strict: true },
             origin: true,
+            region: None,
         };
         let c = Compiled::new(&mut problem, goal).unwrap();
         let root: Vec<Interval> = c

@@ -52,6 +52,8 @@ pub enum Evidence {
     Hessian(Method, f64),
     /// Gain constraint `i` fails everywhere on the box.
     Excluded(usize),
+    /// The goal's region expression (V) is below the level on the whole box: this enclosure.
+    BelowLevel(Interval),
 }
 
 /// A point where the goal provably fails.
@@ -102,7 +104,7 @@ pub struct Report {
     pub by_bound: usize,
     /// Leaves proved by the Hessian test.
     pub by_hessian: usize,
-    /// Boxes dropped by a constraint.
+    /// Boxes dropped by a constraint (or lying below the level of an ultimate bound).
     pub excluded: usize,
     /// The proof tree (when proven).
     pub tree: Option<Tree>,
@@ -231,7 +233,7 @@ pub fn search(
                     match ev {
                         Evidence::Bound(_) => report.by_bound += 1,
                         Evidence::Hessian(..) => report.by_hessian += 1,
-                        Evidence::Excluded(_) => report.excluded += 1,
+                        Evidence::Excluded(_) | Evidence::BelowLevel(_) => report.excluded += 1,
                     }
                     nodes[id as usize].state = State::Leaf(ev);
                 }
@@ -427,8 +429,10 @@ pub fn reconfirm(goal: &Compiled, cx: &Counter, s: &mut Scratch) -> bool {
 
 fn step(goal: &Compiled, bx: &[Interval], scale: &[f64], s: &mut Scratch) -> Step {
     let feas = goal.feasibility(bx, s);
-    if let Feasibility::None(i) = feas {
-        return Step::Leaf(Evidence::Excluded(i));
+    match feas {
+        Feasibility::None(i) => return Step::Leaf(Evidence::Excluded(i)),
+        Feasibility::Below(v) => return Step::Leaf(Evidence::BelowLevel(v)),
+        _ => {}
     }
     let (f, grad) = goal.enclose(bx, s);
     let test = goal.goal.test;
@@ -444,6 +448,12 @@ fn step(goal: &Compiled, bx: &[Interval], scale: &[f64], s: &mut Scratch) -> Ste
         if let Some(c) = confirm(goal, &p, s) {
             return Step::Counter(c);
         }
+        // affine coordinates are never split: their worst case is at a vertex
+        if let Some(v) = goal.worst_vertex(&p, bx, s) {
+            if let Some(c) = confirm(goal, &v, s) {
+                return Step::Counter(c);
+            }
+        }
     }
     if bx.is_empty() {
         return Step::Stuck(0);
@@ -453,7 +463,8 @@ fn step(goal: &Compiled, bx: &[Interval], scale: &[f64], s: &mut Scratch) -> Ste
         &grad,
         scale,
         &goal.affine,
-        origin || feas == Feasibility::Some,
+        origin,
+        feas == Feasibility::Some,
     );
     let m = bx[dim].mid();
     if !(m > bx[dim].lo() && m < bx[dim].hi()) {
@@ -478,6 +489,7 @@ fn choose(
     scale: &[f64],
     affine: &[usize],
     by_width: bool,
+    constrained: bool,
 ) -> usize {
     let widest = |skip_affine: bool| {
         (0..bx.len())
@@ -485,8 +497,18 @@ fn choose(
             .max_by(|&a, &b| (bx[a].width() / scale[a]).total_cmp(&(bx[b].width() / scale[b])))
             .unwrap_or(0)
     };
-    if by_width {
+    if constrained {
+        // a constraint is decided by splitting its own coordinates, affine or not
         return widest(false);
+    }
+    if by_width {
+        // affine coordinates are bounded at their vertices, never by splitting
+        let k = widest(true);
+        return if bx[k].width() > MIN_SHARE * scale[k] && !affine.contains(&k) {
+            k
+        } else {
+            widest(false)
+        };
     }
     if grad.iter().any(|g| !g.is_finite()) {
         return widest(true);

@@ -181,6 +181,7 @@ fn no_false_mutant_is_proven_and_every_counterexample_is_real() {
             time_limit: Duration::from_secs(60),
             max_queue: 1_000_000,
         },
+        ..Settings::default()
     };
     let mut cases = Vec::new();
     let mut mutants = mutants_of("energy_longitudinal.yaml");
