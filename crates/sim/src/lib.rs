@@ -19,6 +19,7 @@
 
 pub mod airframe;
 pub mod atmosphere;
+pub mod bounded;
 pub mod fly;
 pub mod linear;
 pub mod montecarlo;

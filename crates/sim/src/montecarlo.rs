@@ -47,6 +47,8 @@ pub fn variant(setup: &Setup, seed: u64, i: usize) -> Variant {
         ),
         seed: i as u64 + 1,
     };
+    // drawn last, so campaigns without it draw what they always drew
+    v.estimates.thrust_bias += rng.between(-d.thrust_bias, d.thrust_bias);
     v
 }
 

@@ -214,7 +214,8 @@ impl Pilot for EnergyPilot {
         let thrust = out.commands[self.thrust_out];
         let per_throttle = self.estimates.thrust * self.model.thrust(1.0, m.va);
         let throttle = if per_throttle > 0.0 {
-            (thrust / per_throttle).clamp(0.0, 1.0)
+            // the model inverted is off by the bias: the aircraft gets `thrust + bias`
+            ((thrust + self.estimates.thrust_bias) / per_throttle).clamp(0.0, 1.0)
         } else {
             1.0
         };

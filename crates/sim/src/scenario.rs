@@ -9,7 +9,7 @@
 //! commands:                              # piecewise constant; a key left out keeps its value
 //!   - { at: 5, h: 150 }
 //! wind: { x: 0, z: 0, turbulence: none } # steady wind (m/s, z down) and Dryden intensity
-//! estimates: { drag: 1.0, thrust: 1.0, alpha_bias: 0.0 }   # what the controllers believe
+//! estimates: { drag: 1.0, thrust: 1.0, alpha_bias: 0.0, thrust_bias: 0.0 }   # what the controllers believe
 //! noise: { h: 0.0, va: 0.0, theta: 0.0, q: 0.0 }           # sensor noise σ
 //! seed: 1
 //! ```
@@ -88,6 +88,10 @@ pub struct Estimates {
     /// Bias on the angle-of-attack estimate, rad.
     #[serde(default)]
     pub alpha_bias: f64,
+    /// Bias of the thrust model the controllers invert, N: the propulsion delivers the
+    /// commanded thrust plus this.
+    #[serde(default)]
+    pub thrust_bias: f64,
 }
 
 fn one() -> f64 {
@@ -100,6 +104,7 @@ impl Default for Estimates {
             drag: 1.0,
             thrust: 1.0,
             alpha_bias: 0.0,
+            thrust_bias: 0.0,
         }
     }
 }
@@ -303,6 +308,9 @@ pub struct Dispersions {
     /// Bias of the angle-of-attack estimate, rad.
     #[serde(default = "d_alpha")]
     pub alpha_bias: f64,
+    /// Bias of the thrust model, N (none by default).
+    #[serde(default)]
+    pub thrust_bias: f64,
 }
 
 fn d_mass() -> f64 {
@@ -330,6 +338,7 @@ impl Default for Dispersions {
             drag_estimate: d_drag(),
             thrust_estimate: d_thrust(),
             alpha_bias: d_alpha(),
+            thrust_bias: 0.0,
         }
     }
 }
@@ -461,6 +470,7 @@ impl Scenario {
             self.estimates.drag,
             self.estimates.thrust,
             self.estimates.alpha_bias,
+            self.estimates.thrust_bias,
         ];
         if all.iter().any(|v| !v.is_finite()) {
             return bad("initial state, wind and estimates must be finite".into());
