@@ -23,6 +23,26 @@ use std::collections::HashMap;
 /// formula like `(a + b)^1000` cannot explode the term count.
 pub const MAX_EXPANDED_POWER: u32 = 64;
 
+/// Largest power of a single term (monomial or constant) computed exactly; above it the power
+/// stays symbolic. Exponents of a monomial grow linearly with it.
+pub const MAX_SINGLE_TERM_POWER: u64 = 1 << 16;
+
+/// Largest growth, in bits, of a single term's coefficient under an exact power (power times
+/// the coefficient's size): `6^-666666663` would need 1.7·10⁹ bits and stays symbolic.
+pub const MAX_POWER_BITS: u64 = 1 << 16;
+
+/// The bits of the largest numerator or denominator among the coefficients of `r`, less one
+/// (0 for coefficients ±1).
+fn coefficient_bits(r: &Rat) -> u64 {
+    r.num
+        .0
+        .values()
+        .chain(r.den.0.values())
+        .map(|c| c.numer().bits().max(c.denom().bits()).saturating_sub(1))
+        .max()
+        .unwrap_or(0)
+}
+
 #[derive(Clone, Debug)]
 struct Rat {
     num: Poly,
@@ -155,7 +175,12 @@ impl<'o> Simplifier<'o> {
         if let Some(k) = &exp {
             if k.is_integer() {
                 if let Some(n) = k.to_integer().to_i64() {
-                    let single_term = ra.num.0.len() <= 1 && ra.den.0.len() <= 1;
+                    // one term to a high power stays one term, but its coefficient and
+                    // exponents grow with the power: bound both
+                    let single_term = ra.num.0.len() <= 1
+                        && ra.den.0.len() <= 1
+                        && n.unsigned_abs() <= MAX_SINGLE_TERM_POWER
+                        && n.unsigned_abs() * (coefficient_bits(&ra) + 1) <= MAX_POWER_BITS;
                     if n.unsigned_abs() <= u64::from(MAX_EXPANDED_POWER) || single_term {
                         if let Ok(n32) = u32::try_from(n.unsigned_abs()) {
                             let p = Rat {

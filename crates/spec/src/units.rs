@@ -181,7 +181,11 @@ pub fn parse_unit(text: &str) -> Result<Dim, (usize, String)> {
             None => return Ok(dim),
             Some(b'*') => dividing = false,
             Some(b'/') => dividing = true,
-            Some(_) => return Err((pos, format!("unexpected `{}` in unit", &text[pos..pos + 1]))),
+            Some(_) => {
+                // the whole character, which may be more than one byte
+                let c = text[pos..].chars().next().unwrap_or('?');
+                return Err((pos, format!("unexpected `{c}` in unit")));
+            }
         }
         pos += 1;
     }
