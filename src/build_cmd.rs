@@ -3,12 +3,18 @@
 
 use crate::emit_cmd::{emit_one, generated_dir, specs_in, write_files};
 use crate::progress::Progress;
-use crate::sim_cmd::{fly_all, load_setup, write_run};
+use crate::sim_cmd::{bound_table, fly_all, load_setup, write_run};
 use crate::{write_atomic, EXIT_INVALID};
 use lawsmith_codegen::{Float, Lang};
 use lawsmith_verify::Settings;
+use lawsmith_verify::{BoundReport, Verdict};
+use std::collections::HashMap;
 use std::fmt::Write as _;
-use std::path::Path;
+use std::path::{Path, PathBuf};
+
+/// Dispersed runs of each scenario whose spec claims an ultimate bound, and their seed.
+pub const BOUND_RUNS: usize = 1000;
+const BOUND_SEED: u64 = 1;
 use std::process::ExitCode;
 
 pub fn build_cmd(
@@ -24,8 +30,12 @@ pub fn build_cmd(
     }
     let progress = Progress::new();
     let mut rows = Vec::new();
+    let mut notes: Vec<String> = Vec::new();
     let mut md = String::from("# lawsmith report\n\nWritten by `lawsmith build`. The airframe and the scenarios are the invented demo\nairframe and scenarios of lawsmith's examples, not a real aircraft.\n\n## Specs\n\n| spec | claim | verdict | boxes | worst sampled margin | ops/step | saturation (share of sampled envelope) |\n|---|---|---|---:|---:|---:|---|\n");
     let mut code = 0u8;
+    // proved ultimate bounds, by spec file, for the scenarios' cross-checks
+    let mut bounds: HashMap<PathBuf, BoundReport> = HashMap::new();
+    let mut pending: Vec<(PathBuf, Vec<(String, String)>)> = Vec::new();
     for spec in &specs {
         let name = spec
             .file_stem()
@@ -46,21 +56,28 @@ pub fn build_cmd(
                 ]);
             }
             Ok(e) => {
+                // written only once every spec is proved and generated, so an interrupted
+                // build leaves the previous generated/ as it was
                 let dir = generated_dir(generated, spec);
-                let written = match write_files(&dir, &e.files) {
-                    Ok(w) => format!("{}/ ({} files)", dir.display(), w.len()),
-                    Err(msg) => {
-                        eprintln!("error[io]: {msg}");
-                        code = EXIT_INVALID;
-                        "write failed".into()
-                    }
-                };
+                let written = format!("{}/ ({} files)", dir.display(), e.files.len());
+                pending.push((dir, e.files.clone()));
                 let sat: Vec<String> = e
                     .report
                     .saturation
                     .iter()
                     .map(|a| format!("{} {:.2}%", a.actuator, 100.0 * a.share))
                     .collect();
+                if let (Some(b), Verdict::Proven, Ok(p)) =
+                    (&e.report.bound, e.report.verdict, spec.canonicalize())
+                {
+                    bounds.insert(p, b.clone());
+                }
+                if e.report.bound.is_some() {
+                    notes.push(format!(
+                        "- **{name}**: {}",
+                        lawsmith_verify::report::claim_summary(&e.report)
+                    ));
+                }
                 let _ = writeln!(
                     md,
                     "| {name} | {} | {} | {} | {} | {} | {} |",
@@ -91,6 +108,19 @@ pub fn build_cmd(
             }
         }
     }
+    for (dir, files) in &pending {
+        if let Err(msg) = write_files(dir, files) {
+            eprintln!("error[io]: {msg}");
+            code = EXIT_INVALID;
+        }
+    }
+    if !notes.is_empty() {
+        md.push_str("\nUltimate bounds (the law with wrong estimates; the errors are bounded, not driven to zero):\n\n");
+        for n in &notes {
+            md.push_str(n);
+            md.push('\n');
+        }
+    }
     // the example scenarios
     let scenarios = specs_in(&specs_dir.join("scenarios"));
     if !scenarios.is_empty() {
@@ -103,7 +133,7 @@ pub fn build_cmd(
             .unwrap_or_default()
             .to_string_lossy()
             .to_string();
-        let setup = match load_setup(sc) {
+        let (setup, spec) = match load_setup(sc) {
             Ok(s) => s,
             Err(c) => {
                 code = code.max(c);
@@ -133,6 +163,24 @@ pub fn build_cmd(
                     "\nPlots: {}\n\n![altitude]({stem}/altitude.svg)",
                     links.join(" · ")
                 );
+                let spec_file = sc
+                    .parent()
+                    .unwrap_or(Path::new("."))
+                    .join(&setup.scenario.spec)
+                    .canonicalize();
+                if let Some(b) = spec_file.ok().and_then(|p| bounds.get(&p)) {
+                    match lawsmith_sim::bounded::cross_check(
+                        &setup, &spec, b.level, BOUND_RUNS, BOUND_SEED,
+                    ) {
+                        Ok(c) => {
+                            let _ = write!(md, "\n{}", bound_table(b, &c).0);
+                        }
+                        Err(e) => {
+                            eprintln!("error[sim]: {}: {e}", sc.display());
+                            code = EXIT_INVALID;
+                        }
+                    }
+                }
                 sim_rows.push(stem);
             }
             Err(e) => {

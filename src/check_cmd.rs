@@ -4,7 +4,8 @@
 use crate::progress::Progress;
 use crate::{read_spec, ReportFormat, EXIT_INVALID};
 use lawsmith_verify::{
-    certificate, check, prepare, recheck, report, sha256_hex, Budget, Origin, Settings, Verdict,
+    certificate, check, prepare, recheck, report, sha256_hex, BoundSettings, Budget, Origin,
+    Settings, Verdict,
 };
 use serde_json::{json, Value};
 use std::path::{Path, PathBuf};
@@ -30,6 +31,9 @@ pub struct Limits {
     /// Sampled points per goal before the proof.
     #[arg(long, default_value_t = Settings::default().samples)]
     samples: usize,
+    /// Ultimate bounds: relative width at which the bisection over the level stops.
+    #[arg(long, value_name = "FRACTION", default_value_t = BoundSettings::default().level_tolerance)]
+    level_tolerance: f64,
 }
 
 impl Limits {
@@ -41,6 +45,10 @@ impl Limits {
                 time_limit: Duration::from_secs_f64(self.time_limit.max(0.0)),
                 max_queue: self.max_queue,
             },
+            bound: BoundSettings {
+                level_tolerance: self.level_tolerance.clamp(1e-9, 0.5),
+                ..BoundSettings::default()
+            },
         }
     }
 
@@ -48,6 +56,7 @@ impl Limits {
         json!({
             "samples": self.samples, "max_boxes": self.max_boxes,
             "time_limit_s": self.time_limit, "max_queue": self.max_queue,
+            "level_tolerance": self.level_tolerance,
         })
     }
 }

@@ -2,7 +2,7 @@
 
 use crate::{read_spec, Format, EXIT_INVALID};
 use lawsmith_expr::{to_latex, to_text};
-use lawsmith_spec::{derive, Derivation, Spec};
+use lawsmith_spec::{derive, uncertainty_name, Derivation, ErrorForm, Spec};
 use serde_json::{json, Map, Value};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -141,6 +141,15 @@ fn derivation_json(spec: &Spec, d: &Derivation, path: &Path) -> Value {
         }
         if let Some(r) = &s.rate {
             o.insert("rate".into(), json!(r));
+        }
+        if let Some((e, form)) = &s.estimate {
+            o.insert("estimate".into(), json!(e));
+            let form = match form {
+                ErrorForm::Relative => "relative",
+                ErrorForm::Absolute => "absolute",
+            };
+            o.insert("form".into(), json!(form));
+            o.insert("error_symbol".into(), json!(uncertainty_name(&s.name)));
         }
         symbols.insert(s.name.clone(), Value::Object(o));
     }

@@ -68,7 +68,7 @@ pub fn emit_one(
         spec_file: display_path(path),
         spec_sha256: sha256_hex(&loaded.bytes),
         tool_version: env!("CARGO_PKG_VERSION").to_string(),
-        claim: report.claim.name(),
+        claim: lawsmith_verify::report::claim_summary(&report),
         verdict: report.verdict.name().to_string(),
     };
     let files = generate(&controller, &prov, lang, float).map_err(|e| {
@@ -85,9 +85,8 @@ pub fn emit_one(
 /// Writes generated files into `dir`, refusing to overwrite a file that lawsmith did not
 /// generate (it lacks the marker line).
 pub fn write_files(dir: &Path, files: &[(String, String)]) -> Result<Vec<PathBuf>, String> {
-    std::fs::create_dir_all(dir).map_err(|e| format!("cannot create {}: {e}", dir.display()))?;
-    let mut written = Vec::new();
-    for (name, text) in files {
+    // every file is checked before any is written, so a refusal changes nothing
+    for (name, _) in files {
         let p = dir.join(name);
         if let Ok(old) = std::fs::read_to_string(&p) {
             if !old.lines().take(3).any(|l| l.contains(MARKER)) {
@@ -102,6 +101,11 @@ pub fn write_files(dir: &Path, files: &[(String, String)]) -> Result<Vec<PathBuf
                 p.display()
             ));
         }
+    }
+    std::fs::create_dir_all(dir).map_err(|e| format!("cannot create {}: {e}", dir.display()))?;
+    let mut written = Vec::new();
+    for (name, text) in files {
+        let p = dir.join(name);
         write_atomic(&p, text.as_bytes())
             .map_err(|e| format!("cannot write {}: {e}", p.display()))?;
         written.push(p);

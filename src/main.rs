@@ -5,6 +5,8 @@ mod build_cmd;
 mod check_cmd;
 mod derive_cmd;
 mod emit_cmd;
+mod margin_cmd;
+mod new_cmd;
 mod progress;
 mod sim_cmd;
 
@@ -25,6 +27,20 @@ const EXIT_INVALID: u8 = 3;
 struct Cli {
     #[command(subcommand)]
     command: Command,
+    /// Print only results and errors: no progress display, no notes.
+    #[arg(long, short, global = true, conflicts_with = "verbose")]
+    quiet: bool,
+    /// Also print what is read and how long each command took (stderr).
+    #[arg(long, short, global = true)]
+    verbose: bool,
+}
+
+/// 0 quiet, 1 normal, 2 verbose; set once from the command line.
+static VERBOSITY: std::sync::atomic::AtomicU8 = std::sync::atomic::AtomicU8::new(1);
+
+/// The verbosity of this run: 0 quiet, 1 normal, 2 verbose.
+fn verbosity() -> u8 {
+    VERBOSITY.load(std::sync::atomic::Ordering::Relaxed)
 }
 
 #[derive(Subcommand)]
@@ -72,6 +88,9 @@ enum Command {
         /// Emit a law that is not proven, its header saying so in capitals.
         #[arg(long)]
         allow_unproven: bool,
+        /// Allow --out inside specs/ or outside the working directory.
+        #[arg(long)]
+        force: bool,
         /// Compare the committed generated code with a fresh emission instead of writing.
         #[arg(long, conflicts_with_all = ["specs", "out"])]
         check: bool,
@@ -96,6 +115,9 @@ enum Command {
         /// Where to write the simulation report.
         #[arg(long, value_name = "DIR", default_value = "report")]
         report: PathBuf,
+        /// Allow --generated or --report inside specs/ or outside the working directory.
+        #[arg(long)]
+        force: bool,
         #[command(flatten)]
         limits: check_cmd::Limits,
     },
@@ -117,6 +139,58 @@ enum Command {
         /// Seed of the dispersions.
         #[arg(long, default_value_t = 1)]
         seed: u64,
+        /// Allow --out inside specs/ or outside the working directory.
+        #[arg(long)]
+        force: bool,
+    },
+    /// The largest error of one uncertain quantity for which the required ultimate bounds
+    /// still hold: proves the bound with the declared error range scaled by factors from 0 to
+    /// --up-to, prints the curve and bisects for the largest factor. Exit code 0 found, 1 not
+    /// met even with zero error, 3 invalid input.
+    Margin {
+        /// The spec (YAML), with an `uncertain:` section.
+        spec: PathBuf,
+        /// The uncertain quantity to vary, e.g. drag_true.
+        #[arg(long, value_name = "NAME")]
+        uncertain: String,
+        /// Required bounds on the state errors, e.g. h=3,va=1.
+        #[arg(long, value_name = "STATE=BOUND,...")]
+        bound: String,
+        /// Largest factor on the declared error range sampled.
+        #[arg(long, value_name = "FACTOR", default_value_t = 1.5)]
+        up_to: f64,
+        /// Points of the curve (factors evenly spaced from 0).
+        #[arg(long, default_value_t = 7)]
+        points: usize,
+        /// Write margin_NAME.svg and margin_NAME.csv here.
+        #[arg(long, value_name = "DIR")]
+        out: Option<PathBuf>,
+        /// Allow --out inside specs/ or outside the working directory.
+        #[arg(long)]
+        force: bool,
+        /// Output format.
+        #[arg(long, value_enum, default_value_t = ReportFormat::Text)]
+        format: ReportFormat,
+        #[command(flatten)]
+        limits: check_cmd::Limits,
+    },
+    /// Write a commented starter spec, NAME.yaml, that loads and proves as written.
+    New {
+        /// The spec's name (an identifier: letters, digits, underscores).
+        name: String,
+        /// Directory to write into.
+        #[arg(long, value_name = "DIR", default_value = ".")]
+        dir: PathBuf,
+        /// Overwrite an existing file.
+        #[arg(long)]
+        force: bool,
+    },
+    /// Print the JSON Schema of the spec format (committed as schema/spec.schema.json).
+    Schema,
+    /// Print a shell completion script (bash, zsh, fish, elvish, powershell) to stdout.
+    Completions {
+        /// The shell.
+        shell: clap_complete::Shell,
     },
     /// Re-evaluate every leaf box of a certificate against its spec, without searching.
     /// Exit code 0 accepted, 1 rejected, 3 unreadable input.
@@ -162,11 +236,58 @@ fn main() -> ExitCode {
         .stack_size(256 << 20)
         .spawn(move || run(cli))
         .expect("spawn worker thread");
-    worker.join().unwrap_or(ExitCode::from(101))
+    let code = worker.join().unwrap_or(ExitCode::from(101));
+    if std::env::var_os("LAWSMITH_PEAK_RSS").is_some() {
+        // a test helper: the peak resident set of this process, from the kernel (Linux)
+        if let Some(kib) = peak_rss_kib() {
+            eprintln!("peak-rss-kib: {kib}");
+        }
+    }
+    code
+}
+
+/// `VmHWM` of /proc/self/status, in KiB (None where the kernel does not provide it).
+fn peak_rss_kib() -> Option<u64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
+    line.split_whitespace().nth(1)?.parse().ok()
 }
 
 fn run(cli: Cli) -> ExitCode {
-    match cli.command {
+    let level = if cli.quiet {
+        0
+    } else if cli.verbose {
+        2
+    } else {
+        1
+    };
+    VERBOSITY.store(level, std::sync::atomic::Ordering::Relaxed);
+    let started = std::time::Instant::now();
+    let code = dispatch(cli.command);
+    if verbosity() >= 2 {
+        eprintln!("lawsmith: done in {:.2} s", started.elapsed().as_secs_f64());
+    }
+    code
+}
+
+fn dispatch(command: Command) -> ExitCode {
+    match command {
+        Command::New { name, dir, force } => new_cmd::new_cmd(&name, &dir, force),
+        Command::Schema => {
+            let text = serde_json::to_string_pretty(&lawsmith_spec::json_schema()).expect("json");
+            println!("{text}");
+            ExitCode::SUCCESS
+        }
+        Command::Completions { shell } => {
+            use clap::CommandFactory;
+            clap_complete::generate(
+                shell,
+                &mut Cli::command(),
+                "lawsmith",
+                &mut std::io::stdout(),
+            );
+            ExitCode::SUCCESS
+        }
         Command::Derive { specs, format } => derive_cmd::derive_cmd(&specs, format),
         Command::Check {
             specs,
@@ -175,19 +296,49 @@ fn run(cli: Cli) -> ExitCode {
             limits,
         } => check_cmd::check_cmd(&specs, format, certificate.as_deref(), &limits),
         Command::Recheck { certificate, spec } => check_cmd::recheck_cmd(&certificate, &spec),
+        Command::Margin {
+            spec,
+            uncertain,
+            bound,
+            up_to,
+            points,
+            out,
+            force,
+            format,
+            limits,
+        } => {
+            if let Some(Err(c)) = out.as_deref().map(|o| out_dir_allowed(o, force)) {
+                return ExitCode::from(c);
+            }
+            margin_cmd::margin_cmd(
+                &spec,
+                &uncertain,
+                &bound,
+                up_to,
+                points,
+                out.as_deref(),
+                format,
+                &limits,
+            )
+        }
         Command::Sim {
             scenario,
             out,
             format,
             runs,
             seed,
-        } => sim_cmd::sim_cmd(&scenario, &out, format, runs, seed),
+            force,
+        } => match out_dir_allowed(&out, force) {
+            Ok(()) => sim_cmd::sim_cmd(&scenario, &out, format, runs, seed),
+            Err(c) => ExitCode::from(c),
+        },
         Command::Emit {
             specs,
             lang,
             out,
             float,
             allow_unproven,
+            force,
             check,
             specs_dir,
             generated,
@@ -207,14 +358,68 @@ fn run(cli: Cli) -> ExitCode {
                 FloatArg::F64 => lawsmith_codegen::Float::F64,
             };
             let out = out.expect("clap requires --out without --check");
+            if let Err(c) = out_dir_allowed(&out, force) {
+                return ExitCode::from(c);
+            }
             emit_cmd::emit_cmd(&specs, lang, float, &out, allow_unproven, &settings)
         }
         Command::Build {
             specs_dir,
             generated,
             report,
+            force,
             limits,
-        } => build_cmd::build_cmd(&specs_dir, &generated, &report, &limits.settings()),
+        } => match out_dir_allowed(&generated, force).and(out_dir_allowed(&report, force)) {
+            Ok(()) => build_cmd::build_cmd(&specs_dir, &generated, &report, &limits.settings()),
+            Err(c) => ExitCode::from(c),
+        },
+    }
+}
+
+/// Refuses an output directory inside `specs/` (where the user's specs live) or outside the
+/// working directory, unless `force`: a mistyped `--out` must not scatter or overwrite files.
+fn out_dir_allowed(out: &Path, force: bool) -> Result<(), u8> {
+    if force {
+        return Ok(());
+    }
+    let Ok(cwd) = std::env::current_dir().and_then(|d| d.canonicalize()) else {
+        return Ok(());
+    };
+    // the nearest existing ancestor, resolved, plus what does not exist yet
+    let joined = cwd.join(out);
+    let mut existing = joined.as_path();
+    let mut rest = Vec::new();
+    while !existing.exists() {
+        match (existing.parent(), existing.file_name()) {
+            (Some(p), Some(n)) => {
+                rest.push(n.to_os_string());
+                existing = p;
+            }
+            _ => break,
+        }
+    }
+    let mut resolved = existing
+        .canonicalize()
+        .unwrap_or_else(|_| existing.to_path_buf());
+    for n in rest.iter().rev() {
+        resolved.push(n);
+    }
+    let problem = if !resolved.starts_with(&cwd) {
+        Some("is outside the working directory")
+    } else if resolved.starts_with(cwd.join("specs")) {
+        Some("is inside specs/, where the specs live")
+    } else {
+        None
+    };
+    match problem {
+        None => Ok(()),
+        Some(why) => {
+            eprintln!(
+                "error[out-path]: {} {why}; pass --force to write there anyway",
+                out.display()
+            );
+            Err(EXIT_INVALID)
+        }
     }
 }
 
@@ -228,6 +433,18 @@ struct Loaded {
 /// Reads and validates one spec, printing diagnostics to stderr on failure.
 fn read_spec(path: &Path) -> Option<Loaded> {
     let name = path.display().to_string();
+    // refuse a huge file before reading it
+    if let Ok(meta) = std::fs::metadata(path) {
+        if meta.is_file() && meta.len() > lawsmith_spec::MAX_SPEC_BYTES as u64 {
+            eprintln!(
+                "error[too-large]: {name}:1:1: the file is {} bytes; the limit is {} bytes (MAX_SPEC_BYTES)",
+                meta.len(),
+                lawsmith_spec::MAX_SPEC_BYTES
+            );
+            eprintln!("  = hint: split the file or remove generated content");
+            return None;
+        }
+    }
     let bytes = match std::fs::read(path) {
         Ok(b) => b,
         Err(e) => {
@@ -237,7 +454,7 @@ fn read_spec(path: &Path) -> Option<Loaded> {
     };
     if bytes.len() > lawsmith_spec::MAX_SPEC_BYTES {
         eprintln!(
-            "error[too-large]: {name} is {} bytes; the limit is {} bytes",
+            "error[too-large]: {name}:1:1: the file is {} bytes; the limit is {} bytes (MAX_SPEC_BYTES)",
             bytes.len(),
             lawsmith_spec::MAX_SPEC_BYTES
         );
@@ -257,7 +474,17 @@ fn read_spec(path: &Path) -> Option<Loaded> {
         }
     };
     match load(source) {
-        Ok(spec) => Some(Loaded { spec, bytes }),
+        Ok(spec) => {
+            if verbosity() >= 2 {
+                eprintln!(
+                    "lawsmith: read {name}: {} bytes, {} symbols, claim {}",
+                    bytes.len(),
+                    spec.symbols.len(),
+                    spec.claim.name()
+                );
+            }
+            Some(Loaded { spec, bytes })
+        }
         Err(diags) => {
             eprint!("{}", render(&name, source, &diags));
             eprintln!(

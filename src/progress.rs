@@ -15,7 +15,7 @@ pub struct Progress {
 impl Progress {
     pub fn new() -> Progress {
         Progress {
-            enabled: std::io::stderr().is_terminal(),
+            enabled: std::io::stderr().is_terminal() && crate::verbosity() > 0,
             last: Mutex::new(None),
         }
     }

@@ -1,16 +1,22 @@
 //! `lawsmith sim`: fly a scenario (or a Monte Carlo campaign of it) and write CSV, SVG and the
 //! metrics.
 
+use crate::progress::Progress;
 use crate::{read_spec, write_atomic, ReportFormat, EXIT_INVALID};
+use lawsmith_sim::bounded::{cross_check, BoundCheck};
 use lawsmith_sim::montecarlo::campaign;
 use lawsmith_sim::output::{csv, json, plots, table, ScenarioRun};
 use lawsmith_sim::run::{Setup, PILOTS};
 use lawsmith_sim::scenario::Scenario;
+use lawsmith_spec::{Claim, Spec};
+use lawsmith_verify::{check, BoundReport, Settings, Verdict};
+use serde_json::{json, Map, Value};
+use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
 /// Reads a scenario and the spec it names (relative to the scenario file).
-pub fn load_setup(path: &Path) -> Result<Setup, u8> {
+pub fn load_setup(path: &Path) -> Result<(Setup, Spec), u8> {
     let text = std::fs::read_to_string(path).map_err(|e| {
         eprintln!("error[io]: cannot read {}: {e}", path.display());
         EXIT_INVALID
@@ -21,10 +27,92 @@ pub fn load_setup(path: &Path) -> Result<Setup, u8> {
     })?;
     let spec_path = path.parent().unwrap_or(Path::new(".")).join(&scenario.spec);
     let loaded = read_spec(&spec_path).ok_or(EXIT_INVALID)?;
-    Setup::new(scenario, &loaded.spec).map_err(|e| {
+    let setup = Setup::new(scenario, &loaded.spec).map_err(|e| {
         eprintln!("error[scenario]: {}: {e}", path.display());
         EXIT_INVALID
-    })
+    })?;
+    Ok((setup, loaded.spec))
+}
+
+/// The guaranteed bounds beside the worst errors the runs showed, as a Markdown table (it
+/// reads as plain text too) and as JSON.
+pub fn bound_table(bound: &BoundReport, c: &BoundCheck) -> (String, Value) {
+    let mut md = format!(
+        "Ultimate bound against {} dispersed runs: V ≤ c = {:.4e} proved; {} of {} runs entered {{V ≤ c}}, {} left it after entering; the largest V/c after entering was {:.4}.\n\n| error | guaranteed by the proof | worst observed after entering |\n|---|---|---|\n",
+        c.runs.len(),
+        c.level,
+        c.entered(),
+        c.runs.len(),
+        c.left(),
+        c.worst_ratio()
+    );
+    let mut errors = Map::new();
+    for b in &bound.bounds {
+        let observed = match b.state.as_str() {
+            "h" => c.h_error(),
+            "va" => c.va_error(),
+            _ => continue,
+        };
+        let _ = writeln!(
+            md,
+            "| {} − ref ({}) | [{:.3}, {:.3}] | [{:.3}, {:.3}] |",
+            b.state, b.unit, b.lower, b.upper, observed.0, observed.1
+        );
+        errors.insert(
+            b.state.clone(),
+            json!({"unit": b.unit, "guaranteed": [b.lower, b.upper], "observed": [observed.0, observed.1]}),
+        );
+    }
+    let j = json!({
+        "level": c.level,
+        "runs": c.runs.len(),
+        "entered": c.entered(),
+        "left_after_entering": c.left(),
+        "worst_level_ratio": c.worst_ratio(),
+        "errors": errors,
+    });
+    (md, j)
+}
+
+/// For a scenario whose spec claims an ultimate bound: prove it, fly the runs and compare.
+fn bound_check(
+    path: &Path,
+    setup: &Setup,
+    mut spec: Spec,
+    runs: usize,
+    seed: u64,
+) -> Result<Option<(String, Value)>, u8> {
+    if spec.claim != Claim::UltimateBound {
+        return Ok(None);
+    }
+    let progress = Progress::new();
+    let r = check(&mut spec, &Settings::default(), &|l, b, o| {
+        progress.boxes(l, b, o)
+    });
+    progress.finish();
+    let report = r
+        .map_err(|e| {
+            eprintln!("error[check]: {}: {e}", path.display());
+            EXIT_INVALID
+        })?
+        .0;
+    let Some(bound) = report
+        .bound
+        .as_ref()
+        .filter(|_| report.verdict == Verdict::Proven)
+    else {
+        eprintln!(
+            "note: {}: the ultimate bound of its spec is {}; no cross-check",
+            path.display(),
+            report.verdict.name()
+        );
+        return Ok(None);
+    };
+    let c = cross_check(setup, &spec, bound.level, runs, seed).map_err(|e| {
+        eprintln!("error[sim]: {}: {e}", path.display());
+        EXIT_INVALID
+    })?;
+    Ok(Some(bound_table(bound, &c)))
 }
 
 /// Flies every controller of a scenario.
@@ -67,11 +155,15 @@ pub fn sim_cmd(
     runs: Option<usize>,
     seed: u64,
 ) -> ExitCode {
-    let setup = match load_setup(path) {
+    let (setup, spec) = match load_setup(path) {
         Ok(s) => s,
         Err(c) => return ExitCode::from(c),
     };
     if let Some(n) = runs {
+        let bound = match bound_check(path, &setup, spec, n, seed) {
+            Ok(b) => b,
+            Err(c) => return ExitCode::from(c),
+        };
         let c = match campaign(&setup, n, seed) {
             Ok(c) => c,
             Err(e) => {
@@ -83,10 +175,14 @@ pub fn sim_cmd(
             eprintln!("error[io]: cannot create {}: {e}", out.display());
             return ExitCode::from(EXIT_INVALID);
         }
+        let mut summary = c.json();
+        if let Some((_, j)) = &bound {
+            summary["ultimate_bound"] = j.clone();
+        }
         let mut files = c.histograms();
         files.push((
             "campaign.json".into(),
-            serde_json::to_string_pretty(&c.json()).expect("json") + "\n",
+            serde_json::to_string_pretty(&summary).expect("json") + "\n",
         ));
         for (name, text) in files {
             if let Err(e) = write_atomic(&out.join(&name), text.as_bytes()) {
@@ -95,9 +191,14 @@ pub fn sim_cmd(
             }
         }
         match format {
-            ReportFormat::Text => print!("{}", c.table()),
+            ReportFormat::Text => {
+                print!("{}", c.table());
+                if let Some((md, _)) = &bound {
+                    print!("\n{md}");
+                }
+            }
             ReportFormat::Json => {
-                println!("{}", serde_json::to_string_pretty(&c.json()).expect("json"))
+                println!("{}", serde_json::to_string_pretty(&summary).expect("json"))
             }
         }
         return ExitCode::SUCCESS;
@@ -121,7 +222,9 @@ pub fn sim_cmd(
             }
             println!();
             print!("{}", table(&run));
-            println!("\nwrote {}/: {{energy,pid,lqr}}.csv and altitude, airspeed, pitch, throttle, energy_error, balance_error .svg", out.display());
+            if crate::verbosity() > 0 {
+                println!("\nwrote {}/: {{energy,pid,lqr}}.csv and altitude, airspeed, pitch, throttle, energy_error, balance_error .svg", out.display());
+            }
         }
         ReportFormat::Json => println!(
             "{}",

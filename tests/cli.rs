@@ -15,18 +15,74 @@ fn lawsmith(args: &[&str]) -> Output {
         .unwrap()
 }
 
+/// Runs `derive` on a bad input: exit 3, no panic, a `file:line:col` location, and the peak
+/// resident set the binary reports (KiB).
+fn bad_input(p: &Path) -> u64 {
+    let out = Command::new(env!("CARGO_BIN_EXE_lawsmith"))
+        .args(["derive", p.to_str().unwrap()])
+        .env("LAWSMITH_PEAK_RSS", "1")
+        .current_dir(root())
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(3), "{}: {err}", p.display());
+    assert!(!err.contains("panicked"), "{}: {err}", p.display());
+    let name = p.file_name().unwrap().to_string_lossy().to_string();
+    // `name:LINE:COL` somewhere in the message
+    let located = err.match_indices(&format!("{name}:")).any(|(i, m)| {
+        let rest = &err[i + m.len()..];
+        let line: String = rest.chars().take_while(char::is_ascii_digit).collect();
+        let after = &rest[line.len()..];
+        !line.is_empty()
+            && after.starts_with(':')
+            && after[1..].starts_with(|c: char| c.is_ascii_digit())
+    });
+    assert!(located, "{}: no file:line:col in\n{err}", p.display());
+    err.lines()
+        .find_map(|l| l.strip_prefix("peak-rss-kib: "))
+        .and_then(|v| v.trim().parse().ok())
+        .expect("the binary reports its peak RSS")
+}
+
 #[test]
-fn every_bad_input_exits_3_without_a_panic() {
-    for e in std::fs::read_dir(root().join("tests/data/err")).unwrap() {
-        let p = e.unwrap().path();
-        let out = lawsmith(&["derive", p.to_str().unwrap()]);
-        let err = String::from_utf8_lossy(&out.stderr);
-        assert_eq!(out.status.code(), Some(3), "{}: {err}", p.display());
-        assert!(!err.contains("panicked"), "{}: {err}", p.display());
-        // every diagnostic names file:line:col
-        let name = p.file_name().unwrap().to_string_lossy().to_string();
-        assert!(err.contains(&format!("{name}:")), "{err}");
+fn every_bad_input_exits_3_without_a_panic_in_bounded_memory() {
+    let mut cases: Vec<PathBuf> = std::fs::read_dir(root().join("tests/data/err"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .collect();
+    cases.sort();
+    assert!(cases.len() >= 25, "{} classes", cases.len());
+    // inputs too large or too odd to commit, made here
+    let dir = std::env::temp_dir().join(format!("lawsmith-bad-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let base = std::fs::read_to_string(root().join("tests/data/ok/spring_tracking.yaml")).unwrap();
+    let big = dir.join("ten-megabytes.yaml");
+    let filler = "# padding\n".repeat(10 * 1024 * 1024 / 10 + 1);
+    std::fs::write(&big, format!("{base}{filler}")).unwrap();
+    let latin1 = dir.join("non-utf8.yaml");
+    std::fs::write(&latin1, [base.as_bytes(), b"# caf\xe9\n"].concat()).unwrap();
+    let deep = dir.join("deep-formula.yaml");
+    std::fs::write(
+        &deep,
+        base.replace("  x: v\n", &format!("  x: {}v\n", "(".repeat(100_000))),
+    )
+    .unwrap();
+    cases.extend([big, latin1, deep]);
+    let mut worst = (0, String::new());
+    for p in &cases {
+        let kib = bad_input(p);
+        if kib > worst.0 {
+            worst = (kib, p.file_name().unwrap().to_string_lossy().to_string());
+        }
     }
+    println!(
+        "{} bad inputs, peak RSS at most {} KiB ({})",
+        cases.len(),
+        worst.0,
+        worst.1
+    );
+    assert!(worst.0 < 1 << 20, "peak RSS {} KiB on {}", worst.0, worst.1);
+    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]
@@ -274,7 +330,13 @@ fn emit_refuses_reserved_words_unproven_laws_and_foreign_files() {
     std::fs::create_dir_all(&dir).unwrap();
     let d = dir.to_str().unwrap();
     // names that are reserved words of C or Rust: a located error, nothing written
-    let out = lawsmith(&["emit", "tests/data/err/reserved-word.yaml", "--out", d]);
+    let out = lawsmith(&[
+        "emit",
+        "tests/data/err/reserved-word.yaml",
+        "--out",
+        d,
+        "--force",
+    ]);
     let err = String::from_utf8_lossy(&out.stderr).to_string();
     assert_eq!(out.status.code(), Some(3), "{err}");
     for word in ["int", "fn", "struct", "default"] {
@@ -288,6 +350,7 @@ fn emit_refuses_reserved_words_unproven_laws_and_foreign_files() {
         "tests/data/check/pendulum_definite.yaml",
         "--out",
         d,
+        "--force",
     ]);
     assert_eq!(out.status.code(), Some(1));
     assert!(String::from_utf8_lossy(&out.stderr).contains("error[unproven]"));
@@ -297,6 +360,7 @@ fn emit_refuses_reserved_words_unproven_laws_and_foreign_files() {
         "tests/data/check/pendulum_definite.yaml",
         "--out",
         d,
+        "--force",
         "--allow-unproven",
     ]);
     assert_eq!(
@@ -313,7 +377,7 @@ fn emit_refuses_reserved_words_unproven_laws_and_foreign_files() {
     // a file lawsmith did not write is never overwritten
     let mine = dir.join("energy_pitch.h");
     std::fs::write(&mine, "/* my own header */\n").unwrap();
-    let out = lawsmith(&["emit", "specs/energy_pitch.yaml", "--out", d]);
+    let out = lawsmith(&["emit", "specs/energy_pitch.yaml", "--out", d, "--force"]);
     assert_eq!(out.status.code(), Some(3));
     assert!(String::from_utf8_lossy(&out.stderr).contains("not overwriting"));
     assert_eq!(
@@ -324,7 +388,7 @@ fn emit_refuses_reserved_words_unproven_laws_and_foreign_files() {
     std::fs::remove_file(&mine).unwrap();
     let read = |n: &str| std::fs::read(dir.join(n)).unwrap();
     assert_eq!(
-        lawsmith(&["emit", "specs/energy_pitch.yaml", "--out", d])
+        lawsmith(&["emit", "specs/energy_pitch.yaml", "--out", d, "--force"])
             .status
             .code(),
         Some(0)
@@ -334,7 +398,7 @@ fn emit_refuses_reserved_words_unproven_laws_and_foreign_files() {
         .map(|n| read(n))
         .collect();
     assert_eq!(
-        lawsmith(&["emit", "specs/energy_pitch.yaml", "--out", d])
+        lawsmith(&["emit", "specs/energy_pitch.yaml", "--out", d, "--force"])
             .status
             .code(),
         Some(0)
@@ -356,6 +420,7 @@ fn sim_writes_series_plots_and_the_metrics() {
         "specs/scenarios/altitude_step_up.yaml",
         "--out",
         d,
+        "--force",
         "--format",
         "json",
     ]);
@@ -399,6 +464,7 @@ fn sim_writes_series_plots_and_the_metrics() {
         "specs/scenarios/altitude_step_up.yaml",
         "--out",
         d,
+        "--force",
         "--runs",
         "4",
         "--seed",
@@ -426,7 +492,7 @@ fn sim_writes_series_plots_and_the_metrics() {
         "name: x\nspec: nowhere.yaml\nduration: 10\ninitial: { h: 1, va: 2 }\n",
     )
     .unwrap();
-    let out = lawsmith(&["sim", bad.to_str().unwrap(), "--out", d]);
+    let out = lawsmith(&["sim", bad.to_str().unwrap(), "--out", d, "--force"]);
     assert_eq!(out.status.code(), Some(3));
     assert!(String::from_utf8_lossy(&out.stderr).contains("cannot read"));
     std::fs::remove_dir_all(&dir).unwrap();
@@ -443,6 +509,7 @@ fn the_committed_report_is_what_build_writes() {
         gen.to_str().unwrap(),
         "--report",
         rep.to_str().unwrap(),
+        "--force",
     ]);
     assert_eq!(
         out.status.code(),
@@ -476,5 +543,386 @@ fn the_committed_report_is_what_build_writes() {
         }
     }
     assert!(compared >= 30, "{compared} files");
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn margin_finds_the_textbook_margin_and_its_exit_codes_follow_the_outcome() {
+    // x' = -k x + d, |d| <= 0.5 t, k >= 2: the guaranteed bound is 0.25 t (delta/k, a
+    // standard result of Lyapunov analysis, e.g. Khalil, Nonlinear Systems; from memory), so
+    // |x| <= 0.2 holds up to t = 0.8
+    let dir = std::env::temp_dir().join(format!("lawsmith-margin-{}", std::process::id()));
+    let out = lawsmith(&[
+        "margin",
+        "tests/data/bound/scalar_disturbance.yaml",
+        "--uncertain",
+        "u_true",
+        "--bound",
+        "x=0.2",
+        "--format",
+        "json",
+        "--out",
+        dir.to_str().unwrap(),
+        "--force",
+    ]);
+    let text = String::from_utf8_lossy(&out.stdout).to_string();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{text}{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j: serde_json::Value = serde_json::from_str(&text).unwrap();
+    let largest = j["largest"]["factor"].as_f64().unwrap();
+    assert!(
+        (largest - 0.8).abs() < 0.8 * 0.01,
+        "largest factor {largest}, exact 0.8"
+    );
+    // the curve is monotone: a larger error never gets a smaller guaranteed bound
+    let bounds: Vec<f64> = j["curve"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(|p| p["bounds"]["x"]["upper"].as_f64())
+        .collect();
+    assert!(
+        bounds.len() >= 5 && bounds.windows(2).all(|w| w[0] <= w[1]),
+        "{bounds:?}"
+    );
+    for f in ["margin_u_true.svg", "margin_u_true.csv"] {
+        assert!(dir.join(f).is_file(), "{f} not written");
+    }
+    // not met even with this error at zero: the other disturbance alone gives |x| <= 0.25
+    let out = lawsmith(&[
+        "margin",
+        "tests/data/bound/two_disturbances.yaml",
+        "--uncertain",
+        "u_true",
+        "--bound",
+        "x=0.1",
+        "--points",
+        "2",
+    ]);
+    let text = String::from_utf8_lossy(&out.stdout).to_string();
+    assert_eq!(out.status.code(), Some(1), "{text}");
+    assert!(text.contains("not met even without this error"), "{text}");
+    // invalid requests name what is wrong
+    for (q, b, says) in [
+        ("nope", "x=0.2", "`nope` is not an uncertain quantity"),
+        ("u_true", "y=0.2", "`y` is not a state"),
+    ] {
+        let out = lawsmith(&[
+            "margin",
+            "tests/data/bound/scalar_disturbance.yaml",
+            "--uncertain",
+            q,
+            "--bound",
+            b,
+        ]);
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(3), "{err}");
+        assert!(err.contains(says) && !err.contains("panicked"), "{err}");
+    }
+}
+
+/// The LaTeX commands `derive --format latex` may use: LaTeX2e and amsmath (`align*`).
+const KNOWN_LATEX: &[&str] = &[
+    "begin",
+    "end",
+    "frac",
+    "cdot",
+    "left",
+    "right",
+    "mathrm",
+    "dot",
+    "sqrt",
+    "sin",
+    "cos",
+    "tan",
+    "arcsin",
+    "arccos",
+    "arctan",
+    "exp",
+    "ln",
+    "min",
+    "max",
+    "operatorname",
+    "lvert",
+    "rvert",
+    "alpha",
+    "beta",
+    "gamma",
+    "delta",
+    "epsilon",
+    "zeta",
+    "eta",
+    "theta",
+    "iota",
+    "kappa",
+    "lambda",
+    "mu",
+    "nu",
+    "xi",
+    "pi",
+    "rho",
+    "sigma",
+    "tau",
+    "upsilon",
+    "phi",
+    "chi",
+    "psi",
+    "omega",
+    "Omega",
+    "_",
+    "\\",
+    ",",
+    "quad",
+    "text",
+    "mathrm",
+];
+
+#[test]
+fn derive_latex_compiles_in_a_standalone_document() {
+    let engine = ["pdflatex", "lualatex", "xelatex", "tectonic"]
+        .into_iter()
+        .find(|e| {
+            Command::new(e)
+                .arg("--version")
+                .output()
+                .is_ok_and(|o| o.status.success())
+        });
+    let dir = std::env::temp_dir().join(format!("lawsmith-latex-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let mut specs: Vec<PathBuf> = ["specs", "tests/data/ok", "tests/data/bound"]
+        .iter()
+        .flat_map(|d| std::fs::read_dir(root().join(d)).unwrap())
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|x| x == "yaml"))
+        .collect();
+    specs.sort();
+    for spec in &specs {
+        let out = lawsmith(&["derive", spec.to_str().unwrap(), "--format", "latex"]);
+        assert_eq!(out.status.code(), Some(0), "{}", spec.display());
+        let body = String::from_utf8(out.stdout).unwrap();
+        let doc = format!(
+            "\\documentclass{{article}}\n\\usepackage{{amsmath}}\n\\begin{{document}}\n{body}\n\\end{{document}}\n"
+        );
+        if let Some(engine) = engine {
+            let tex = dir.join("derive.tex");
+            std::fs::write(&tex, &doc).unwrap();
+            let run = Command::new(engine)
+                .args(["-interaction=nonstopmode", "-halt-on-error", "derive.tex"])
+                .current_dir(&dir)
+                .output()
+                .unwrap();
+            assert!(
+                run.status.success(),
+                "{}: {engine} failed:\n{}",
+                spec.display(),
+                String::from_utf8_lossy(&run.stdout)
+            );
+            continue;
+        }
+        // no TeX engine here: the document must be ASCII, its braces and \left/\right
+        // balanced, its environments closed, and every command a known LaTeX/amsmath one
+        assert!(doc.is_ascii(), "{}: non-ASCII LaTeX", spec.display());
+        let mut depth = 0i64;
+        let mut prev = ' ';
+        for c in doc.chars() {
+            if prev != '\\' {
+                depth += match c {
+                    '{' => 1,
+                    '}' => -1,
+                    _ => 0,
+                };
+            }
+            assert!(depth >= 0, "{}: a `}}` closes nothing", spec.display());
+            prev = if prev == '\\' && c == '\\' { ' ' } else { c };
+        }
+        assert_eq!(depth, 0, "{}: unbalanced braces", spec.display());
+        assert_eq!(
+            doc.matches("\\left").count(),
+            doc.matches("\\right").count(),
+            "{}",
+            spec.display()
+        );
+        assert_eq!(
+            doc.matches("\\begin{").count(),
+            doc.matches("\\end{").count()
+        );
+        let bytes = doc.as_bytes();
+        let mut i = 0;
+        while i < bytes.len() {
+            if bytes[i] == b'\\' {
+                let start = i + 1;
+                let mut j = start;
+                while j < bytes.len() && bytes[j].is_ascii_alphabetic() {
+                    j += 1;
+                }
+                let word = if j == start {
+                    &doc[start..(start + 1).min(doc.len())]
+                } else {
+                    &doc[start..j]
+                };
+                assert!(
+                    KNOWN_LATEX.contains(&word)
+                        || ["documentclass", "usepackage", "document"].contains(&word),
+                    "{}: unknown command \\{word}",
+                    spec.display()
+                );
+                i = j.max(start + 1);
+            } else {
+                i += 1;
+            }
+        }
+    }
+    println!(
+        "{} specs: LaTeX {}",
+        specs.len(),
+        engine.map_or(
+            "checked structurally (no TeX engine installed)".to_string(),
+            |e| { format!("compiled with {e}") }
+        )
+    );
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn new_writes_a_starter_spec_that_proves_and_never_overwrites() {
+    let dir = std::env::temp_dir().join(format!("lawsmith-new-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    let d = dir.to_str().unwrap();
+    let out = lawsmith(&["new", "speed_hold", "--dir", d]);
+    assert_eq!(out.status.code(), Some(0));
+    let spec = dir.join("speed_hold.yaml");
+    let text = std::fs::read_to_string(&spec).unwrap();
+    assert!(text.contains("name: speed_hold") && text.contains("flight-test"));
+    let out = lawsmith(&["check", spec.to_str().unwrap(), "--format", "json"]);
+    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(j["verdict"], "proven", "{j}");
+    // an existing file is kept unless --force
+    std::fs::write(&spec, "mine\n").unwrap();
+    let out = lawsmith(&["new", "speed_hold", "--dir", d]);
+    assert_eq!(out.status.code(), Some(3));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("--force"));
+    assert_eq!(std::fs::read_to_string(&spec).unwrap(), "mine\n");
+    assert_eq!(
+        lawsmith(&["new", "speed_hold", "--dir", d, "--force"])
+            .status
+            .code(),
+        Some(0)
+    );
+    assert_eq!(std::fs::read_to_string(&spec).unwrap(), text);
+    // names must be identifiers valid in Rust and C
+    for bad in ["fn", "2fast", "spëed"] {
+        let out = lawsmith(&["new", bad, "--dir", d]);
+        assert_eq!(out.status.code(), Some(3), "{bad}");
+    }
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn output_paths_inside_specs_or_outside_the_tree_need_force() {
+    let dir = std::env::temp_dir().join(format!("lawsmith-outpath-{}", std::process::id()));
+    let d = dir.to_str().unwrap();
+    for args in [
+        vec![
+            "emit",
+            "specs/pendulum_damping.yaml",
+            "--out",
+            "specs/generated_here",
+        ],
+        vec!["emit", "specs/pendulum_damping.yaml", "--out", d],
+        vec![
+            "sim",
+            "specs/scenarios/speed_step.yaml",
+            "--out",
+            "specs/scenarios/out",
+        ],
+        vec!["build", "--generated", "specs/gen"],
+    ] {
+        let out = lawsmith(&args);
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(3), "{args:?}: {err}");
+        assert!(
+            err.contains("error[out-path]") && err.contains("--force"),
+            "{err}"
+        );
+    }
+    assert!(!root().join("specs/generated_here").exists() && !dir.exists());
+    assert!(!root().join("specs/gen").exists());
+}
+
+#[test]
+fn completions_and_quiet() {
+    for shell in ["bash", "zsh", "fish"] {
+        let out = lawsmith(&["completions", shell]);
+        assert_eq!(out.status.code(), Some(0));
+        let text = String::from_utf8_lossy(&out.stdout);
+        assert!(
+            text.contains("lawsmith") && text.contains("margin"),
+            "{shell}"
+        );
+    }
+    // --quiet keeps the answer and drops the rest; --verbose adds what was read
+    let quiet = lawsmith(&["--quiet", "check", "specs/pendulum_damping.yaml"]);
+    assert_eq!(quiet.status.code(), Some(0));
+    assert!(String::from_utf8_lossy(&quiet.stdout).contains("PROVEN"));
+    assert!(quiet.stderr.is_empty());
+    let verbose = lawsmith(&["--verbose", "check", "specs/pendulum_damping.yaml"]);
+    assert!(String::from_utf8_lossy(&verbose.stderr)
+        .contains("lawsmith: read specs/pendulum_damping.yaml"));
+}
+
+#[test]
+fn an_interrupted_build_leaves_generated_as_it_was() {
+    // a copy of the checkout's specs and generated code, with one spec edited so that a
+    // finished build would change generated/; the build is killed while it proves
+    let dir = std::env::temp_dir().join(format!("lawsmith-kill-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    copy_dir(&root().join("specs"), &dir.join("specs"));
+    copy_dir(&root().join("generated"), &dir.join("generated"));
+    // the first spec in build order: without staging, its files would be rewritten before
+    // the slow proof that follows it
+    let edited = dir.join("specs/energy_longitudinal.yaml");
+    let text = std::fs::read_to_string(&edited).unwrap();
+    std::fs::write(&edited, format!("# edited\n{text}")).unwrap();
+    let snapshot = |d: &Path| -> Vec<(PathBuf, Vec<u8>)> {
+        let mut v = Vec::new();
+        for e in std::fs::read_dir(d).unwrap() {
+            let p = e.unwrap().path();
+            for f in std::fs::read_dir(&p).unwrap() {
+                let f = f.unwrap().path();
+                v.push((f.clone(), std::fs::read(&f).unwrap()));
+            }
+        }
+        v.sort();
+        v
+    };
+    let before = snapshot(&dir.join("generated"));
+    let mut child = Command::new(env!("CARGO_BIN_EXE_lawsmith"))
+        .args(["build", "--report", "report"])
+        .current_dir(&dir)
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    // the uncertain spec alone takes seconds to prove: the build is still running
+    std::thread::sleep(std::time::Duration::from_millis(1500));
+    assert!(
+        child.try_wait().unwrap().is_none(),
+        "the build finished before it could be interrupted"
+    );
+    // SIGKILL: nothing runs after it, the hardest interruption
+    child.kill().unwrap();
+    child.wait().unwrap();
+    assert_eq!(snapshot(&dir.join("generated")), before);
+    // no temporary files left behind either
+    for (p, _) in &before {
+        for e in std::fs::read_dir(p.parent().unwrap()).unwrap() {
+            let name = e.unwrap().file_name().to_string_lossy().to_string();
+            assert!(!name.ends_with(".tmp"), "{name}");
+        }
+    }
     std::fs::remove_dir_all(&dir).unwrap();
 }
