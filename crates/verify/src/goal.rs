@@ -488,13 +488,7 @@ impl Compiled {
         s.point.extend(bx.iter().map(|x| Interval::point(x.mid())));
         let mut fc = [Interval::point(0.0)];
         self.value.run(&s.point, &mut s.iv, &mut fc);
-        let mut centered = fc[0];
-        for k in 0..n {
-            if bx[k].width() > 0.0 {
-                let dx = bx[k].add(&Interval::point(-bx[k].mid()));
-                centered = centered.add(&grad[k].mul(&dx));
-            }
-        }
+        let centered = mean_value(fc[0], &grad, bx);
         if centered.is_empty() || !centered.is_finite() {
             return (natural, grad);
         }
@@ -571,13 +565,7 @@ impl Compiled {
         s.point.extend(bx.iter().map(|x| Interval::point(x.mid())));
         let mut at_mid = vec![Interval::point(0.0); n + 1];
         tape.run(&s.point, &mut s.iv, &mut at_mid);
-        let mut centered = at_mid[0];
-        for k in 0..n {
-            if bx[k].width() > 0.0 {
-                let dx = bx[k].add(&Interval::point(-bx[k].mid()));
-                centered = centered.add(&grad[k].mul(&dx));
-            }
-        }
+        let centered = mean_value(at_mid[0], &grad, bx);
         if centered.is_empty() || !centered.is_finite() {
             return Some(natural);
         }
@@ -749,4 +737,17 @@ impl Compiled {
             })
             .sum()
     }
+}
+
+/// The centered (mean-value) form: `f(mid) + Σ ∂f/∂x_k(box) · (x_k − mid_k)` over the box,
+/// from the enclosure of `f` at the midpoint and of the gradient over the box.
+fn mean_value(at_mid: Interval, grad: &[Interval], bx: &[Interval]) -> Interval {
+    let mut centered = at_mid;
+    for (g, x) in grad.iter().zip(bx) {
+        if x.width() > 0.0 {
+            let dx = x.add(&Interval::point(-x.mid()));
+            centered = centered.add(&g.mul(&dx));
+        }
+    }
+    centered
 }
