@@ -27,9 +27,9 @@ pub const MAX_EXPANDED_POWER: u32 = 64;
 /// stays symbolic. Exponents of a monomial grow linearly with it.
 pub const MAX_SINGLE_TERM_POWER: u64 = 1 << 16;
 
-/// Largest growth, in bits, of a single term's coefficient under an exact power (power times
-/// the coefficient's size): `6^-666666663` would need 1.7·10⁹ bits and stays symbolic.
-pub const MAX_POWER_BITS: u64 = 1 << 16;
+/// Largest growth, in bits, of the coefficients under an exact power (power times the
+/// largest coefficient's size): `6^-666666663` would need 1.7·10⁹ bits and stays symbolic.
+pub const MAX_POWER_BITS: u64 = 4096;
 
 /// The bits of the largest numerator or denominator among the coefficients of `r`, less one
 /// (0 for coefficients ±1).
@@ -176,12 +176,16 @@ impl<'o> Simplifier<'o> {
             if k.is_integer() {
                 if let Some(n) = k.to_integer().to_i64() {
                     // one term to a high power stays one term, but its coefficient and
-                    // exponents grow with the power: bound both
+                    // exponents grow with the power: bound both (and the coefficients of
+                    // any expanded power)
+                    let small_coefficients =
+                        n.unsigned_abs().saturating_mul(coefficient_bits(&ra)) <= MAX_POWER_BITS;
                     let single_term = ra.num.0.len() <= 1
                         && ra.den.0.len() <= 1
-                        && n.unsigned_abs() <= MAX_SINGLE_TERM_POWER
-                        && n.unsigned_abs() * (coefficient_bits(&ra) + 1) <= MAX_POWER_BITS;
-                    if n.unsigned_abs() <= u64::from(MAX_EXPANDED_POWER) || single_term {
+                        && n.unsigned_abs() <= MAX_SINGLE_TERM_POWER;
+                    if small_coefficients
+                        && (n.unsigned_abs() <= u64::from(MAX_EXPANDED_POWER) || single_term)
+                    {
                         if let Ok(n32) = u32::try_from(n.unsigned_abs()) {
                             let p = Rat {
                                 num: ra.num.pow(n32),
