@@ -434,16 +434,20 @@ struct Loaded {
 fn read_spec(path: &Path) -> Option<Loaded> {
     let name = path.display().to_string();
     // refuse a huge file before reading it
-    if let Ok(meta) = std::fs::metadata(path) {
-        if meta.is_file() && meta.len() > lawsmith_spec::MAX_SPEC_BYTES as u64 {
+    let too_large = |len: u64| {
+        let over = len > lawsmith_spec::MAX_SPEC_BYTES as u64;
+        if over {
             eprintln!(
-                "error[too-large]: {name}:1:1: the file is {} bytes; the limit is {} bytes (MAX_SPEC_BYTES)",
-                meta.len(),
+                "error[too-large]: {name}:1:1: the file is {len} bytes; the limit is {} bytes (MAX_SPEC_BYTES)",
                 lawsmith_spec::MAX_SPEC_BYTES
             );
             eprintln!("  = hint: split the file or remove generated content");
-            return None;
         }
+        over
+    };
+    // a regular file is measured before it is read; anything else (a pipe) after
+    if std::fs::metadata(path).is_ok_and(|m| m.is_file() && too_large(m.len())) {
+        return None;
     }
     let bytes = match std::fs::read(path) {
         Ok(b) => b,
@@ -452,12 +456,7 @@ fn read_spec(path: &Path) -> Option<Loaded> {
             return None;
         }
     };
-    if bytes.len() > lawsmith_spec::MAX_SPEC_BYTES {
-        eprintln!(
-            "error[too-large]: {name}:1:1: the file is {} bytes; the limit is {} bytes (MAX_SPEC_BYTES)",
-            bytes.len(),
-            lawsmith_spec::MAX_SPEC_BYTES
-        );
+    if too_large(bytes.len() as u64) {
         return None;
     }
     let source = match std::str::from_utf8(&bytes) {
