@@ -6,6 +6,17 @@
 
 use std::time::Duration;
 
+/// The expansion budget of the harnesses: milliseconds of work (tens in an instrumented build).
+const FUZZ_TERM_PRODUCTS: u64 = 5_000;
+
+/// The derivation's limits in the harnesses.
+fn fuzz_limits() -> lawsmith_expr::DagLimits {
+    lawsmith_expr::DagLimits {
+        max_term_products: FUZZ_TERM_PRODUCTS,
+        ..Default::default()
+    }
+}
+
 /// A formula: parse, and on success lower, print, differentiate and simplify.
 pub fn formula(data: &[u8]) {
     let Ok(text) = std::str::from_utf8(data) else {
@@ -14,7 +25,8 @@ pub fn formula(data: &[u8]) {
     let Ok(ast) = lawsmith_expr::parse(text) else {
         return;
     };
-    let mut dag = lawsmith_expr::Dag::new();
+    // a tight expansion budget keeps every input fast; hitting it is a normal outcome
+    let mut dag = lawsmith_expr::Dag::with_limits(fuzz_limits());
     let mut errors = Vec::new();
     if let Some(e) = lawsmith_expr::lower(
         &mut dag,
@@ -46,6 +58,7 @@ pub fn spec(data: &[u8]) {
             let _ = lawsmith_spec::render("fuzz.yaml", text, &diags);
         }
         Ok(mut s) => {
+            s.dag.set_limits(fuzz_limits());
             let _ = lawsmith_spec::derive(&mut s);
         }
     }
@@ -60,12 +73,13 @@ pub fn check_emit(data: &[u8]) {
         return;
     };
     let settings = lawsmith_verify::Settings {
-        samples: 200,
+        samples: 50,
         budget: lawsmith_verify::Budget {
-            max_boxes: 2_000,
-            max_queue: 10_000,
-            time_limit: Duration::from_millis(200),
+            max_boxes: 200,
+            max_queue: 2_000,
+            time_limit: Duration::from_millis(50),
         },
+        dag: fuzz_limits(),
         ..Default::default()
     };
     let Ok((report, _)) = lawsmith_verify::check(&mut s, &settings, &|_, _, _| {}) else {

@@ -143,6 +143,11 @@ impl Node {
     }
 }
 
+/// Default of [`DagLimits::max_term_products`]: seconds of expansion on a 2-core machine (the
+/// `expansion-budget` bad input reaches it in 2 s), while the reference spec's whole
+/// derivation spends 1,012.
+pub const DEFAULT_MAX_TERM_PRODUCTS: u64 = 20_000_000;
+
 /// Settings that bound the work a DAG may do.
 #[derive(Clone, Debug)]
 pub struct DagLimits {
@@ -150,6 +155,12 @@ pub struct DagLimits {
     /// expressions can grow the DAG quickly; callers check [`Dag::over_budget`] after each stage
     /// and report the setting to raise.
     pub max_nodes: usize,
+    /// Largest number of term products one simplifier may form while expanding products and
+    /// powers into canonical form, each weighted by the sizes of its two coefficients in
+    /// 64-bit words (1 for the small coefficients of real laws). A product of many sums (`(a1+b1)*(a2+b2)*…`) has
+    /// exponentially many terms while its DAG stays small; this budget stops the expansion
+    /// early, the simplifier returns its input unchanged, and `derive` reports the setting.
+    pub max_term_products: u64,
 }
 
 impl Default for DagLimits {
@@ -158,6 +169,7 @@ impl Default for DagLimits {
         // (the reference spec needs a few thousand) and well below the machine's memory.
         DagLimits {
             max_nodes: 4_000_000,
+            max_term_products: DEFAULT_MAX_TERM_PRODUCTS,
         }
     }
 }
@@ -197,6 +209,11 @@ impl Dag {
     /// The limits this DAG was made with.
     pub fn limits(&self) -> &DagLimits {
         &self.limits
+    }
+
+    /// Replaces the limits (a command line's `--max-nodes`, say); nodes already held stay.
+    pub fn set_limits(&mut self, limits: DagLimits) {
+        self.limits = limits;
     }
 
     /// Number of distinct nodes.

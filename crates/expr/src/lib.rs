@@ -39,7 +39,7 @@ pub mod random;
 mod rules;
 mod simplify;
 
-pub use dag::{Dag, DagLimits, ExprId, Func, Node};
+pub use dag::{Dag, DagLimits, ExprId, Func, Node, DEFAULT_MAX_TERM_PRODUCTS};
 pub use diff::derivative;
 pub use eval::{apply, eval, pow, powi, Arith, Tape};
 pub use lower::{lower, parse_expr, LowerError, PlainSymbols, Resolver};

@@ -260,22 +260,6 @@ impl Poly {
         out
     }
 
-    pub(crate) fn pow(&self, n: u32) -> Poly {
-        let mut result = Poly::one();
-        let mut base = self.clone();
-        let mut n = n;
-        while n > 0 {
-            if n & 1 == 1 {
-                result = result.mul(&base);
-            }
-            n >>= 1;
-            if n > 0 {
-                base = base.mul(&base);
-            }
-        }
-        result
-    }
-
     /// Leading term under the lexicographic variable-index order.
     pub(crate) fn lead(&self) -> Option<(&Mono, &BigRational)> {
         self.0.iter().next_back()
@@ -389,9 +373,15 @@ fn words(p: &Poly) -> usize {
 
 /// Greatest common divisor, normalised to leading coefficient 1 (variable-index order), or
 /// `None` when the work allowance ran out.
+#[cfg(test)]
 pub(crate) fn gcd(a: &Poly, b: &Poly) -> Option<Poly> {
     let mut budget = GCD_BUDGET;
     gcd_in(a, b, &mut budget)
+}
+
+/// [`gcd`] spending from `budget` (what is left of it on return), `None` when it ran out.
+pub(crate) fn gcd_within(a: &Poly, b: &Poly, budget: &mut u64) -> Option<Poly> {
+    gcd_in(a, b, budget)
 }
 
 fn spend(budget: &mut u64, work: usize) -> Option<()> {

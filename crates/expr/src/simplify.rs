@@ -10,7 +10,7 @@
 //! as rational functions of their atoms simplify to the same id.
 
 use crate::dag::{Dag, ExprId, Func, Node};
-use crate::poly::{gcd, lex_cmp, Mono, Poly, Var};
+use crate::poly::{gcd_within, lex_cmp, Mono, Poly, Var, GCD_BUDGET};
 use crate::print::to_text;
 use crate::rules::{CompiledRules, CondKind, Condition, Oracle};
 use num_bigint::BigInt;
@@ -43,6 +43,26 @@ fn coefficient_bits(r: &Rat) -> u64 {
         .unwrap_or(0)
 }
 
+/// The size of a polynomial's largest coefficient in 64-bit words (numerator and denominator
+/// together), at least 1.
+fn coefficient_words(p: &Poly) -> usize {
+    let bits =
+        p.0.values()
+            .map(|c| c.numer().bits() + c.denom().bits())
+            .max()
+            .unwrap_or(0);
+    1 + (bits / 64) as usize
+}
+
+/// What forming `p * q` is charged: its term products, each weighted by the product of the
+/// coefficients' sizes in words (exact big-number products and their gcds grow about so), so
+/// that long decimals raised to powers cannot run for seconds under a small term count.
+fn product_cost(p: &Poly, q: &Poly) -> usize {
+    p.0.len()
+        .saturating_mul(q.0.len())
+        .saturating_mul(coefficient_words(p).saturating_mul(coefficient_words(q)))
+}
+
 #[derive(Clone, Debug)]
 struct Rat {
     num: Poly,
@@ -67,6 +87,13 @@ pub struct Simplifier<'o> {
     atom_index: HashMap<ExprId, Var>,
     memo: HashMap<ExprId, Rat>,
     out_memo: HashMap<ExprId, ExprId>,
+    /// Weighted term products still allowed ([`crate::DagLimits::max_term_products`]).
+    work_left: u64,
+    /// Work spent so far.
+    work_done: u64,
+    /// Set once the budget ran out: from then on every call returns its input unchanged
+    /// (sound, but no longer canonical), and what was computed meanwhile is discarded.
+    exhausted: bool,
 }
 
 /// Simplifies one expression.
@@ -84,15 +111,85 @@ impl<'o> Simplifier<'o> {
             atom_index: HashMap::new(),
             memo: HashMap::new(),
             out_memo: HashMap::new(),
+            work_left: dag.limits().max_term_products,
+            work_done: 0,
+            exhausted: false,
         }
     }
 
-    /// The canonical form of `e`.
+    /// True once the expansion budget ran out; the results since are the inputs unchanged.
+    pub fn exhausted(&self) -> bool {
+        self.exhausted
+    }
+
+    /// Term products formed so far (what [`crate::DagLimits::max_term_products`] bounds).
+    pub fn work(&self) -> u64 {
+        self.work_done
+    }
+
+    /// Spends `cost` (weighted term products); false, and exhausted from then on, when the
+    /// budget does not cover it.
+    fn afford(&mut self, cost: usize) -> bool {
+        let cost = cost as u64;
+        if self.exhausted || cost > self.work_left {
+            self.exhausted = true;
+            return false;
+        }
+        self.work_left -= cost;
+        self.work_done += cost;
+        true
+    }
+
+    /// The gcd of `p` and `q`, its work (at most [`GCD_BUDGET`] per gcd) charged to the
+    /// expansion budget too. `None` when either allowance ran out: the caller then does not
+    /// cancel, and when it was the expansion budget, the simplifier is exhausted.
+    fn gcd(&mut self, p: &Poly, q: &Poly) -> Option<Poly> {
+        let allowance = GCD_BUDGET.min(self.work_left);
+        let mut left = allowance;
+        let g = gcd_within(p, q, &mut left);
+        let spent = allowance - left;
+        self.work_left -= spent;
+        self.work_done += spent;
+        if g.is_none() && allowance < GCD_BUDGET {
+            self.exhausted = true;
+        }
+        g
+    }
+
+    /// `p * q` within the budget (`None` when it ran out).
+    fn mul_poly(&mut self, p: &Poly, q: &Poly) -> Option<Poly> {
+        self.afford(product_cost(p, q)).then(|| p.mul(q))
+    }
+
+    /// `p^n` by squaring within the budget.
+    fn pow_poly(&mut self, p: &Poly, n: u32) -> Option<Poly> {
+        let mut result = Poly::one();
+        let mut base = p.clone();
+        let mut n = n;
+        while n > 0 {
+            if n & 1 == 1 {
+                result = self.mul_poly(&result, &base)?;
+            }
+            n >>= 1;
+            if n > 0 {
+                base = self.mul_poly(&base, &base)?;
+            }
+        }
+        Some(result)
+    }
+
+    /// The canonical form of `e`, or `e` itself once the budget has run out.
     pub fn simplify(&mut self, dag: &mut Dag, e: ExprId) -> ExprId {
         if let Some(&r) = self.out_memo.get(&e) {
             return r;
         }
+        if self.exhausted {
+            return e;
+        }
         let rat = self.rat_of(dag, e);
+        if self.exhausted {
+            return e;
+        }
         let out = self.rat_expr(dag, &rat);
         self.out_memo.insert(e, out);
         self.out_memo.insert(out, out);
@@ -119,6 +216,10 @@ impl<'o> Simplifier<'o> {
     fn rat_of(&mut self, dag: &mut Dag, e: ExprId) -> Rat {
         if let Some(r) = self.memo.get(&e) {
             return r.clone();
+        }
+        if self.exhausted {
+            // unwinding: the value is discarded by `simplify`
+            return Self::constant(BigRational::zero());
         }
         let node = dag.node(e).clone();
         let r = match node {
@@ -164,7 +265,9 @@ impl<'o> Simplifier<'o> {
             Node::Pow(a, b) => self.power(dag, a, b),
             Node::Call(f, xs) => self.call(dag, f, &xs),
         };
-        self.memo.insert(e, r.clone());
+        if !self.exhausted {
+            self.memo.insert(e, r.clone());
+        }
         r
     }
 
@@ -187,10 +290,12 @@ impl<'o> Simplifier<'o> {
                         && (n.unsigned_abs() <= u64::from(MAX_EXPANDED_POWER) || single_term)
                     {
                         if let Ok(n32) = u32::try_from(n.unsigned_abs()) {
-                            let p = Rat {
-                                num: ra.num.pow(n32),
-                                den: ra.den.pow(n32),
+                            let (Some(num), Some(den)) =
+                                (self.pow_poly(&ra.num, n32), self.pow_poly(&ra.den, n32))
+                            else {
+                                return Self::constant(BigRational::zero());
                             };
+                            let p = Rat { num, den };
                             let p = if n < 0 { self.inv(&p) } else { Some(p) };
                             if let Some(p) = p {
                                 let p = self.normalise(p);
@@ -236,12 +341,21 @@ impl<'o> Simplifier<'o> {
         if b.num.is_zero() {
             return a.clone();
         }
+        let cross = product_cost(&a.num, &b.den)
+            .saturating_add(product_cost(&b.num, &a.den))
+            .saturating_add(product_cost(&a.den, &b.den));
+        if !self.afford(cross) {
+            return Self::constant(BigRational::zero());
+        }
         if a.den == b.den {
             let num = a.num.add(&b.num);
             return self.cancel_with(dag, num, a.den.clone(), &a.den);
         }
         // a failed (over-budget) gcd is treated like a trivial one: no cancellation
-        match gcd(&a.den, &b.den).filter(|g| g.as_constant().is_none()) {
+        match self
+            .gcd(&a.den, &b.den)
+            .filter(|g| g.as_constant().is_none())
+        {
             Some(g) => {
                 let bd = a.den.div_exact(&g).expect("gcd divides");
                 let dd = b.den.div_exact(&g).expect("gcd divides");
@@ -266,10 +380,10 @@ impl<'o> Simplifier<'o> {
         }
         let (an, bd) = self.cancel_pair(dag, &a.num, &b.den);
         let (bn, ad) = self.cancel_pair(dag, &b.num, &a.den);
-        let r = self.normalise(Rat {
-            num: an.mul(&bn),
-            den: ad.mul(&bd),
-        });
+        let (Some(num), Some(den)) = (self.mul_poly(&an, &bn), self.mul_poly(&ad, &bd)) else {
+            return Self::constant(BigRational::zero());
+        };
+        let r = self.normalise(Rat { num, den });
         self.reduce_radicals(dag, r)
     }
 
@@ -278,7 +392,7 @@ impl<'o> Simplifier<'o> {
         if q.as_constant().is_some() || self.oracle.refuses_all() {
             return (p.clone(), q.clone());
         }
-        match gcd(p, q) {
+        match self.gcd(p, q) {
             Some(g) if g.as_constant().is_none() && self.may_cancel(dag, &g) => (
                 p.div_exact(&g).expect("gcd divides"),
                 q.div_exact(&g).expect("gcd divides"),
@@ -296,7 +410,7 @@ impl<'o> Simplifier<'o> {
         if self.oracle.refuses_all() {
             return self.normalise(Rat { num, den });
         }
-        let (num, den) = match gcd(&num, g) {
+        let (num, den) = match self.gcd(&num, g) {
             Some(h) if h.as_constant().is_none() && self.may_cancel(dag, &h) => (
                 num.div_exact(&h).expect("gcd divides"),
                 den.div_exact(&h).expect("gcd divides"),
@@ -370,11 +484,13 @@ impl<'o> Simplifier<'o> {
         let den = self.expand_radicals(dag, &r.den);
         match self.inv(&den) {
             Some(inv) => {
-                let prod = Rat {
-                    num: num.num.mul(&inv.num),
-                    den: num.den.mul(&inv.den),
+                let (Some(n), Some(d)) = (
+                    self.mul_poly(&num.num, &inv.num),
+                    self.mul_poly(&num.den, &inv.den),
+                ) else {
+                    return r;
                 };
-                self.reduce(dag, prod)
+                self.reduce(dag, Rat { num: n, den: d })
             }
             None => r,
         }
@@ -402,31 +518,32 @@ impl<'o> Simplifier<'o> {
                     }
                     Node::Call(Func::Abs, args) if pairs > 0 => {
                         let u = self.rat_of(dag, args[0]);
-                        Some(Rat {
-                            num: u.num.pow(2),
-                            den: u.den.pow(2),
-                        })
+                        match (self.pow_poly(&u.num, 2), self.pow_poly(&u.den, 2)) {
+                            (Some(num), Some(den)) => Some(Rat { num, den }),
+                            _ => return Self::constant(BigRational::zero()),
+                        }
                     }
                     _ => None,
                 };
                 let factor = match inner {
                     Some(u) => {
-                        let mut f = Rat {
-                            num: u
-                                .num
-                                .pow(pairs)
-                                .mul(&Poly::term(Mono::var(v, rest), BigRational::one())),
-                            den: u.den.pow(pairs),
+                        let (Some(num), Some(den)) =
+                            (self.pow_poly(&u.num, pairs), self.pow_poly(&u.den, pairs))
+                        else {
+                            return Self::constant(BigRational::zero());
                         };
-                        f = self.reduce(dag, f);
-                        f
+                        let num = num.mul(&Poly::term(Mono::var(v, rest), BigRational::one()));
+                        self.reduce(dag, Rat { num, den })
                     }
                     None => Rat::poly(Poly::term(Mono::var(v, e), BigRational::one())),
                 };
-                term = Rat {
-                    num: term.num.mul(&factor.num),
-                    den: term.den.mul(&factor.den),
+                let (Some(num), Some(den)) = (
+                    self.mul_poly(&term.num, &factor.num),
+                    self.mul_poly(&term.den, &factor.den),
+                ) else {
+                    return Self::constant(BigRational::zero());
                 };
+                term = Rat { num, den };
             }
             acc = self.add(dag, &acc, &term);
         }
