@@ -1,13 +1,14 @@
 //! `lawsmith build`: the main job on every example spec: prove, generate `generated/`, fly
 //! the example scenarios into `report/` with a `report/index.md`, print a summary table.
 
-use crate::emit_cmd::{emit_one, generated_dir, specs_in, write_files};
+use crate::emit_cmd::{emit_one, generated_dir, print_json, specs_in, status_of, write_files};
 use crate::progress::Progress;
 use crate::sim_cmd::{bound_table, fly_all, load_setup, write_run};
-use crate::{write_atomic, EXIT_INVALID};
+use crate::{write_atomic, ReportFormat, EXIT_INVALID};
 use lawsmith_codegen::{Float, Lang};
 use lawsmith_verify::Settings;
 use lawsmith_verify::{BoundReport, Verdict};
+use serde_json::{json, Value};
 use std::collections::HashMap;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -22,6 +23,7 @@ pub fn build_cmd(
     generated: &Path,
     report: &Path,
     settings: &Settings,
+    format: ReportFormat,
 ) -> ExitCode {
     let specs = specs_in(specs_dir);
     if specs.is_empty() {
@@ -30,6 +32,7 @@ pub fn build_cmd(
     }
     let progress = Progress::new();
     let mut rows = Vec::new();
+    let mut json_specs: Vec<Value> = Vec::new();
     let mut notes: Vec<String> = Vec::new();
     let mut md = String::from("# lawsmith report\n\nWritten by `lawsmith build`. The airframe and the scenarios are the invented demo\nairframe and scenarios of lawsmith's examples, not a real aircraft.\n\n## Specs\n\n| spec | claim | verdict | boxes | worst sampled margin | ops/step | saturation (share of sampled envelope) |\n|---|---|---|---:|---:|---:|---|\n");
     let mut code = 0u8;
@@ -45,6 +48,7 @@ pub fn build_cmd(
         match emit_one(spec, settings, Lang::All, Float::F64, false, &progress) {
             Err(c) => {
                 code = code.max(c);
+                json_specs.push(json!({ "spec": name, "status": status_of(c) }));
                 let _ = writeln!(md, "| {name} | - | not emitted | - | - | - | - |");
                 rows.push(vec![
                     name,
@@ -60,6 +64,21 @@ pub fn build_cmd(
                 // build leaves the previous generated/ as it was
                 let dir = generated_dir(generated, spec);
                 let written = format!("{}/ ({} files)", dir.display(), e.files.len());
+                json_specs.push(json!({
+                    "spec": name,
+                    "status": "generated",
+                    "claim": e.report.claim.name(),
+                    "verdict": e.report.verdict.name(),
+                    "boxes": e.report.boxes,
+                    "seconds": e.report.seconds,
+                    "worst_sampled_margin": e.report.min_margin,
+                    "ops_per_step": e.controller.op_count(),
+                    "generated": dir.display().to_string(),
+                    "files": e.files.iter().map(|(n, _)| n.as_str()).collect::<Vec<_>>(),
+                    "saturation": e.report.saturation.iter().map(|a| json!({
+                        "actuator": a.actuator, "share": a.share,
+                    })).collect::<Vec<_>>(),
+                }));
                 pending.push((dir, e.files.clone()));
                 let sat: Vec<String> = e
                     .report
@@ -197,6 +216,15 @@ pub fn build_cmd(
             report.join("index.md").display()
         );
         code = EXIT_INVALID;
+    }
+    if format == ReportFormat::Json {
+        print_json(&json!({
+            "exit_code": code,
+            "specs": json_specs,
+            "scenarios": sim_rows,
+            "report": report.join("index.md").display().to_string(),
+        }));
+        return ExitCode::from(code);
     }
     let head = [
         "spec",

@@ -3,6 +3,7 @@
 
 use crate::progress::Progress;
 use crate::{read_spec, ReportFormat, EXIT_INVALID};
+use lawsmith_expr::DagLimits;
 use lawsmith_verify::{
     certificate, check, prepare, recheck, report, sha256_hex, BoundSettings, Budget, Origin,
     Settings, Verdict,
@@ -15,6 +16,26 @@ use std::time::Duration;
 /// Exit codes of `check`.
 const EXIT_FALSIFIED: u8 = 1;
 const EXIT_INCONCLUSIVE: u8 = 2;
+
+/// The limits of the symbolic work, as options.
+#[derive(clap::Args, Clone, Debug)]
+pub struct ExprLimits {
+    /// Expression nodes the derivation may hold (memory).
+    #[arg(long, default_value_t = DagLimits::default().max_nodes)]
+    max_nodes: usize,
+    /// Term products the simplifier may form expanding V̇ and the closed loop (time).
+    #[arg(long, default_value_t = DagLimits::default().max_term_products)]
+    max_term_products: u64,
+}
+
+impl ExprLimits {
+    pub fn dag(&self) -> DagLimits {
+        DagLimits {
+            max_nodes: self.max_nodes,
+            max_term_products: self.max_term_products,
+        }
+    }
+}
 
 /// The prover's limits, as options.
 #[derive(clap::Args, Clone, Debug)]
@@ -34,6 +55,8 @@ pub struct Limits {
     /// Ultimate bounds: relative width at which the bisection over the level stops.
     #[arg(long, value_name = "FRACTION", default_value_t = BoundSettings::default().level_tolerance)]
     level_tolerance: f64,
+    #[command(flatten)]
+    expr: ExprLimits,
 }
 
 impl Limits {
@@ -49,6 +72,7 @@ impl Limits {
                 level_tolerance: self.level_tolerance.clamp(1e-9, 0.5),
                 ..BoundSettings::default()
             },
+            dag: self.expr.dag(),
         }
     }
 
@@ -57,6 +81,8 @@ impl Limits {
             "samples": self.samples, "max_boxes": self.max_boxes,
             "time_limit_s": self.time_limit, "max_queue": self.max_queue,
             "level_tolerance": self.level_tolerance,
+            "max_nodes": self.expr.max_nodes,
+            "max_term_products": self.expr.max_term_products,
         })
     }
 }
@@ -103,7 +129,7 @@ pub fn check_cmd(
                 progress.finish();
                 match r {
                     Err(e) => {
-                        eprintln!("error[check]: {}: {e}", path.display());
+                        crate::print_check_error(path, &loaded.bytes, &e);
                         EXIT_INVALID
                     }
                     Ok((report, prepared)) => {
@@ -155,7 +181,12 @@ pub fn check_cmd(
     ExitCode::from(worst)
 }
 
-pub fn recheck_cmd(cert_path: &Path, spec_path: &Path) -> ExitCode {
+pub fn recheck_cmd(
+    cert_path: &Path,
+    spec_path: &Path,
+    expr: &ExprLimits,
+    format: ReportFormat,
+) -> ExitCode {
     let text = match std::fs::read_to_string(cert_path) {
         Ok(t) => t,
         Err(e) => {
@@ -178,14 +209,37 @@ pub fn recheck_cmd(cert_path: &Path, spec_path: &Path) -> ExitCode {
     let Some(mut loaded) = read_spec(spec_path) else {
         return ExitCode::from(EXIT_INVALID);
     };
+    loaded.spec.dag.set_limits(expr.dag());
     let prepared = match prepare(&mut loaded.spec) {
         Ok(p) => p,
         Err(e) => {
-            eprintln!("error[check]: {}: {e}", spec_path.display());
+            crate::print_check_error(spec_path, &loaded.bytes, &e);
             return ExitCode::from(EXIT_INVALID);
         }
     };
-    match recheck(&cert, &sha256_hex(&loaded.bytes), &prepared) {
+    let outcome = recheck(&cert, &sha256_hex(&loaded.bytes), &prepared);
+    if format == ReportFormat::Json {
+        let v = match &outcome {
+            Ok(r) => json!({
+                "certificate": cert_path.display().to_string(),
+                "spec": spec_path.display().to_string(),
+                "accepted": true,
+                "goals": r.goals,
+                "leaf_boxes": r.leaves,
+                "counterexamples": r.counterexamples,
+                "verdict": r.verdict.name(),
+            }),
+            Err(e) => json!({
+                "certificate": cert_path.display().to_string(),
+                "spec": spec_path.display().to_string(),
+                "accepted": false,
+                "reason": e.to_string(),
+            }),
+        };
+        println!("{}", serde_json::to_string_pretty(&v).expect("json"));
+        return ExitCode::from(if outcome.is_ok() { 0 } else { EXIT_FALSIFIED });
+    }
+    match outcome {
         Ok(r) => {
             println!(
                 "accepted: {} re-checked against {} ({} goals, {} leaf boxes re-evaluated, {} counterexamples re-confirmed); verdict {}",

@@ -1,28 +1,38 @@
 //! `lawsmith derive`: V, V̇ and the laws in base symbols, as text, LaTeX or JSON.
 
 use crate::{read_spec, Format, EXIT_INVALID};
-use lawsmith_expr::{to_latex, to_text};
+use lawsmith_expr::{to_latex, to_text, DagLimits};
 use lawsmith_spec::{derive, uncertainty_name, Derivation, ErrorForm, Spec};
 use serde_json::{json, Map, Value};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
-pub fn derive_cmd(paths: &[PathBuf], format: Format) -> ExitCode {
+pub fn derive_cmd(paths: &[PathBuf], format: Format, limits: &DagLimits) -> ExitCode {
     let mut failed = false;
     let mut json_out = Vec::new();
     for (i, path) in paths.iter().enumerate() {
-        let Some(crate::Loaded { mut spec, .. }) = read_spec(path) else {
+        let Some(crate::Loaded { mut spec, bytes }) = read_spec(path) else {
             failed = true;
             continue;
         };
+        spec.dag.set_limits(limits.clone());
         let d = match derive(&mut spec) {
             Ok(d) => d,
             Err(e) => {
-                eprintln!("error[derive]: {}: {e}", path.display());
+                crate::print_derive_error(path, &bytes, &e);
                 failed = true;
                 continue;
             }
         };
+        if crate::verbosity() >= 2 {
+            eprintln!(
+                "lawsmith: derived {}: {} expression nodes, {} of {} term products of the expansion budget",
+                spec.name,
+                spec.dag.len(),
+                d.work,
+                limits.max_term_products
+            );
+        }
         match format {
             Format::Json => json_out.push(derivation_json(&spec, &d, path)),
             Format::Text => {

@@ -2,9 +2,10 @@
 //! compare with what is committed.
 
 use crate::progress::Progress;
-use crate::{read_spec, write_atomic, EXIT_INVALID};
+use crate::{read_spec, write_atomic, ReportFormat, EXIT_INVALID};
 use lawsmith_codegen::{generate, Controller, Float, Lang, Provenance, MARKER};
 use lawsmith_verify::{check, sha256_hex, CheckReport, Settings, Verdict};
+use serde_json::{json, Value};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -48,7 +49,7 @@ pub fn emit_one(
     });
     progress.finish();
     let (report, _) = r.map_err(|e| {
-        eprintln!("error[check]: {}: {e}", path.display());
+        crate::print_check_error(path, &loaded.bytes, &e);
         EXIT_INVALID
     })?;
     if report.verdict != Verdict::Proven && !allow_unproven {
@@ -120,33 +121,69 @@ pub fn emit_cmd(
     out: &Path,
     allow_unproven: bool,
     settings: &Settings,
+    format: ReportFormat,
 ) -> ExitCode {
     let progress = Progress::new();
     let mut code = 0u8;
+    let mut json_out = Vec::new();
     for path in specs {
+        let spec = path.display().to_string();
         match emit_one(path, settings, lang, float, allow_unproven, &progress) {
-            Err(c) => code = code.max(c),
+            Err(c) => {
+                code = code.max(c);
+                json_out.push(json!({ "spec": spec, "status": status_of(c) }));
+            }
             Ok(e) => match write_files(out, &e.files) {
                 Ok(written) => {
                     let names: Vec<String> =
                         written.iter().map(|p| p.display().to_string()).collect();
-                    println!(
-                        "{}: {} ({}), {} arithmetic operations per step; wrote {}",
-                        e.controller.name,
-                        e.report.verdict.name(),
-                        e.report.claim.name(),
-                        e.controller.op_count(),
-                        names.join(", ")
-                    );
+                    if format == ReportFormat::Json {
+                        json_out.push(json!({
+                            "spec": spec,
+                            "status": "written",
+                            "name": e.controller.name,
+                            "claim": e.report.claim.name(),
+                            "verdict": e.report.verdict.name(),
+                            "ops_per_step": e.controller.op_count(),
+                            "files": names,
+                        }));
+                    } else {
+                        println!(
+                            "{}: {} ({}), {} arithmetic operations per step; wrote {}",
+                            e.controller.name,
+                            e.report.verdict.name(),
+                            e.report.claim.name(),
+                            e.controller.op_count(),
+                            names.join(", ")
+                        );
+                    }
                 }
                 Err(msg) => {
                     eprintln!("error[io]: {msg}");
                     code = EXIT_INVALID;
+                    json_out.push(json!({ "spec": spec, "status": "not-written", "error": msg }));
                 }
             },
         }
     }
+    if format == ReportFormat::Json {
+        print_json(&json!({ "exit_code": code, "specs": json_out }));
+    }
     ExitCode::from(code)
+}
+
+/// What became of a spec that was not emitted, by the exit code `emit_one` gave.
+pub fn status_of(code: u8) -> &'static str {
+    if code == EXIT_REFUSED {
+        "refused-unproven"
+    } else {
+        "invalid"
+    }
+}
+
+/// Prints a JSON document to stdout, pretty.
+pub fn print_json(v: &Value) {
+    println!("{}", serde_json::to_string_pretty(v).expect("json"));
 }
 
 /// The spec files of a directory, sorted.
@@ -169,7 +206,12 @@ pub fn generated_dir(root: &Path, spec: &Path) -> PathBuf {
 
 /// `emit --check`: every spec of `specs_dir` regenerated in memory and compared with
 /// `generated_dir`; a unified diff for each difference.
-pub fn check_cmd(specs_dir: &Path, generated: &Path, settings: &Settings) -> ExitCode {
+pub fn check_cmd(
+    specs_dir: &Path,
+    generated: &Path,
+    settings: &Settings,
+    format: ReportFormat,
+) -> ExitCode {
     let progress = Progress::new();
     let specs = specs_in(specs_dir);
     if specs.is_empty() {
@@ -178,11 +220,15 @@ pub fn check_cmd(specs_dir: &Path, generated: &Path, settings: &Settings) -> Exi
     }
     let mut stale = 0;
     let mut code = 0u8;
+    let json = format == ReportFormat::Json;
+    let mut differences = Vec::new();
+    let mut failed = Vec::new();
     for spec in &specs {
         let e = match emit_one(spec, settings, Lang::All, Float::F64, false, &progress) {
             Ok(e) => e,
             Err(c) => {
                 code = code.max(c);
+                failed.push(json!({ "spec": spec.display().to_string(), "status": status_of(c) }));
                 continue;
             }
         };
@@ -193,13 +239,19 @@ pub fn check_cmd(specs_dir: &Path, generated: &Path, settings: &Settings) -> Exi
             if have != *want {
                 stale += 1;
                 let diff = similar::TextDiff::from_lines(&have, want);
-                print!(
-                    "{}",
-                    diff.unified_diff().context_radius(3).header(
+                let text = diff
+                    .unified_diff()
+                    .context_radius(3)
+                    .header(
                         &p.display().to_string(),
-                        &format!("{} (regenerated)", p.display())
+                        &format!("{} (regenerated)", p.display()),
                     )
-                );
+                    .to_string();
+                if json {
+                    differences.push(json!({ "file": p.display().to_string(), "diff": text }));
+                } else {
+                    print!("{text}");
+                }
             }
         }
         let expected: Vec<&str> = e.files.iter().map(|(n, _)| n.as_str()).collect();
@@ -208,21 +260,40 @@ pub fn check_cmd(specs_dir: &Path, generated: &Path, settings: &Settings) -> Exi
                 let n = f.file_name().to_string_lossy().to_string();
                 if !expected.contains(&n.as_str()) {
                     stale += 1;
-                    println!(
-                        "{}: not generated from {} any more",
-                        f.path().display(),
-                        spec.display()
-                    );
+                    if json {
+                        differences.push(json!({
+                            "file": f.path().display().to_string(),
+                            "not_generated_from": spec.display().to_string(),
+                        }));
+                    } else {
+                        println!(
+                            "{}: not generated from {} any more",
+                            f.path().display(),
+                            spec.display()
+                        );
+                    }
                 }
             }
         }
     }
     if stale > 0 {
+        code = code.max(EXIT_REFUSED);
+    }
+    if json {
+        print_json(&json!({
+            "exit_code": code,
+            "generated": generated.display().to_string(),
+            "specs_dir": specs_dir.display().to_string(),
+            "specs": specs.len(),
+            "up_to_date": stale == 0 && code == 0,
+            "stale": differences,
+            "failed": failed,
+        }));
+    } else if stale > 0 {
         eprintln!(
             "{stale} generated file(s) stale under {}; run `lawsmith build` (or `lawsmith emit`) and commit the result",
             generated.display()
         );
-        code = code.max(EXIT_REFUSED);
     } else if code == 0 {
         println!(
             "{}: up to date with {} ({} specs)",

@@ -53,6 +53,8 @@ enum Command {
         /// Output format.
         #[arg(long, value_enum, default_value_t = Format::Text)]
         format: Format,
+        #[command(flatten)]
+        expr: check_cmd::ExprLimits,
     },
     /// Prove the Lyapunov claim over the declared envelope, or find a counterexample.
     /// Exit code 0 proven, 1 falsified, 2 inconclusive, 3 invalid spec.
@@ -100,6 +102,9 @@ enum Command {
         /// Where the generated code is (with --check).
         #[arg(long, value_name = "DIR", default_value = "generated")]
         generated: PathBuf,
+        /// Output format of the summary (and, with --check, of the differences).
+        #[arg(long, value_enum, default_value_t = ReportFormat::Text)]
+        format: ReportFormat,
         #[command(flatten)]
         limits: check_cmd::Limits,
     },
@@ -118,6 +123,9 @@ enum Command {
         /// Allow --generated or --report inside specs/ or outside the working directory.
         #[arg(long)]
         force: bool,
+        /// Output format of the summary.
+        #[arg(long, value_enum, default_value_t = ReportFormat::Text)]
+        format: ReportFormat,
         #[command(flatten)]
         limits: check_cmd::Limits,
     },
@@ -184,6 +192,9 @@ enum Command {
         /// Overwrite an existing file.
         #[arg(long)]
         force: bool,
+        /// Output format of the confirmation.
+        #[arg(long, value_enum, default_value_t = ReportFormat::Text)]
+        format: ReportFormat,
     },
     /// Print the JSON Schema of the spec format (committed as schema/spec.schema.json).
     Schema,
@@ -199,6 +210,11 @@ enum Command {
         certificate: PathBuf,
         /// The spec it claims to prove.
         spec: PathBuf,
+        /// Output format.
+        #[arg(long, value_enum, default_value_t = ReportFormat::Text)]
+        format: ReportFormat,
+        #[command(flatten)]
+        expr: check_cmd::ExprLimits,
     },
 }
 
@@ -272,7 +288,12 @@ fn run(cli: Cli) -> ExitCode {
 
 fn dispatch(command: Command) -> ExitCode {
     match command {
-        Command::New { name, dir, force } => new_cmd::new_cmd(&name, &dir, force),
+        Command::New {
+            name,
+            dir,
+            force,
+            format,
+        } => new_cmd::new_cmd(&name, &dir, force, format),
         Command::Schema => {
             let text = serde_json::to_string_pretty(&lawsmith_spec::json_schema()).expect("json");
             println!("{text}");
@@ -288,14 +309,23 @@ fn dispatch(command: Command) -> ExitCode {
             );
             ExitCode::SUCCESS
         }
-        Command::Derive { specs, format } => derive_cmd::derive_cmd(&specs, format),
+        Command::Derive {
+            specs,
+            format,
+            expr,
+        } => derive_cmd::derive_cmd(&specs, format, &expr.dag()),
         Command::Check {
             specs,
             format,
             certificate,
             limits,
         } => check_cmd::check_cmd(&specs, format, certificate.as_deref(), &limits),
-        Command::Recheck { certificate, spec } => check_cmd::recheck_cmd(&certificate, &spec),
+        Command::Recheck {
+            certificate,
+            spec,
+            format,
+            expr,
+        } => check_cmd::recheck_cmd(&certificate, &spec, &expr, format),
         Command::Margin {
             spec,
             uncertain,
@@ -342,11 +372,12 @@ fn dispatch(command: Command) -> ExitCode {
             check,
             specs_dir,
             generated,
+            format,
             limits,
         } => {
             let settings = limits.settings();
             if check {
-                return emit_cmd::check_cmd(&specs_dir, &generated, &settings);
+                return emit_cmd::check_cmd(&specs_dir, &generated, &settings, format);
             }
             let lang = match lang {
                 LangArg::Rust => lawsmith_codegen::Lang::Rust,
@@ -361,16 +392,19 @@ fn dispatch(command: Command) -> ExitCode {
             if let Err(c) = out_dir_allowed(&out, force) {
                 return ExitCode::from(c);
             }
-            emit_cmd::emit_cmd(&specs, lang, float, &out, allow_unproven, &settings)
+            emit_cmd::emit_cmd(&specs, lang, float, &out, allow_unproven, &settings, format)
         }
         Command::Build {
             specs_dir,
             generated,
             report,
             force,
+            format,
             limits,
         } => match out_dir_allowed(&generated, force).and(out_dir_allowed(&report, force)) {
-            Ok(()) => build_cmd::build_cmd(&specs_dir, &generated, &report, &limits.settings()),
+            Ok(()) => {
+                build_cmd::build_cmd(&specs_dir, &generated, &report, &limits.settings(), format)
+            }
             Err(c) => ExitCode::from(c),
         },
     }
@@ -494,6 +528,24 @@ fn read_spec(path: &Path) -> Option<Loaded> {
             None
         }
     }
+}
+
+/// Prints an error of `check` (or of the derivation under it): located in the spec file when
+/// the derivation says where, else as one line.
+fn print_check_error(path: &Path, bytes: &[u8], e: &lawsmith_verify::CheckError) {
+    match &e.derive {
+        Some(d) => print_derive_error(path, bytes, d),
+        None => eprintln!("error[check]: {}: {e}", path.display()),
+    }
+}
+
+/// Prints an error of the derivation, rendered against the spec's text like a load error.
+fn print_derive_error(path: &Path, bytes: &[u8], e: &lawsmith_spec::DeriveError) {
+    let source = String::from_utf8_lossy(bytes);
+    eprint!(
+        "{}",
+        render(&path.display().to_string(), &source, &[e.diagnostic()])
+    );
 }
 
 /// Writes a file atomically: a temporary file beside it, then a rename, so a reader (or an

@@ -1,7 +1,7 @@
 //! `lawsmith new NAME`: a commented starter spec that loads, proves and emits as written, to
 //! be edited into the law the user wants.
 
-use crate::{write_atomic, EXIT_INVALID};
+use crate::{write_atomic, ReportFormat, EXIT_INVALID};
 use std::path::Path;
 use std::process::ExitCode;
 
@@ -79,7 +79,7 @@ pub fn starter(name: &str) -> String {
     STARTER.replace("@NAME@", name)
 }
 
-pub fn new_cmd(name: &str, dir: &Path, force: bool) -> ExitCode {
+pub fn new_cmd(name: &str, dir: &Path, force: bool, format: ReportFormat) -> ExitCode {
     if let Some(problem) =
         lawsmith_spec::identifier_problem(name).or_else(|| lawsmith_spec::reserved_reason(name))
     {
@@ -100,7 +100,10 @@ pub fn new_cmd(name: &str, dir: &Path, force: bool) -> ExitCode {
         eprintln!("error[io]: cannot write {}: {e}", path.display());
         return ExitCode::from(EXIT_INVALID);
     }
-    if crate::verbosity() > 0 {
+    if format == ReportFormat::Json {
+        let v = serde_json::json!({ "name": name, "wrote": path.display().to_string() });
+        println!("{}", serde_json::to_string_pretty(&v).expect("json"));
+    } else if crate::verbosity() > 0 {
         println!(
             "wrote {}; next: lawsmith check {}",
             path.display(),

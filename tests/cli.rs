@@ -510,6 +510,8 @@ fn the_committed_report_is_what_build_writes() {
         "--report",
         rep.to_str().unwrap(),
         "--force",
+        "--format",
+        "json",
     ]);
     assert_eq!(
         out.status.code(),
@@ -517,6 +519,23 @@ fn the_committed_report_is_what_build_writes() {
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
+    // the summary as JSON: every spec generated and proven, every scenario flown
+    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let specs = j["specs"].as_array().unwrap();
+    assert_eq!(
+        specs.len(),
+        std::fs::read_dir(root().join("specs"))
+            .unwrap()
+            .filter(|e| e.as_ref().unwrap().path().is_file())
+            .count()
+    );
+    for s in specs {
+        assert_eq!(s["status"], "generated", "{s}");
+        assert_eq!(s["verdict"], "proven", "{s}");
+        assert!(gen.join(s["spec"].as_str().unwrap()).is_dir(), "{s}");
+    }
+    assert!(j["scenarios"].as_array().unwrap().len() >= 3, "{j}");
+    assert_eq!(j["exit_code"], 0);
     let mut compared = 0;
     for e in std::fs::read_dir(root().join("report")).unwrap() {
         let p = e.unwrap().path();
@@ -924,5 +943,116 @@ fn an_interrupted_build_leaves_generated_as_it_was() {
             assert!(!name.ends_with(".tmp"), "{name}");
         }
     }
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn every_reporting_command_speaks_json() {
+    // every command that reports has --format json (schema prints JSON already; completions
+    // print a shell script)
+    for cmd in [
+        "derive", "check", "emit", "build", "sim", "margin", "new", "recheck",
+    ] {
+        let out = lawsmith(&[cmd, "--help"]);
+        let help = String::from_utf8_lossy(&out.stdout).to_string();
+        assert!(help.contains("--format"), "{cmd}: {help}");
+    }
+    let dir = std::env::temp_dir().join(format!("lawsmith-json-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(dir.join("specs")).unwrap();
+    let json = |args: &[&str], code: i32| -> serde_json::Value {
+        let out = lawsmith_in(&dir, args);
+        assert_eq!(
+            out.status.code(),
+            Some(code),
+            "{args:?}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        serde_json::from_slice(&out.stdout)
+            .unwrap_or_else(|e| panic!("{args:?}: {e}: {}", String::from_utf8_lossy(&out.stdout)))
+    };
+    let j = json(&["new", "hold", "--dir", "specs", "--format", "json"], 0);
+    assert_eq!(j["name"], "hold");
+    assert!(dir.join(j["wrote"].as_str().unwrap()).is_file(), "{j}");
+    let j = json(
+        &[
+            "emit",
+            "specs/hold.yaml",
+            "--out",
+            "generated/hold",
+            "--format",
+            "json",
+        ],
+        0,
+    );
+    let s = &j["specs"][0];
+    assert_eq!(
+        (&s["status"], &s["verdict"]),
+        (&"written".into(), &"proven".into()),
+        "{j}"
+    );
+    let files = s["files"].as_array().unwrap();
+    assert!(files.len() >= 3, "{j}");
+    for f in files {
+        assert!(dir.join(f.as_str().unwrap()).is_file(), "{f}");
+    }
+    let j = json(&["emit", "--check", "--format", "json"], 0);
+    assert_eq!(
+        (&j["up_to_date"], &j["specs"]),
+        (&true.into(), &1.into()),
+        "{j}"
+    );
+    // a hand edit makes it stale, and the diff is in the document
+    let c_file = dir.join("generated/hold/hold.c");
+    let text = std::fs::read_to_string(&c_file).unwrap();
+    std::fs::write(&c_file, text + "/* edited */\n").unwrap();
+    let j = json(&["emit", "--check", "--format", "json"], 1);
+    assert_eq!(j["up_to_date"], false, "{j}");
+    let diff = j["stale"][0]["diff"].as_str().unwrap();
+    assert!(diff.contains("-/* edited */"), "{diff}");
+    // a certificate: accepted as written, rejected against another spec
+    let out = lawsmith_in(
+        &dir,
+        &[
+            "check",
+            "specs/hold.yaml",
+            "--certificate",
+            "hold.cert.json",
+        ],
+    );
+    assert_eq!(out.status.code(), Some(0));
+    let j = json(
+        &[
+            "recheck",
+            "hold.cert.json",
+            "specs/hold.yaml",
+            "--format",
+            "json",
+        ],
+        0,
+    );
+    assert_eq!(
+        (&j["accepted"], &j["verdict"]),
+        (&true.into(), &"proven".into()),
+        "{j}"
+    );
+    assert!(j["leaf_boxes"].as_u64().unwrap() > 0, "{j}");
+    std::fs::write(
+        dir.join("specs/other.yaml"),
+        std::fs::read_to_string(dir.join("specs/hold.yaml")).unwrap() + "# edited\n",
+    )
+    .unwrap();
+    let j = json(
+        &[
+            "recheck",
+            "hold.cert.json",
+            "specs/other.yaml",
+            "--format",
+            "json",
+        ],
+        1,
+    );
+    assert_eq!(j["accepted"], false, "{j}");
+    assert!(j["reason"].as_str().unwrap().contains("SHA-256"), "{j}");
     std::fs::remove_dir_all(&dir).unwrap();
 }

@@ -1,6 +1,7 @@
 //! The closed loop and V̇: laws substituted in order, dynamics closed with the laws, and
 //! V̇ = Σ ∂V/∂x·ẋ + Σ ∂V/∂r·ṙ, simplified to canonical form.
 
+use crate::diag::Diagnostic;
 use crate::model::{uncertainty_name, ErrorForm, Spec, SymbolKind};
 use lawsmith_expr::{derivative, AssumeAll, Condition, ExprId, Oracle, Simplifier};
 use std::collections::HashMap;
@@ -25,15 +26,43 @@ pub struct Derivation {
     /// Side conditions the simplification relied on (rule name, condition); the verifier
     /// proves them over the envelope.
     pub assumptions: Vec<(&'static str, Condition)>,
+    /// The expansion work the simplification spent (what `DagLimits::max_term_products`
+    /// bounds).
+    pub work: u64,
 }
 
-/// A problem that keeps V̇ from being formed.
+/// A problem that keeps V̇ from being formed, located in the spec file.
 #[derive(Debug, Clone, PartialEq, Eq)]
-pub struct DeriveError(pub String);
+pub struct DeriveError {
+    /// Stable class name, as for load diagnostics (`expansion-budget`, `node-budget`, …).
+    pub class: &'static str,
+    /// What went wrong.
+    pub message: String,
+    /// Byte range in the spec file it points at.
+    pub span: std::ops::Range<usize>,
+    /// The setting to raise or the change to make.
+    pub hint: Option<String>,
+}
+
+impl DeriveError {
+    /// The error as a diagnostic, to render with [`crate::render`] against the spec's text.
+    pub fn diagnostic(&self) -> Diagnostic {
+        let d = Diagnostic::new(self.class, self.message.clone(), self.span.clone())
+            .label("V̇ is formed from this candidate and the closed loop");
+        match &self.hint {
+            Some(h) => d.hint(h.clone()),
+            None => d,
+        }
+    }
+}
 
 impl std::fmt::Display for DeriveError {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(&self.0)
+        f.write_str(&self.message)?;
+        if let Some(h) = &self.hint {
+            write!(f, " ({h})")?;
+        }
+        Ok(())
     }
 }
 
@@ -50,6 +79,13 @@ pub fn derive(spec: &mut Spec) -> Result<Derivation, DeriveError> {
 
 /// Derives V̇ with side conditions answered by `oracle`.
 pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivation, DeriveError> {
+    let at = spec.candidate_span.clone();
+    let error = |class: &'static str, message: String, hint: Option<&str>| DeriveError {
+        class,
+        message,
+        span: at.clone(),
+        hint: hint.map(str::to_string),
+    };
     let dag = &mut spec.dag;
     let mut law_map: HashMap<String, ExprId> = HashMap::new();
     let mut laws = Vec::new();
@@ -100,17 +136,27 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
                 .iter()
                 .find(|(s, _)| *s == name)
                 .map(|(_, f)| *f)
-                .ok_or_else(|| DeriveError(format!("state `{name}` has no dynamics")))?,
+                .ok_or_else(|| {
+                    error(
+                        "state-without-dynamics",
+                        format!("state `{name}` has no dynamics"),
+                        None,
+                    )
+                })?,
             SymbolKind::Reference => {
                 let r = sym.rate.clone().unwrap_or_default();
                 dag.sym(&r)
             }
             SymbolKind::Parameter | SymbolKind::Gain => continue,
             k => {
-                return Err(DeriveError(format!(
+                return Err(error(
+                    "no-rate",
+                    format!(
                     "the candidate depends on `{name}`, a {} whose rate of change is not declared",
                     k.name()
-                )))
+                ),
+                    None,
+                ))
             }
         };
         let dv = derivative(dag, v, &name);
@@ -142,11 +188,25 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         .into_iter()
         .map(|(n, e)| (n, simp.simplify(dag, e)))
         .collect();
+    if simp.exhausted() {
+        return Err(error(
+            "expansion-budget",
+            format!(
+                "expanding V̇ and the closed loop into canonical form needs more than {} term products (DagLimits::max_term_products)",
+                dag.limits().max_term_products
+            ),
+            Some("raise it with --max-term-products, or keep a product of many sums (or a high power of one) out of the candidate and the laws"),
+        ));
+    }
     if dag.over_budget() {
-        return Err(DeriveError(format!(
-            "the derivation grew past {} expression nodes (DagLimits::max_nodes)",
-            dag.limits().max_nodes
-        )));
+        return Err(error(
+            "node-budget",
+            format!(
+                "the derivation grew past {} expression nodes (DagLimits::max_nodes)",
+                dag.limits().max_nodes
+            ),
+            Some("raise it with --max-nodes"),
+        ));
     }
     Ok(Derivation {
         candidate,
@@ -156,5 +216,6 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         where_defs,
         closed_loop,
         assumptions: Vec::new(),
+        work: simp.work(),
     })
 }

@@ -179,6 +179,8 @@ pub struct Spec {
     pub where_defs: Vec<(String, ExprId)>,
     /// The Lyapunov candidate V, expanded to base symbols.
     pub candidate: ExprId,
+    /// Where the candidate's formula is in the spec file (bytes), for errors of `derive`.
+    pub candidate_span: std::ops::Range<usize>,
     /// What is claimed of V̇.
     pub claim: Claim,
     /// For an ultimate-bound claim with required bounds: state → largest allowed |error|, in

@@ -8,7 +8,7 @@ use crate::problem::{exact, Problem, ProofForms, Variable};
 use crate::sample::{falsify, Sampled, Sequence};
 use crate::search::{search, Budget, Counter, Outcome, Report};
 use lawsmith_expr::Arith;
-use lawsmith_expr::{to_text, BigRational, CondKind, Dag, ExprId, Func, Node, Tape};
+use lawsmith_expr::{to_text, BigRational, CondKind, Dag, DagLimits, ExprId, Func, Node, Tape};
 use lawsmith_spec::{derive, Claim, Spec};
 use std::collections::HashSet;
 use std::time::Instant;
@@ -22,6 +22,9 @@ pub struct Settings {
     pub budget: Budget,
     /// Tolerances of an ultimate-bound claim's bisections.
     pub bound: BoundSettings,
+    /// Limits of the symbolic work (`--max-nodes`, `--max-term-products`), applied to the
+    /// spec's DAG before the derivation.
+    pub dag: DagLimits,
 }
 
 impl Default for Settings {
@@ -32,6 +35,7 @@ impl Default for Settings {
             samples: 20_000,
             budget: Budget::default(),
             bound: BoundSettings::default(),
+            dag: DagLimits::default(),
         }
     }
 }
@@ -178,11 +182,35 @@ pub struct CheckReport {
 
 /// A check that could not run (the spec is unusable for a proof).
 #[derive(Debug, Clone, PartialEq, Eq)]
-pub struct CheckError(pub String);
+pub struct CheckError {
+    /// What went wrong.
+    pub message: String,
+    /// The derivation's own error, located in the spec file, when that is where it failed.
+    pub derive: Option<lawsmith_spec::DeriveError>,
+}
+
+impl CheckError {
+    /// An error without a location in the spec.
+    pub fn new(message: impl Into<String>) -> CheckError {
+        CheckError {
+            message: message.into(),
+            derive: None,
+        }
+    }
+}
+
+impl From<lawsmith_spec::DeriveError> for CheckError {
+    fn from(e: lawsmith_spec::DeriveError) -> CheckError {
+        CheckError {
+            message: e.to_string(),
+            derive: Some(e),
+        }
+    }
+}
 
 impl std::fmt::Display for CheckError {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(&self.0)
+        f.write_str(&self.message)
     }
 }
 
@@ -410,7 +438,7 @@ pub struct Prepared {
 /// actuators' functions and divisions, those of V and V̇, and every side condition the
 /// simplifier assumed), V > 0, and the claim.
 pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
-    let derivation = derive(spec).map_err(|e| CheckError(e.0))?;
+    let derivation = derive(spec).map_err(CheckError::from)?;
     let mut problem = Problem::new(spec);
     let forms = problem.forms(&derivation);
 
@@ -472,7 +500,7 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
         prepared_goals.push(PreparedGoal {
             kind,
             source,
-            compiled: Compiled::new(&mut problem, g).map_err(CheckError)?,
+            compiled: Compiled::new(&mut problem, g).map_err(CheckError::new)?,
         });
     }
     let sublevel = match spec.claim {
@@ -490,7 +518,7 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
                     region: None,
                 },
             )
-            .map_err(CheckError)?,
+            .map_err(CheckError::new)?,
         ),
         _ => None,
     };
@@ -502,8 +530,8 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
             .iter()
             .map(|c| Ok((Tape::compile(&problem.dag, &[c.g], &name_refs)?, c.strict)))
             .collect::<Result<_, String>>()
-            .map_err(CheckError)?,
-        vdot: Tape::compile(&problem.dag, &[forms.vdot], &name_refs).map_err(CheckError)?,
+            .map_err(CheckError::new)?,
+        vdot: Tape::compile(&problem.dag, &[forms.vdot], &name_refs).map_err(CheckError::new)?,
     };
     Ok(Prepared {
         problem,
@@ -583,6 +611,7 @@ pub fn check(
     progress: &(dyn Fn(&str, usize, usize) + Sync),
 ) -> Result<(CheckReport, Prepared), CheckError> {
     let start = Instant::now();
+    spec.dag.set_limits(settings.dag.clone());
     let prepared = prepare(spec)?;
     let mut results = Vec::new();
     let mut failed = false;

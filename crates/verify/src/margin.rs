@@ -83,7 +83,7 @@ pub fn margin(
     progress: &(dyn Fn(&str, usize, usize) + Sync),
 ) -> Result<MarginReport, CheckError> {
     let spec = load(source)
-        .map_err(|d| CheckError(format!("the spec does not load ({} problems)", d.len())))?;
+        .map_err(|d| CheckError::new(format!("the spec does not load ({} problems)", d.len())))?;
     let sym = spec
         .symbol(quantity)
         .filter(|s| s.kind == SymbolKind::Uncertain)
@@ -92,7 +92,7 @@ pub fn margin(
                 .symbols_of(SymbolKind::Uncertain)
                 .map(|s| s.name.as_str())
                 .collect();
-            CheckError(if names.is_empty() {
+            CheckError::new(if names.is_empty() {
                 "the spec declares no uncertain quantity (an `uncertain:` section)".into()
             } else {
                 format!(
@@ -112,27 +112,27 @@ pub fn margin(
         .map(|s| s.name.clone())
         .collect();
     if let Some((s, _)) = required.iter().find(|(s, _)| !states.contains(s)) {
-        return Err(CheckError(format!(
+        return Err(CheckError::new(format!(
             "`{s}` is not a state of the spec (states: {})",
             states.join(", ")
         )));
     }
     let span = declared.0.abs().max(declared.1.abs());
     if span == 0.0 {
-        return Err(CheckError(format!(
+        return Err(CheckError::new(format!(
             "`{quantity}` has a zero error range; there is nothing to scale"
         )));
     }
     if form == ErrorForm::Relative {
         let lo = margin.factors.iter().fold(0.0f64, |a, &t| a.max(t)) * declared.0;
         if lo <= -1.0 {
-            return Err(CheckError(format!(
+            return Err(CheckError::new(format!(
                 "scaling the range of `{quantity}` that far gives a relative error of {lo} or below: lower the largest factor"
             )));
         }
     }
     let point = |t: f64| -> Result<MarginPoint, CheckError> {
-        let mut spec = load(source).map_err(|_| CheckError("the spec does not load".into()))?;
+        let mut spec = load(source).map_err(|_| CheckError::new("the spec does not load"))?;
         for s in spec.symbols.iter_mut().filter(|s| s.name == quantity) {
             s.range = Some((declared.0 * t, declared.1 * t));
         }

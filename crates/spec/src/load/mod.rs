@@ -825,6 +825,18 @@ impl<'s> Loader<'s> {
             energies,
             where_defs,
             candidate: candidate.ok_or(())?,
+            candidate_span: {
+                let f = &raw.lyapunov.candidate;
+                let base = scalar_base(self.src, f);
+                self.file_span(
+                    base,
+                    &f.value,
+                    Span {
+                        start: 0,
+                        end: f.value.len(),
+                    },
+                )
+            },
             claim,
             required_bounds,
             laws,
