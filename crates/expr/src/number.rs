@@ -1,7 +1,6 @@
 //! Exact decimal literals: parsing to rationals and printing back.
 
 use num_bigint::BigInt;
-use num_integer::Integer;
 use num_rational::BigRational;
 use num_traits::{One, Signed, ToPrimitive, Zero};
 
@@ -45,25 +44,32 @@ pub fn parse_decimal(text: &str) -> Option<BigRational> {
     })
 }
 
-/// The exact decimal expansion of `v` if its denominator has no prime factor other than 2 and 5.
-pub fn as_terminating_decimal(v: &BigRational) -> Option<String> {
-    let mut den = v.denom().clone();
-    let two = BigInt::from(2);
-    let five = BigInt::from(5);
-    let mut twos = 0usize;
-    let mut fives = 0usize;
-    while den.is_even() {
-        den /= &two;
-        twos += 1;
-    }
-    while (&den % &five).is_zero() {
-        den /= &five;
-        fives += 1;
-    }
-    if !den.is_one() {
+/// Denominators longer than this print as fractions `p/q` rather than as decimals: a decimal
+/// of a 2^-4096 would be thousands of digits, and finding it costs a division per factor.
+pub const MAX_DECIMAL_DENOMINATOR_BITS: u64 = 1024;
+
+/// The places after the point of `v`'s decimal expansion if it terminates (its denominator
+/// has no prime factor but 2 and 5) and the denominator is at most
+/// [`MAX_DECIMAL_DENOMINATOR_BITS`] long.
+pub fn decimal_places(v: &BigRational) -> Option<usize> {
+    let den = v.denom();
+    if den.bits() > MAX_DECIMAL_DENOMINATOR_BITS {
         return None;
     }
-    let places = twos.max(fives);
+    let twos = den.trailing_zeros().unwrap_or(0);
+    let mut rest = den >> twos;
+    let five = BigInt::from(5);
+    let mut fives = 0usize;
+    while (&rest % &five).is_zero() {
+        rest /= &five;
+        fives += 1;
+    }
+    rest.is_one().then_some((twos as usize).max(fives))
+}
+
+/// The exact decimal expansion of `v` if [`decimal_places`] finds one.
+pub fn as_terminating_decimal(v: &BigRational) -> Option<String> {
+    let places = decimal_places(v)?;
     let scaled = v * BigRational::from_integer(num_traits::pow(BigInt::from(10), places));
     debug_assert!(scaled.is_integer());
     let n = scaled.to_integer();
@@ -120,5 +126,23 @@ mod tests {
             assert_eq!(as_terminating_decimal(&v).as_deref(), Some(t));
         }
         assert_eq!(as_terminating_decimal(&r(1, 3)), None);
+    }
+
+    #[test]
+    fn decimal_places_follow_the_factors_of_two_and_five() {
+        // a fraction in lowest terms terminates after max(a, b) places exactly when its
+        // denominator is 2^a·5^b (common practice)
+        assert_eq!(decimal_places(&r(1, 8)), Some(3));
+        assert_eq!(decimal_places(&r(3, 40)), Some(3));
+        assert_eq!(decimal_places(&r(7, 625)), Some(4));
+        assert_eq!(decimal_places(&r(5, 1)), Some(0));
+        assert_eq!(decimal_places(&r(1, 12)), None);
+        let pow = |b: i64, k: usize| num_traits::pow(BigInt::from(b), k);
+        let tiny = BigRational::new(BigInt::from(1), pow(10, 300));
+        assert_eq!(decimal_places(&tiny), Some(300));
+        // 2^-2000 terminates, but its denominator is past the bound: printed as a fraction
+        let long = BigRational::new(BigInt::from(1), pow(2, 2000));
+        assert_eq!(decimal_places(&long), None);
+        assert_eq!(as_terminating_decimal(&long), None);
     }
 }

@@ -1,7 +1,7 @@
 //! Printing expressions as formula text (which parses back to the same id) and as LaTeX.
 
 use crate::dag::{Dag, ExprId, Func, Node};
-use crate::number::as_terminating_decimal;
+use crate::number::{as_terminating_decimal, decimal_places};
 use num_rational::BigRational;
 use num_traits::Signed;
 
@@ -15,7 +15,7 @@ const P_ATOM: u8 = 5;
 fn num_prec(v: &BigRational) -> u8 {
     if v.is_negative() {
         P_NEG
-    } else if v.is_integer() || as_terminating_decimal(v).is_some() {
+    } else if v.is_integer() || decimal_places(v).is_some() {
         P_ATOM
     } else {
         // printed as `p/q`, which parses like a quotient
@@ -205,7 +205,7 @@ fn latex_wrap(dag: &Dag, id: ExprId, parens: bool, out: &mut String) {
 fn latex(dag: &Dag, id: ExprId, out: &mut String) {
     match dag.node(id) {
         Node::Num(v) => {
-            if v.is_integer() || as_terminating_decimal(v).is_some() {
+            if v.is_integer() || decimal_places(v).is_some() {
                 out.push_str(&num_text(v));
             } else {
                 let sign = if v.is_negative() { "-" } else { "" };
