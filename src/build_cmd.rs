@@ -1,10 +1,10 @@
 //! `lawsmith build`: the main job on every example spec: prove, generate `generated/`, fly
 //! the example scenarios into `report/` with a `report/index.md`, print a summary table.
 
-use crate::emit_cmd::{emit_one, generated_dir, print_json, specs_in, status_of, write_files};
+use crate::emit_cmd::{emit_one, generated_dir, specs_in, status_of, write_files};
 use crate::progress::Progress;
 use crate::sim_cmd::{bound_table, fly_all, load_setup, write_run};
-use crate::{write_atomic, ReportFormat, EXIT_INVALID};
+use crate::{print_json, write_atomic, ReportFormat, EXIT_INVALID};
 use lawsmith_codegen::{Float, Lang};
 use lawsmith_verify::Settings;
 use lawsmith_verify::{BoundReport, Verdict};

@@ -171,12 +171,7 @@ pub fn check_cmd(
         }
     }
     if format == ReportFormat::Json {
-        let v = if json_out.len() == 1 {
-            json_out.pop().expect("one")
-        } else {
-            Value::Array(json_out)
-        };
-        println!("{}", serde_json::to_string_pretty(&v).expect("json"));
+        crate::print_json_per_spec(json_out);
     }
     ExitCode::from(worst)
 }
@@ -236,7 +231,7 @@ pub fn recheck_cmd(
                 "reason": e.to_string(),
             }),
         };
-        println!("{}", serde_json::to_string_pretty(&v).expect("json"));
+        crate::print_json(&v);
         return ExitCode::from(if outcome.is_ok() { 0 } else { EXIT_FALSIFIED });
     }
     match outcome {

@@ -50,12 +50,7 @@ pub fn derive_cmd(paths: &[PathBuf], format: Format, limits: &DagLimits) -> Exit
         }
     }
     if format == Format::Json {
-        let v = if json_out.len() == 1 {
-            json_out.pop().expect("one")
-        } else {
-            Value::Array(json_out)
-        };
-        println!("{}", serde_json::to_string_pretty(&v).expect("json"));
+        crate::print_json_per_spec(json_out);
     }
     if failed {
         ExitCode::from(EXIT_INVALID)

@@ -2,10 +2,10 @@
 //! compare with what is committed.
 
 use crate::progress::Progress;
-use crate::{read_spec, write_atomic, ReportFormat, EXIT_INVALID};
+use crate::{print_json, read_spec, write_atomic, ReportFormat, EXIT_INVALID};
 use lawsmith_codegen::{generate, Controller, Float, Lang, Provenance, MARKER};
 use lawsmith_verify::{check, sha256_hex, CheckReport, Settings, Verdict};
-use serde_json::{json, Value};
+use serde_json::json;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -179,11 +179,6 @@ pub fn status_of(code: u8) -> &'static str {
     } else {
         "invalid"
     }
-}
-
-/// Prints a JSON document to stdout, pretty.
-pub fn print_json(v: &Value) {
-    println!("{}", serde_json::to_string_pretty(v).expect("json"));
 }
 
 /// The spec files of a directory, sorted.

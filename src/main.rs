@@ -457,6 +457,22 @@ fn out_dir_allowed(out: &Path, force: bool) -> Result<(), u8> {
     }
 }
 
+/// Prints a JSON document to stdout, pretty.
+fn print_json(v: &serde_json::Value) {
+    println!("{}", serde_json::to_string_pretty(v).expect("json"));
+}
+
+/// Prints the documents of a command over several specs: the document itself for one spec,
+/// an array for several.
+fn print_json_per_spec(mut docs: Vec<serde_json::Value>) {
+    let v = if docs.len() == 1 {
+        docs.pop().expect("one")
+    } else {
+        serde_json::Value::Array(docs)
+    };
+    print_json(&v);
+}
+
 /// A spec as read from disk.
 struct Loaded {
     spec: Spec,

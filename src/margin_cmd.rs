@@ -357,9 +357,7 @@ pub fn margin_cmd(
     }
     match format {
         ReportFormat::Text => print!("{}", text(&r)),
-        ReportFormat::Json => {
-            println!("{}", serde_json::to_string_pretty(&json(&r)).expect("json"))
-        }
+        ReportFormat::Json => crate::print_json(&json(&r)),
     }
     if r.largest.is_some() {
         ExitCode::SUCCESS

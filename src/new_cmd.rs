@@ -102,7 +102,7 @@ pub fn new_cmd(name: &str, dir: &Path, force: bool, format: ReportFormat) -> Exi
     }
     if format == ReportFormat::Json {
         let v = serde_json::json!({ "name": name, "wrote": path.display().to_string() });
-        println!("{}", serde_json::to_string_pretty(&v).expect("json"));
+        crate::print_json(&v);
     } else if crate::verbosity() > 0 {
         println!(
             "wrote {}; next: lawsmith check {}",

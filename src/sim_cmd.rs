@@ -197,9 +197,7 @@ pub fn sim_cmd(
                     print!("\n{md}");
                 }
             }
-            ReportFormat::Json => {
-                println!("{}", serde_json::to_string_pretty(&summary).expect("json"))
-            }
+            ReportFormat::Json => crate::print_json(&summary),
         }
         return ExitCode::SUCCESS;
     }
