@@ -2,7 +2,7 @@
 
 use num_bigint::BigInt;
 use num_rational::BigRational;
-use num_traits::{One, Signed, ToPrimitive, Zero};
+use num_traits::{One, Signed, ToPrimitive};
 
 /// Largest decimal exponent accepted in a literal. `1e400` already overflows f64; a bound keeps
 /// a literal such as `1e999999999` from allocating a gigantic integer.
@@ -52,27 +52,46 @@ pub const MAX_DECIMAL_DENOMINATOR_BITS: u64 = 1024;
 /// has no prime factor but 2 and 5) and the denominator is at most
 /// [`MAX_DECIMAL_DENOMINATOR_BITS`] long.
 pub fn decimal_places(v: &BigRational) -> Option<usize> {
-    let den = v.denom();
-    if den.bits() > MAX_DECIMAL_DENOMINATOR_BITS {
+    two_five_factors(v.denom()).map(|(twos, fives)| twos.max(fives))
+}
+
+/// `(a, b)` when `den` is exactly 2^a·5^b and at most [`MAX_DECIMAL_DENOMINATOR_BITS`] long.
+/// The power of five is found from the bit length (5^b has ⌊b·log₂5⌋ + 1 bits) and checked
+/// with one comparison, rather than by a division per factor: printing calls this for every
+/// number of every atom, and a denominator of 10^300 would cost 300 big divisions each time.
+fn two_five_factors(den: &BigInt) -> Option<(usize, usize)> {
+    if den.bits() > MAX_DECIMAL_DENOMINATOR_BITS || !den.is_positive() {
         return None;
     }
     let twos = den.trailing_zeros().unwrap_or(0);
-    let mut rest = den >> twos;
-    let five = BigInt::from(5);
-    let mut fives = 0usize;
-    while (&rest % &five).is_zero() {
-        rest /= &five;
-        fives += 1;
+    let rest = den >> twos;
+    if rest.is_one() {
+        return Some((twos as usize, 0));
     }
-    rest.is_one().then_some((twos as usize).max(fives))
+    // 5^b has bit length ⌊b·log₂5⌋ + 1, so b is within one of (bits − 1)/log₂5; the bound on
+    // the bits keeps the f64 estimate far from rounding trouble
+    let estimate = ((rest.bits() - 1) as f64 / (std::f64::consts::LOG2_10 - 1.0)).floor() as usize;
+    let five = BigInt::from(5);
+    let low = estimate.saturating_sub(1);
+    let mut p = num_traits::pow(five.clone(), low);
+    for b in low..=estimate + 1 {
+        if p == rest {
+            return Some((twos as usize, b));
+        }
+        if p > rest {
+            break;
+        }
+        p *= &five;
+    }
+    None
 }
 
 /// The exact decimal expansion of `v` if [`decimal_places`] finds one.
 pub fn as_terminating_decimal(v: &BigRational) -> Option<String> {
-    let places = decimal_places(v)?;
-    let scaled = v * BigRational::from_integer(num_traits::pow(BigInt::from(10), places));
-    debug_assert!(scaled.is_integer());
-    let n = scaled.to_integer();
+    let (twos, fives) = two_five_factors(v.denom())?;
+    let places = twos.max(fives);
+    // v·10^places = numer · 2^(places − twos) · 5^(places − fives), an integer: no gcd needed
+    let n = (v.numer() << (places - twos)) * num_traits::pow(BigInt::from(5), places - fives);
     let neg = n.is_negative();
     let digits = n.abs().to_string();
     let text = if places == 0 {
@@ -144,5 +163,30 @@ mod tests {
         let long = BigRational::new(BigInt::from(1), pow(2, 2000));
         assert_eq!(decimal_places(&long), None);
         assert_eq!(as_terminating_decimal(&long), None);
+    }
+
+    #[test]
+    fn powers_of_two_and_five_are_recognised_from_their_length() {
+        // every 2^a·5^b up to the bound is found with its exponents, and a near miss (one more
+        // odd factor, or one off) is not: the closed-form count must agree with the definition
+        let pow = |b: i64, k: usize| num_traits::pow(BigInt::from(b), k);
+        for b in 0..=441 {
+            for a in [0usize, 1, 7, 64] {
+                let den = pow(2, a) * pow(5, b);
+                let expect = (den.bits() <= MAX_DECIMAL_DENOMINATOR_BITS).then_some((a, b));
+                assert_eq!(two_five_factors(&den), expect, "2^{a}·5^{b}");
+                assert_eq!(two_five_factors(&(&den * 3)), None, "3·2^{a}·5^{b}");
+                if b > 1 {
+                    assert_eq!(two_five_factors(&(&den + 2 * pow(2, a))), None);
+                }
+            }
+        }
+        // the decimal text is the exact value: 3/2^a·5^b back through parse_decimal
+        for (a, b) in [(0, 300), (12, 3), (200, 0), (5, 77)] {
+            let v = BigRational::new(BigInt::from(-3), pow(2, a) * pow(5, b));
+            let text = as_terminating_decimal(&v).unwrap();
+            let back = parse_decimal(text.trim_start_matches('-')).unwrap();
+            assert_eq!(-back, v, "{text}");
+        }
     }
 }

@@ -4,6 +4,7 @@ use crate::dag::{Dag, ExprId, Func, Node};
 use crate::number::{as_terminating_decimal, decimal_places};
 use num_rational::BigRational;
 use num_traits::Signed;
+use std::collections::HashMap;
 
 // Precedence levels, loosest first.
 const P_ADD: u8 = 1;
@@ -56,44 +57,85 @@ fn num_text(v: &BigRational) -> String {
 /// Formula text for `id`. `parse(print(e))` lowers back to `e` in the same DAG.
 pub fn to_text(dag: &Dag, id: ExprId) -> String {
     let mut out = String::new();
-    text(dag, id, &mut out);
+    text(&mut None, dag, id, &mut out);
     out
 }
 
-fn wrap(dag: &Dag, id: ExprId, parens: bool, out: &mut String) {
+/// Texts of the numbers already printed, for callers that print many expressions sharing
+/// subtrees (the simplifier's atom keys): a decimal of a long rational costs big-integer
+/// arithmetic, and the atoms of a power tower would otherwise redo it for every level. A
+/// number's text never depends on where it sits (its parent adds any parentheses), so a
+/// remembered text is exact. Only numbers are kept, so the memo stays as small as they are.
+pub(crate) type TextMemo = Option<HashMap<ExprId, String>>;
+
+/// [`to_text`], reusing and filling `memo`.
+pub(crate) fn to_text_memo(memo: &mut TextMemo, dag: &Dag, id: ExprId) -> String {
+    let mut out = String::new();
+    text(memo, dag, id, &mut out);
+    out
+}
+
+fn wrap(parens: bool, m: &mut TextMemo, dag: &Dag, id: ExprId, out: &mut String) {
     if parens {
         out.push('(');
-        text(dag, id, out);
+        text(m, dag, id, out);
         out.push(')');
     } else {
-        text(dag, id, out);
+        text(m, dag, id, out);
     }
 }
 
-fn text(dag: &Dag, id: ExprId, out: &mut String) {
+/// The remembered text of a number node, printing it on first use; `None` without a memo or
+/// for other nodes.
+fn memo_num<'m>(m: &'m mut TextMemo, dag: &Dag, id: ExprId) -> Option<&'m str> {
+    let (Node::Num(v), Some(memo)) = (dag.node(id), m.as_mut()) else {
+        return None;
+    };
+    Some(memo.entry(id).or_insert_with(|| num_text(v)))
+}
+
+/// [`prec`], reading a number's precedence off its remembered text ([`num_text`] writes a
+/// `p/q` exactly when [`num_prec`] says quotient) instead of factoring its denominator again.
+fn text_prec(m: &mut TextMemo, dag: &Dag, id: ExprId) -> u8 {
+    match (dag.node(id), memo_num(m, dag, id)) {
+        (Node::Num(v), _) if v.is_negative() => P_NEG,
+        (_, Some(t)) if t.contains('/') => P_MUL,
+        (_, Some(_)) => P_ATOM,
+        _ => prec(dag, id),
+    }
+}
+
+fn text(m: &mut TextMemo, dag: &Dag, id: ExprId, out: &mut String) {
+    match memo_num(m, dag, id) {
+        Some(known) => out.push_str(known),
+        None => text_of_node(m, dag, id, out),
+    }
+}
+
+fn text_of_node(m: &mut TextMemo, dag: &Dag, id: ExprId, out: &mut String) {
     match dag.node(id) {
         Node::Num(v) => out.push_str(&num_text(v)),
         Node::Sym(s) => out.push_str(s),
         Node::Neg(a) => {
             out.push('-');
-            wrap(dag, *a, prec(dag, *a) < P_NEG, out);
+            wrap(text_prec(m, dag, *a) < P_NEG, m, dag, *a, out);
         }
         Node::Add(xs) => {
             for (i, &x) in xs.iter().enumerate() {
                 if i == 0 {
-                    wrap(dag, x, prec(dag, x) <= P_ADD, out);
+                    wrap(text_prec(m, dag, x) <= P_ADD, m, dag, x, out);
                     continue;
                 }
                 match dag.node(x) {
                     // `a - b*c` would parse as `a + (-b)*c`; keep this form explicit
                     Node::Neg(inner) if matches!(dag.node(*inner), Node::Mul(_)) => {
                         out.push_str(" + -(");
-                        text(dag, *inner, out);
+                        text(m, dag, *inner, out);
                         out.push(')');
                     }
                     Node::Neg(inner) => {
                         out.push_str(" - ");
-                        wrap(dag, *inner, prec(dag, *inner) <= P_ADD, out);
+                        wrap(text_prec(m, dag, *inner) <= P_ADD, m, dag, *inner, out);
                     }
                     Node::Num(v) if v.is_negative() => {
                         out.push_str(" - ");
@@ -104,19 +146,19 @@ fn text(dag: &Dag, id: ExprId, out: &mut String) {
                         match dag.node(fs[0]) {
                             Node::Neg(y) => {
                                 let nested = matches!(dag.node(*y), Node::Mul(_));
-                                wrap(dag, *y, prec(dag, *y) < P_MUL || nested, out);
+                                wrap(text_prec(m, dag, *y) < P_MUL || nested, m, dag, *y, out);
                             }
                             Node::Num(v) => out.push_str(&num_text(&-v.clone())),
                             _ => unreachable!("negative_lead"),
                         }
                         for &f in &fs[1..] {
                             out.push('*');
-                            wrap(dag, f, prec(dag, f) <= P_MUL, out);
+                            wrap(text_prec(m, dag, f) <= P_MUL, m, dag, f, out);
                         }
                     }
                     _ => {
                         out.push_str(" + ");
-                        wrap(dag, x, prec(dag, x) <= P_ADD, out);
+                        wrap(text_prec(m, dag, x) <= P_ADD, m, dag, x, out);
                     }
                 }
             }
@@ -125,22 +167,22 @@ fn text(dag: &Dag, id: ExprId, out: &mut String) {
             for (i, &x) in xs.iter().enumerate() {
                 if i == 0 {
                     let nested = matches!(dag.node(x), Node::Mul(_));
-                    wrap(dag, x, prec(dag, x) < P_MUL || nested, out);
+                    wrap(text_prec(m, dag, x) < P_MUL || nested, m, dag, x, out);
                 } else {
                     out.push('*');
-                    wrap(dag, x, prec(dag, x) <= P_MUL, out);
+                    wrap(text_prec(m, dag, x) <= P_MUL, m, dag, x, out);
                 }
             }
         }
         Node::Div(a, b) => {
-            wrap(dag, *a, prec(dag, *a) < P_MUL, out);
+            wrap(text_prec(m, dag, *a) < P_MUL, m, dag, *a, out);
             out.push('/');
-            wrap(dag, *b, prec(dag, *b) <= P_MUL, out);
+            wrap(text_prec(m, dag, *b) <= P_MUL, m, dag, *b, out);
         }
         Node::Pow(a, b) => {
-            wrap(dag, *a, prec(dag, *a) <= P_POW, out);
+            wrap(text_prec(m, dag, *a) <= P_POW, m, dag, *a, out);
             out.push('^');
-            wrap(dag, *b, prec(dag, *b) < P_NEG, out);
+            wrap(text_prec(m, dag, *b) < P_NEG, m, dag, *b, out);
         }
         Node::Call(f, xs) => {
             out.push_str(f.name());
@@ -149,7 +191,7 @@ fn text(dag: &Dag, id: ExprId, out: &mut String) {
                 if i > 0 {
                     out.push_str(", ");
                 }
-                text(dag, x, out);
+                text(m, dag, x, out);
             }
             out.push(')');
         }

@@ -11,7 +11,7 @@
 
 use crate::dag::{Dag, ExprId, Func, Node};
 use crate::poly::{gcd_within, lex_cmp, Mono, Poly, Var, GCD_BUDGET};
-use crate::print::to_text;
+use crate::print::{to_text_memo, TextMemo};
 use crate::rules::{CompiledRules, CondKind, Condition, Oracle};
 use num_bigint::BigInt;
 use num_rational::BigRational;
@@ -85,6 +85,9 @@ pub struct Simplifier<'o> {
     rules: CompiledRules,
     atoms: Vec<(ExprId, String)>,
     atom_index: HashMap<ExprId, Var>,
+    /// The printed numbers of the atom keys so far: atoms nest (a power tower is an atom per
+    /// level), and their keys would otherwise re-render every number of every level.
+    texts: TextMemo,
     memo: HashMap<ExprId, Rat>,
     out_memo: HashMap<ExprId, ExprId>,
     /// Weighted term products still allowed ([`crate::DagLimits::max_term_products`]).
@@ -109,6 +112,7 @@ impl<'o> Simplifier<'o> {
             rules: CompiledRules::new(dag),
             atoms: Vec::new(),
             atom_index: HashMap::new(),
+            texts: Some(HashMap::new()),
             memo: HashMap::new(),
             out_memo: HashMap::new(),
             work_left: dag.limits().max_term_products,
@@ -201,7 +205,7 @@ impl<'o> Simplifier<'o> {
             Some(&v) => v,
             None => {
                 let v = self.atoms.len() as Var;
-                self.atoms.push((e, to_text(dag, e)));
+                self.atoms.push((e, to_text_memo(&mut self.texts, dag, e)));
                 self.atom_index.insert(e, v);
                 v
             }
