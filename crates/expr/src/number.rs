@@ -2,7 +2,7 @@
 
 use num_bigint::BigInt;
 use num_rational::BigRational;
-use num_traits::{One, Signed, ToPrimitive};
+use num_traits::{Signed, ToPrimitive};
 
 /// Largest decimal exponent accepted in a literal. `1e400` already overflows f64; a bound keeps
 /// a literal such as `1e999999999` from allocating a gigantic integer.
@@ -65,15 +65,11 @@ fn two_five_factors(den: &BigInt) -> Option<(usize, usize)> {
     }
     let twos = den.trailing_zeros().unwrap_or(0);
     let rest = den >> twos;
-    if rest.is_one() {
-        return Some((twos as usize, 0));
-    }
     // 5^b has bit length ⌊b·log₂5⌋ + 1, so b is within one of (bits − 1)/log₂5; the bound on
     // the bits keeps the f64 estimate far from rounding trouble
     let estimate = ((rest.bits() - 1) as f64 / (std::f64::consts::LOG2_10 - 1.0)).floor() as usize;
-    let five = BigInt::from(5);
     let low = estimate.saturating_sub(1);
-    let mut p = num_traits::pow(five.clone(), low);
+    let mut p = num_traits::pow(BigInt::from(5), low);
     for b in low..=estimate + 1 {
         if p == rest {
             return Some((twos as usize, b));
@@ -81,7 +77,7 @@ fn two_five_factors(den: &BigInt) -> Option<(usize, usize)> {
         if p > rest {
             break;
         }
-        p *= &five;
+        p *= 5u32;
     }
     None
 }

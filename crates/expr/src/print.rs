@@ -56,9 +56,7 @@ fn num_text(v: &BigRational) -> String {
 
 /// Formula text for `id`. `parse(print(e))` lowers back to `e` in the same DAG.
 pub fn to_text(dag: &Dag, id: ExprId) -> String {
-    let mut out = String::new();
-    text(&mut None, dag, id, &mut out);
-    out
+    to_text_memo(&mut TextMemo::new(), dag, id)
 }
 
 /// Texts of the numbers already printed, for callers that print many expressions sharing
@@ -66,7 +64,7 @@ pub fn to_text(dag: &Dag, id: ExprId) -> String {
 /// arithmetic, and the atoms of a power tower would otherwise redo it for every level. A
 /// number's text never depends on where it sits (its parent adds any parentheses), so a
 /// remembered text is exact. Only numbers are kept, so the memo stays as small as they are.
-pub(crate) type TextMemo = Option<HashMap<ExprId, String>>;
+pub(crate) type TextMemo = HashMap<ExprId, String>;
 
 /// [`to_text`], reusing and filling `memo`.
 pub(crate) fn to_text_memo(memo: &mut TextMemo, dag: &Dag, id: ExprId) -> String {
@@ -85,36 +83,32 @@ fn wrap(parens: bool, m: &mut TextMemo, dag: &Dag, id: ExprId, out: &mut String)
     }
 }
 
-/// The remembered text of a number node, printing it on first use; `None` without a memo or
-/// for other nodes.
-fn memo_num<'m>(m: &'m mut TextMemo, dag: &Dag, id: ExprId) -> Option<&'m str> {
-    let (Node::Num(v), Some(memo)) = (dag.node(id), m.as_mut()) else {
-        return None;
-    };
-    Some(memo.entry(id).or_insert_with(|| num_text(v)))
+/// The text of the number `v` at `id`, printed on first use.
+fn num_memo<'m>(m: &'m mut TextMemo, id: ExprId, v: &BigRational) -> &'m str {
+    m.entry(id).or_insert_with(|| num_text(v))
+}
+
+/// The text of the negative number `v` at `id` without its sign: [`num_text`] writes every
+/// negative number (integer, decimal or `p/q`) as `-` and the text of its magnitude.
+fn magnitude_memo<'m>(m: &'m mut TextMemo, id: ExprId, v: &BigRational) -> &'m str {
+    let t = num_memo(m, id, v);
+    t.strip_prefix('-').unwrap_or(t)
 }
 
 /// [`prec`], reading a number's precedence off its remembered text ([`num_text`] writes a
 /// `p/q` exactly when [`num_prec`] says quotient) instead of factoring its denominator again.
 fn text_prec(m: &mut TextMemo, dag: &Dag, id: ExprId) -> u8 {
-    match (dag.node(id), memo_num(m, dag, id)) {
-        (Node::Num(v), _) if v.is_negative() => P_NEG,
-        (_, Some(t)) if t.contains('/') => P_MUL,
-        (_, Some(_)) => P_ATOM,
+    match dag.node(id) {
+        Node::Num(v) if v.is_negative() => P_NEG,
+        Node::Num(v) if num_memo(m, id, v).contains('/') => P_MUL,
+        Node::Num(_) => P_ATOM,
         _ => prec(dag, id),
     }
 }
 
 fn text(m: &mut TextMemo, dag: &Dag, id: ExprId, out: &mut String) {
-    match memo_num(m, dag, id) {
-        Some(known) => out.push_str(known),
-        None => text_of_node(m, dag, id, out),
-    }
-}
-
-fn text_of_node(m: &mut TextMemo, dag: &Dag, id: ExprId, out: &mut String) {
     match dag.node(id) {
-        Node::Num(v) => out.push_str(&num_text(v)),
+        Node::Num(v) => out.push_str(num_memo(m, id, v)),
         Node::Sym(s) => out.push_str(s),
         Node::Neg(a) => {
             out.push('-');
@@ -139,7 +133,7 @@ fn text_of_node(m: &mut TextMemo, dag: &Dag, id: ExprId, out: &mut String) {
                     }
                     Node::Num(v) if v.is_negative() => {
                         out.push_str(" - ");
-                        out.push_str(&num_text(&-v.clone()));
+                        out.push_str(magnitude_memo(m, x, v));
                     }
                     Node::Mul(fs) if negative_lead(dag, fs[0]) => {
                         out.push_str(" - ");
@@ -148,7 +142,7 @@ fn text_of_node(m: &mut TextMemo, dag: &Dag, id: ExprId, out: &mut String) {
                                 let nested = matches!(dag.node(*y), Node::Mul(_));
                                 wrap(text_prec(m, dag, *y) < P_MUL || nested, m, dag, *y, out);
                             }
-                            Node::Num(v) => out.push_str(&num_text(&-v.clone())),
+                            Node::Num(v) => out.push_str(magnitude_memo(m, fs[0], v)),
                             _ => unreachable!("negative_lead"),
                         }
                         for &f in &fs[1..] {

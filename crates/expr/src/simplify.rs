@@ -112,7 +112,7 @@ impl<'o> Simplifier<'o> {
             rules: CompiledRules::new(dag),
             atoms: Vec::new(),
             atom_index: HashMap::new(),
-            texts: Some(HashMap::new()),
+            texts: TextMemo::new(),
             memo: HashMap::new(),
             out_memo: HashMap::new(),
             work_left: dag.limits().max_term_products,
