@@ -293,6 +293,13 @@ pub fn recheck(
             sha.as_str().unwrap_or("?")
         ));
     }
+    let claim = field(cert, "claim", "certificate")?;
+    if claim.as_str() != Some(prepared.claim.name().as_str()) {
+        return reject(format!(
+            "the certificate proves the claim {claim}, the spec states `{}`",
+            prepared.claim.name()
+        ));
+    }
     // the domain must be the spec's, bound for bound
     let domain = field(cert, "domain", "certificate")?
         .as_array()
@@ -495,6 +502,7 @@ fn recheck_bound(gj: &Value, prepared: &Prepared, at: &str) -> Result<(f64, usiz
         ));
     }
     // every stated bound by a proof at the level
+    let mut stated: Vec<(String, f64)> = Vec::new();
     for e in field(b, "bounds", at)?
         .as_array()
         .ok_or_else(|| bad("bounds"))?
@@ -526,23 +534,54 @@ fn recheck_bound(gj: &Value, prepared: &Prepared, at: &str) -> Result<(f64, usiz
                 "{at}: the bound [{lower}, {upper}] on `{state}` is not proved at level {level}"
             ));
         }
-        if let Some(req) = field(b, "required", at)?.as_array() {
-            for r in req {
-                if r.get("state").and_then(Value::as_str) == Some(state) {
-                    let need = r
-                        .get("bound")
-                        .and_then(parse_num)
-                        .ok_or_else(|| bad("required"))?;
-                    if lower.abs().max(upper.abs()) > need {
-                        return reject(format!(
-                            "{at}: the bound on `{state}` exceeds the required {need}"
-                        ));
-                    }
-                }
+        stated.push((state.to_string(), lower.abs().max(upper.abs())));
+    }
+    // the required bounds are the spec's, never the certificate's own list: each must be met
+    // by a bound proved above
+    let listed: Option<Vec<(String, f64)>> = field(b, "required", at)?
+        .as_array()
+        .ok_or_else(|| bad("required"))?
+        .iter()
+        .map(|r| {
+            Some((
+                r.get("state")?.as_str()?.to_string(),
+                r.get("bound").and_then(parse_num)?,
+            ))
+        })
+        .collect();
+    if listed.as_deref() != Some(prepared.required.as_slice()) {
+        return reject(format!(
+            "{at}: the certificate's required bounds differ from the spec's ({})",
+            required_text(&prepared.required)
+        ));
+    }
+    for (state, need) in &prepared.required {
+        match stated.iter().find(|(s, _)| s == state) {
+            Some((_, got)) if got <= need => {}
+            Some((_, got)) => {
+                return reject(format!(
+                    "{at}: the proved bound {got} on `{state}` exceeds the spec's required {need}"
+                ))
+            }
+            None => {
+                return reject(format!(
+                    "{at}: the spec requires a bound on `{state}`, and the certificate proves none"
+                ))
             }
         }
     }
     Ok((level, leaves))
+}
+
+fn required_text(required: &[(String, f64)]) -> String {
+    if required.is_empty() {
+        return "none".into();
+    }
+    required
+        .iter()
+        .map(|(s, b)| format!("|{s}| <= {b}"))
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 /// Walks a goal's split tree from the root box, checks every recorded leaf box against the

@@ -225,6 +225,40 @@ fn required_bounds_are_met_or_refuted() {
 }
 
 #[test]
+fn a_certificate_retargeted_to_a_spec_requiring_tighter_bounds_is_rejected() {
+    // the audit's edit: the certificate of `auto`, its SHA-256 set to the spec that requires
+    // |x| <= 0.2 (which `check` falsifies, above) and its own `required` list emptied
+    let origin = |sha: &str| Origin {
+        file: "scalar_disturbance.yaml",
+        sha256: sha.into(),
+        tool_version: "test",
+        settings: serde_json::json!({}),
+    };
+    let (r, p) = run(SCALAR);
+    let mut cert = certificate(&r, &p, &origin("auto"));
+    let strict = SCALAR.replace("{ ultimate_bound: auto }", "{ ultimate_bound: [0.2] }");
+    let mut spec = load(&strict).unwrap();
+    let p_strict = lawsmith_verify::prepare(&mut spec).unwrap();
+    cert["spec"]["sha256"] = serde_json::json!("strict");
+    let gi = p.claim_index().unwrap();
+    cert["goals"][gi]["ultimate_bound"]["required"] = serde_json::json!([]);
+    let e = recheck(&cert, "strict", &p_strict).expect_err("retargeted certificate accepted");
+    assert!(e.0.contains("required bounds differ"), "{e}");
+    // with the spec's list written back, the proved bound itself fails the requirement
+    cert["goals"][gi]["ultimate_bound"]["required"] =
+        serde_json::json!([{"state": "x", "bound": 0.2, "met": true}]);
+    let e = recheck(&cert, "strict", &p_strict).expect_err("retargeted certificate accepted");
+    assert!(e.0.contains("exceeds the spec's required 0.2"), "{e}");
+    // and a looser requirement the proved bound meets is accepted
+    let loose = SCALAR.replace("{ ultimate_bound: auto }", "{ ultimate_bound: [0.3] }");
+    let mut spec = load(&loose).unwrap();
+    let p_loose = lawsmith_verify::prepare(&mut spec).unwrap();
+    cert["goals"][gi]["ultimate_bound"]["required"] =
+        serde_json::json!([{"state": "x", "bound": 0.3, "met": true}]);
+    recheck(&cert, "strict", &p_loose).expect("a met requirement is accepted");
+}
+
+#[test]
 fn the_margin_curve_is_monotone_and_finds_the_largest_error() {
     // the largest input error with |x| <= 0.2 is 0.2*k = 0.4, a factor 0.8 of the declared 0.5
     let r = margin(
