@@ -125,6 +125,21 @@ fn quot(a: f64, b: f64, upward: bool) -> f64 {
     }
 }
 
+/// `√x` (x ≥ 0) rounded down or up. sqrt is correctly rounded (IEEE 754), so one ulp is
+/// enough; an exact root (`√0`, `√4`: a zero fused residual) is not widened, so a square
+/// root that vanishes exactly at a point stays `[0, 0]` there and `√(…) ≠ 0` can be refuted.
+fn root(x: f64, upward: bool) -> f64 {
+    let r = x.sqrt();
+    if x == 0.0 || x.is_infinite() || x >= EXACT_RESIDUAL_MIN && r.mul_add(r, -x) == 0.0 {
+        return r;
+    }
+    if upward {
+        up(r)
+    } else {
+        down(r)
+    }
+}
+
 impl Interval {
     /// `[lo, hi]`.
     ///
@@ -519,10 +534,9 @@ impl Arith for Interval {
                 if c.is_empty() {
                     return c;
                 }
-                // sqrt is correctly rounded (IEEE 754), one ulp is enough
                 Interval {
-                    lo: down(c.lo.sqrt()).max(0.0),
-                    hi: up(c.hi.sqrt()),
+                    lo: root(c.lo, false).max(0.0),
+                    hi: root(c.hi, true),
                 }
             }
             Func::Exp => {
@@ -633,6 +647,17 @@ mod tests {
         assert!(s.lo() < s.hi());
         let q = iv(1.0, 1.0).div(&iv(3.0, 3.0));
         assert!(q.lo() < q.hi() && q.contains(1.0 / 3.0));
+    }
+
+    #[test]
+    fn exact_square_roots_are_not_widened() {
+        // √0 = 0 and √(9/4) = 3/2 exactly (IEEE 754 sqrt is correctly rounded); √2 is not
+        let at = |x: f64| Interval::call(Func::Sqrt, &[iv(x, x)]);
+        assert_eq!(at(0.0), iv(0.0, 0.0));
+        assert_eq!(at(2.25), iv(1.5, 1.5));
+        let r2 = at(2.0);
+        assert!(r2.lo() < r2.hi() && r2.contains(std::f64::consts::SQRT_2));
+        assert_eq!(Interval::call(Func::Sqrt, &[iv(0.0, 4.0)]), iv(0.0, 2.0));
     }
 
     #[test]
