@@ -224,40 +224,51 @@ struct Cond {
     source: String,
 }
 
-/// Collects the domain conditions of every function and division in `e`.
-fn conditions_of(dag: &Dag, e: ExprId, source: &str, out: &mut Vec<Cond>) {
+/// Collects the domain conditions of every function and division in `e`: a function with a
+/// pole or an undefined point gets the condition that keeps its argument away from it.
+fn conditions_of(dag: &mut Dag, e: ExprId, source: &str, out: &mut Vec<Cond>) {
     let mut stack = vec![e];
     let mut seen = HashSet::new();
     while let Some(id) = stack.pop() {
         if !seen.insert(id) {
             continue;
         }
-        let node = dag.node(id);
-        let mut push = |kind, expr| {
+        let node = dag.node(id).clone();
+        let zero = BigRational::from_integer(0.into());
+        let cond = match &node {
+            Node::Div(_, b) => Some((CondKind::NonZero, *b)),
+            Node::Pow(a, b) => match dag.as_num(*b) {
+                Some(k) if k.is_integer() => (k < &zero).then_some((CondKind::NonZero, *a)),
+                Some(k) if k > &zero => Some((CondKind::NonNegative, *a)),
+                _ => Some((CondKind::Positive, *a)),
+            },
+            Node::Call(Func::Asin | Func::Acos, xs) => Some((CondKind::UnitInterval, xs[0])),
+            Node::Call(Func::Sqrt, xs) => Some((CondKind::NonNegative, xs[0])),
+            Node::Call(Func::Ln, xs) => Some((CondKind::Positive, xs[0])),
+            // tan has its poles where cos vanishes
+            Node::Call(Func::Tan, xs) => {
+                Some((CondKind::NonZero, dag.call(Func::Cos, vec![xs[0]])))
+            }
+            // atan2(y, x) is undefined at y = x = 0 and jumps by 2π across the half-line
+            // y = 0, x < 0; off that closed half-line, and only there, sqrt(x^2 + y^2) + x > 0
+            // (the half-angle form 2*atan(y/(sqrt(x^2 + y^2) + x)) of atan2). The closed loop,
+            // and the mean-value forms of the proof, need a continuous law.
+            Node::Call(Func::Atan2, xs) => {
+                let (y, x) = (xs[0], xs[1]);
+                let (x2, y2) = (dag.powi(x, 2), dag.powi(y, 2));
+                let r2 = dag.add(vec![x2, y2]);
+                let r = dag.call(Func::Sqrt, vec![r2]);
+                Some((CondKind::Positive, dag.add(vec![r, x])))
+            }
+            _ => None,
+        };
+        if let Some((kind, expr)) = cond {
             out.push(Cond {
                 kind,
                 expr,
                 in_proof: false,
                 source: source.to_string(),
-            })
-        };
-        match node {
-            Node::Div(_, b) => push(CondKind::NonZero, *b),
-            Node::Pow(a, b) => match dag.as_num(*b) {
-                Some(k) if k.is_integer() => {
-                    if k < &BigRational::from_integer(0.into()) {
-                        push(CondKind::NonZero, *a)
-                    }
-                }
-                Some(k) if k > &BigRational::from_integer(0.into()) => {
-                    push(CondKind::NonNegative, *a)
-                }
-                _ => push(CondKind::Positive, *a),
-            },
-            Node::Call(Func::Asin | Func::Acos, xs) => push(CondKind::UnitInterval, xs[0]),
-            Node::Call(Func::Sqrt, xs) => push(CondKind::NonNegative, xs[0]),
-            Node::Call(Func::Ln, xs) => push(CondKind::Positive, xs[0]),
-            _ => {}
+            });
         }
         stack.extend(node.children_vec());
     }
@@ -444,13 +455,22 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
 
     let mut conds = Vec::new();
     for (n, e) in &derivation.laws {
-        conditions_of(&problem.dag, *e, &format!("law `{n}`"), &mut conds);
+        conditions_of(&mut problem.dag, *e, &format!("law `{n}`"), &mut conds);
     }
     for (n, e) in &derivation.actuators {
-        conditions_of(&problem.dag, *e, &format!("actuator `{n}`"), &mut conds);
+        conditions_of(&mut problem.dag, *e, &format!("actuator `{n}`"), &mut conds);
     }
-    conditions_of(&problem.dag, derivation.candidate, "V", &mut conds);
-    conditions_of(&problem.dag, derivation.vdot, "dV/dt", &mut conds);
+    conditions_of(&mut problem.dag, derivation.candidate, "V", &mut conds);
+    conditions_of(&mut problem.dag, derivation.vdot, "dV/dt", &mut conds);
+    // the plant model closed with the laws must be defined wherever the proof looks
+    for (n, e) in &derivation.closed_loop {
+        conditions_of(
+            &mut problem.dag,
+            *e,
+            &format!("dynamics of `{n}`"),
+            &mut conds,
+        );
+    }
     for (rule, c) in &derivation.assumptions {
         conds.push(Cond {
             kind: c.kind,
