@@ -51,6 +51,7 @@ pub fn load(source: &str) -> Result<Spec, Vec<Diagnostic>> {
         defs: HashMap::new(),
         def_dims: HashMap::new(),
         inputs: Vec::new(),
+        law_order: Vec::new(),
     };
     l.run(raw).map_err(|()| l.diags.clone()).and_then(|spec| {
         if l.diags.is_empty() {
@@ -132,6 +133,8 @@ struct Loader<'s> {
     defs: HashMap<String, Def>,
     def_dims: HashMap<String, Option<Dim>>,
     inputs: Vec<String>,
+    /// The inputs in the order of `laws:` (the evaluation order).
+    law_order: Vec<String>,
 }
 
 /// Where a formula's text starts in the file, so formula offsets become file offsets.
@@ -620,6 +623,7 @@ impl<'s> Loader<'s> {
                 law_asts.push((n.value.clone(), p, f.value.clone()));
             }
         }
+        self.law_order = law_asts.iter().map(|(n, _, _)| n.clone()).collect();
         for i in self.inputs.clone() {
             if !raw.laws.0.iter().any(|(k, _)| k.value == i) {
                 let span = self.decl[&i].1.clone();
@@ -710,6 +714,7 @@ impl<'s> Loader<'s> {
             };
             if let Some(id) = self.lower_in(&mut dag, ast, &ctx) {
                 self.no_true_values(&dag, id, *base, text, &format!("the law for `{input}`"));
+                self.no_law_loop(&dag, id, i, *base, text);
                 laws.push((input.clone(), id));
             }
         }
@@ -865,6 +870,33 @@ impl<'s> Loader<'s> {
                 )
                 .label("uses the true dynamics")
                 .hint("write the derivative from estimates, e.g. ddt(ref(…)), or move the true value out of the dynamics"),
+            );
+        }
+    }
+
+    /// Reports a law that came to depend on its own input or a later one through `ddt(…)` of
+    /// a state whose dynamics use it: an equation in that input, not a formula to evaluate.
+    fn no_law_loop(&mut self, dag: &Dag, id: ExprId, index: usize, base: usize, text: &str) {
+        let input = &self.law_order[index];
+        let later = dag.symbols(id).into_iter().find(|s| {
+            self.law_order
+                .iter()
+                .position(|i| i == s)
+                .is_some_and(|k| k >= index)
+        });
+        if let Some(u) = later {
+            let which = if &u == input {
+                "itself".to_string()
+            } else {
+                format!("`{u}`, a later law")
+            };
+            let msg = format!(
+                "the law for `{input}` depends on {which} through ddt(…) of a state whose dynamics use `{u}`"
+            );
+            self.err(
+                Diagnostic::new("law-loop", msg, base..base + text.len().max(1))
+                    .label("an equation in the law's own output, not a formula")
+                    .hint("write the derivative from references and earlier laws, e.g. ddt(ref(e_tot)), or reorder the laws"),
             );
         }
     }

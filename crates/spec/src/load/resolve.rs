@@ -113,14 +113,10 @@ impl Resolver for SpecResolver<'_, '_, '_> {
             });
         }
         if sym.kind == SymbolKind::Input {
-            let idx = self
-                .loader
-                .inputs
-                .iter()
-                .position(|i| i == name)
-                .unwrap_or(0);
-            if let Some(li) = self.ctx.law_index {
-                if idx >= li && li < self.loader.inputs.len() {
+            // positions in the order of `laws:`, which is the evaluation order
+            let idx = self.loader.law_order.iter().position(|i| i == name);
+            if let (Some(idx), Some(li)) = (idx, self.ctx.law_index) {
+                if idx >= li {
                     let which = if idx == li {
                         "its own law"
                     } else {
