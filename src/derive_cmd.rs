@@ -2,7 +2,7 @@
 
 use crate::{read_spec, Format, EXIT_INVALID};
 use lawsmith_expr::{to_latex, to_text, DagLimits};
-use lawsmith_spec::{derive, uncertainty_name, Derivation, ErrorForm, Spec};
+use lawsmith_spec::{derive, uncertainty_name, Decl, Derivation, ErrorForm, Range, Spec, Target};
 use serde_json::{json, Map, Value};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -123,38 +123,46 @@ fn derivation_json(spec: &Spec, d: &Derivation, path: &Path) -> Value {
     let mut symbols = Map::new();
     for s in &spec.symbols {
         let mut o = Map::new();
-        o.insert("kind".into(), json!(s.kind.name()));
+        o.insert("kind".into(), json!(s.kind().name()));
         o.insert("unit".into(), json!(s.unit));
+        let range = match &s.decl {
+            Decl::State { .. } => spec.state_span(s),
+            _ => s.range().map(Range::nearest),
+        };
         o.insert(
             "range".into(),
-            s.range.map_or(Value::Null, |(a, b)| json!([a, b])),
+            range.map_or(Value::Null, |(a, b)| json!([a, b])),
         );
-        if let Some(v) = s.value {
-            o.insert("value".into(), json!(v));
-        }
-        if let Some(v) = s.default {
-            o.insert("default".into(), json!(v));
-        }
-        if let Some(r) = &s.reference {
-            o.insert("reference".into(), json!(r));
-        }
-        if let Some(e) = s.equilibrium {
-            o.insert("equilibrium".into(), json!(e));
-        }
-        if let Some((a, b)) = s.error {
-            o.insert("error".into(), json!([a, b]));
-        }
-        if let Some(r) = &s.rate {
-            o.insert("rate".into(), json!(r));
-        }
-        if let Some((e, form)) = &s.estimate {
-            o.insert("estimate".into(), json!(e));
-            let form = match form {
-                ErrorForm::Relative => "relative",
-                ErrorForm::Absolute => "absolute",
-            };
-            o.insert("form".into(), json!(form));
-            o.insert("error_symbol".into(), json!(uncertainty_name(&s.name)));
+        match &s.decl {
+            Decl::Parameter { value } => {
+                o.insert("value".into(), json!(value.value()));
+            }
+            Decl::Gain {
+                default: Some(v), ..
+            } => {
+                o.insert("default".into(), json!(v));
+            }
+            Decl::State { target, error } => {
+                match target {
+                    Target::Reference(r) => o.insert("reference".into(), json!(r)),
+                    Target::Equilibrium(e) => o.insert("equilibrium".into(), json!(e.value())),
+                };
+                let (a, b) = error.nearest();
+                o.insert("error".into(), json!([a, b]));
+            }
+            Decl::Reference { rate, .. } => {
+                o.insert("rate".into(), json!(rate));
+            }
+            Decl::Uncertain { estimate, form, .. } => {
+                o.insert("estimate".into(), json!(estimate));
+                let form = match form {
+                    ErrorForm::Relative => "relative",
+                    ErrorForm::Absolute => "absolute",
+                };
+                o.insert("form".into(), json!(form));
+                o.insert("error_symbol".into(), json!(uncertainty_name(&s.name)));
+            }
+            _ => {}
         }
         symbols.insert(s.name.clone(), Value::Object(o));
     }

@@ -12,7 +12,7 @@
 
 use crate::ir::{clamp, Builder, IrError, Program, Slot};
 use lawsmith_expr::{ExprId, Func};
-use lawsmith_spec::{Spec, SymbolKind};
+use lawsmith_spec::{Decl, Spec, SymbolKind, Target};
 use std::collections::HashMap;
 
 /// A reference, rate or signal: a value the law reads, with its proved range.
@@ -156,10 +156,6 @@ fn midpoint((lo, hi): (f64, f64)) -> f64 {
     0.5 * lo + 0.5 * hi
 }
 
-fn range_of(s: &lawsmith_spec::Symbol) -> (f64, f64) {
-    s.range.unwrap_or((0.0, 0.0))
-}
-
 impl Controller {
     /// Builds the controller of a loaded spec. Parameters become constants.
     pub fn new(spec: &Spec) -> Result<Controller, EmitError> {
@@ -174,10 +170,12 @@ impl Controller {
         }
         let ranged = |kind| -> Vec<Ranged> {
             spec.symbols_of(kind)
-                .map(|s| Ranged {
-                    name: s.name.clone(),
-                    unit: s.unit.clone(),
-                    range: range_of(s),
+                .filter_map(|s| {
+                    Some(Ranged {
+                        name: s.name.clone(),
+                        unit: s.unit.clone(),
+                        range: s.range()?.nearest(),
+                    })
                 })
                 .collect()
         };
@@ -185,28 +183,40 @@ impl Controller {
         let rates = ranged(SymbolKind::Rate);
         let signals = ranged(SymbolKind::Signal);
         let states: Vec<State> = spec
-            .symbols_of(SymbolKind::State)
-            .map(|s| State {
-                name: s.name.clone(),
-                unit: s.unit.clone(),
-                reference: s
-                    .reference
-                    .as_ref()
-                    .and_then(|r| references.iter().position(|x| &x.name == r)),
-                equilibrium: s.equilibrium.unwrap_or(0.0),
-                error: s.error.unwrap_or((0.0, 0.0)),
+            .symbols
+            .iter()
+            .filter_map(|s| {
+                let Decl::State { target, error } = &s.decl else {
+                    return None;
+                };
+                let (reference, equilibrium) = match target {
+                    Target::Reference(r) => (references.iter().position(|x| &x.name == r), 0.0),
+                    Target::Equilibrium(eq) => (None, eq.value()),
+                };
+                Some(State {
+                    name: s.name.clone(),
+                    unit: s.unit.clone(),
+                    reference,
+                    equilibrium,
+                    error: error.nearest(),
+                })
             })
             .collect();
         let gains: Vec<Gain> = spec
-            .symbols_of(SymbolKind::Gain)
-            .map(|s| {
-                let range = range_of(s);
-                Gain {
+            .symbols
+            .iter()
+            .filter_map(|s| {
+                let Decl::Gain { range, default } = &s.decl else {
+                    return None;
+                };
+                let range = range.nearest();
+                Some(Gain {
                     name: s.name.clone(),
                     unit: s.unit.clone(),
                     range,
-                    default: s.default.unwrap_or_else(|| midpoint(range)),
-                }
+                    // the midpoint when the spec gives no default (README)
+                    default: default.unwrap_or_else(|| midpoint(range)),
+                })
             })
             .collect();
         let actuators: Vec<Actuator> = spec
@@ -239,10 +249,11 @@ impl Controller {
         // parameters are constants: the decimals the spec wrote
         let mut dag = spec.dag.clone();
         let params: HashMap<String, ExprId> = spec
-            .symbols_of(SymbolKind::Parameter)
-            .map(|s| {
-                let v = lawsmith_verify::exact_decimal(s.value.unwrap_or(0.0));
-                (s.name.clone(), dag.num(v))
+            .symbols
+            .iter()
+            .filter_map(|s| match &s.decl {
+                Decl::Parameter { value } => Some((s.name.clone(), dag.num(value.exact().clone()))),
+                _ => None,
             })
             .collect();
 
@@ -311,8 +322,11 @@ impl Controller {
             }
             let rate = spec
                 .symbol(&g.reference)
-                .and_then(|s| s.rate.clone())
-                .unwrap_or_default();
+                .and_then(|s| match &s.decl {
+                    Decl::Reference { rate, .. } => Some(rate.clone()),
+                    _ => None,
+                })
+                .ok_or_else(|| EmitError(format!("`{}` is not a reference", g.reference)))?;
             filters.push(Filter {
                 reference,
                 rate,

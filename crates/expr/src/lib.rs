@@ -43,7 +43,7 @@ pub use dag::{Dag, DagLimits, ExprId, Func, Node, DEFAULT_MAX_TERM_PRODUCTS};
 pub use diff::derivative;
 pub use eval::{apply, eval, pow, powi, Arith, Tape};
 pub use lower::{lower, parse_expr, LowerError, PlainSymbols, Resolver};
-pub use number::{as_terminating_decimal, parse_decimal, to_f64};
+pub use number::{as_terminating_decimal, parse_decimal, to_f64, Decimal};
 pub use parse::{parse, parse_with, Ast, AstKind, ParseError, ParseSettings, Span};
 pub use print::{to_latex, to_text};
 pub use rules::{

@@ -44,6 +44,91 @@ pub fn parse_decimal(text: &str) -> Option<BigRational> {
     })
 }
 
+/// A number as a spec wrote it: its exact rational value, and the f64 nearest to it.
+///
+/// The proof works with the exact value (or with f64 bounds rounded outward from it, so a
+/// box always contains what the spec declared); generated code and simulation hold the
+/// nearest f64.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Decimal {
+    exact: BigRational,
+    nearest: f64,
+}
+
+impl Decimal {
+    /// A decimal literal with an optional sign (`-0.05`, `+2`, `1.5e-3`), read exactly; None
+    /// when the text is not one.
+    pub fn parse(text: &str) -> Option<Decimal> {
+        let t = text.trim();
+        let (neg, digits) = match t.as_bytes().first() {
+            Some(b'-') => (true, &t[1..]),
+            Some(b'+') => (false, &t[1..]),
+            _ => (false, t),
+        };
+        let v = parse_decimal(digits)?;
+        let exact = if neg { -v } else { v };
+        // Rust's parse is correctly rounded: the nearest f64 to the same text
+        let nearest: f64 = t.parse().ok()?;
+        nearest.is_finite().then_some(Decimal { exact, nearest })
+    }
+
+    /// The shortest decimal that reads back as `x` (`9.80665` for the double nearest it):
+    /// how a number that arrives as an f64 was most likely written. Non-finite values give 0.
+    pub fn from_f64(x: f64) -> Decimal {
+        if !x.is_finite() {
+            return Decimal::from_f64(0.0);
+        }
+        let text = format!("{:e}", x.abs());
+        let v = parse_decimal(&text)
+            .or_else(|| BigRational::from_float(x.abs()))
+            .unwrap_or_default();
+        Decimal {
+            exact: if x < 0.0 { -v } else { v },
+            nearest: x,
+        }
+    }
+
+    /// The f64 itself, as an exact value: for numbers that are binary by nature (an f64
+    /// computed from others), where no decimal was written.
+    pub fn binary(x: f64) -> Decimal {
+        Decimal {
+            exact: BigRational::from_float(x).unwrap_or_default(),
+            nearest: if x.is_finite() { x } else { 0.0 },
+        }
+    }
+
+    /// The exact value.
+    pub fn exact(&self) -> &BigRational {
+        &self.exact
+    }
+
+    /// The f64 nearest to the exact value.
+    pub fn value(&self) -> f64 {
+        self.nearest
+    }
+
+    /// True when the nearest f64 is the exact value.
+    pub fn is_exact(&self) -> bool {
+        BigRational::from_float(self.nearest).as_ref() == Some(&self.exact)
+    }
+
+    /// The largest f64 at or below the exact value.
+    pub fn down(&self) -> f64 {
+        match BigRational::from_float(self.nearest) {
+            Some(v) if v > self.exact => self.nearest.next_down(),
+            _ => self.nearest,
+        }
+    }
+
+    /// The smallest f64 at or above the exact value.
+    pub fn up(&self) -> f64 {
+        match BigRational::from_float(self.nearest) {
+            Some(v) if v < self.exact => self.nearest.next_up(),
+            _ => self.nearest,
+        }
+    }
+}
+
 /// Denominators longer than this print as fractions `p/q` rather than as decimals: a decimal
 /// of a 2^-4096 would be thousands of digits, and finding it costs a division per factor.
 pub const MAX_DECIMAL_DENOMINATOR_BITS: u64 = 1024;
@@ -128,6 +213,27 @@ mod tests {
         assert_eq!(parse_decimal(".25"), Some(r(1, 4)));
         assert_eq!(parse_decimal("1e999999"), None);
         assert_eq!(parse_decimal("."), None);
+    }
+
+    #[test]
+    fn decimals_round_outward_from_their_exact_value() {
+        // 0.05 as a double is 0.05000000000000000277 > 1/20 and -0.05 the mirror image;
+        // 0.5 is exact (IEEE 754 binary64, common practice)
+        let d = Decimal::parse("0.05").unwrap();
+        assert_eq!(d.exact(), &r(1, 20));
+        assert!(!d.is_exact());
+        assert_eq!(d.up(), 0.05);
+        assert_eq!(d.down(), 0.05f64.next_down());
+        let n = Decimal::parse("-0.05").unwrap();
+        assert_eq!((n.down(), n.up()), (-0.05, (-0.05f64).next_up()));
+        let h = Decimal::parse("+0.5").unwrap();
+        assert!(h.is_exact() && h.down() == 0.5 && h.up() == 0.5);
+        // more digits than a double holds: the exact value is what was written
+        let long = Decimal::parse("0.30000000000000001").unwrap();
+        assert_eq!(long.value(), 0.3);
+        assert!(long.down() < long.up());
+        assert_eq!(Decimal::from_f64(9.80665).exact(), &r(196133, 20000));
+        assert_eq!(Decimal::parse("0x10"), None);
     }
 
     #[test]

@@ -10,7 +10,7 @@
 use crate::montecarlo::variant;
 use crate::run::Setup;
 use lawsmith_expr::Tape;
-use lawsmith_spec::{Spec, SymbolKind};
+use lawsmith_spec::{Decl, Spec};
 use rayon::prelude::*;
 
 /// V along trajectories: the candidate compiled over the symbols it reads.
@@ -41,17 +41,16 @@ impl Watch {
                 .ok_or_else(|| format!("the candidate reads `{n}`, which is not declared"))?;
             let reference_of = |state: &str| {
                 spec.symbol(state)
-                    .and_then(|s| s.reference.clone())
-                    .filter(|r| r == n)
-                    .is_some()
+                    .and_then(|s| s.reference())
+                    .is_some_and(|r| r == n)
             };
-            let src = match (sym.kind, n.as_str()) {
-                (SymbolKind::State, "h") => Source::H,
-                (SymbolKind::State, "va") => Source::Va,
-                (SymbolKind::Reference, _) if reference_of("h") => Source::HRef,
-                (SymbolKind::Reference, _) if reference_of("va") => Source::VaRef,
-                (SymbolKind::Parameter, _) => Source::Const(sym.value.unwrap_or(f64::NAN)),
-                (SymbolKind::Gain, _) => Source::Const(
+            let src = match (&sym.decl, n.as_str()) {
+                (Decl::State { .. }, "h") => Source::H,
+                (Decl::State { .. }, "va") => Source::Va,
+                (Decl::Reference { .. }, _) if reference_of("h") => Source::HRef,
+                (Decl::Reference { .. }, _) if reference_of("va") => Source::VaRef,
+                (Decl::Parameter { value }, _) => Source::Const(value.value()),
+                (Decl::Gain { .. }, _) => Source::Const(
                     gains
                         .iter()
                         .find(|(g, _)| g == n)

@@ -2,7 +2,7 @@
 //! V̇ = Σ ∂V/∂x·ẋ + Σ ∂V/∂r·ṙ, simplified to canonical form.
 
 use crate::diag::Diagnostic;
-use crate::model::{uncertainty_name, ErrorForm, Spec, SymbolKind};
+use crate::model::{uncertainty_name, Decl, ErrorForm, Spec};
 use lawsmith_expr::{derivative, AssumeAll, Condition, ExprId, Oracle, Simplifier};
 use std::collections::HashMap;
 
@@ -97,12 +97,8 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
     // the plant sees true values: `estimate·(1 + δ)` or `estimate + δ`, where the estimate
     // (a signal, or an input computed by its law) is what the controller sees
     let mut true_values: HashMap<String, ExprId> = HashMap::new();
-    for s in spec
-        .symbols
-        .iter()
-        .filter(|s| s.kind == SymbolKind::Uncertain)
-    {
-        let Some((estimate, form)) = &s.estimate else {
+    for s in &spec.symbols {
+        let Decl::Uncertain { estimate, form, .. } = &s.decl else {
             continue;
         };
         let e = dag.sym(estimate);
@@ -131,8 +127,8 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         let Some(sym) = spec.symbols.iter().find(|s| s.name == name) else {
             continue;
         };
-        let rate = match sym.kind {
-            SymbolKind::State => closed
+        let rate = match &sym.decl {
+            Decl::State { .. } => closed
                 .iter()
                 .find(|(s, _)| *s == name)
                 .map(|(_, f)| *f)
@@ -143,17 +139,14 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
                         None,
                     )
                 })?,
-            SymbolKind::Reference => {
-                let r = sym.rate.clone().unwrap_or_default();
-                dag.sym(&r)
-            }
-            SymbolKind::Parameter | SymbolKind::Gain => continue,
-            k => {
+            Decl::Reference { rate, .. } => dag.sym(rate),
+            Decl::Parameter { .. } | Decl::Gain { .. } => continue,
+            _ => {
                 return Err(error(
                     "no-rate",
                     format!(
                     "the candidate depends on `{name}`, a {} whose rate of change is not declared",
-                    k.name()
+                    sym.kind().name()
                 ),
                     None,
                 ))

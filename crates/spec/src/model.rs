@@ -1,7 +1,7 @@
 //! The validated spec: symbols with kinds, units and ranges, and the lowered formulas.
 
 use crate::units::Dim;
-use lawsmith_expr::{Dag, ExprId};
+use lawsmith_expr::{Dag, Decimal, ExprId};
 
 /// What a symbol is.
 #[derive(Copy, Clone, PartialEq, Eq, Debug)]
@@ -44,35 +44,179 @@ impl SymbolKind {
     }
 }
 
+/// A declared interval `[lo, hi]` (lo ≤ hi), each end the decimal the spec wrote.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Range {
+    /// Lower end.
+    pub lo: Decimal,
+    /// Upper end.
+    pub hi: Decimal,
+}
+
+impl Range {
+    /// The range of two decimals.
+    pub fn new(lo: Decimal, hi: Decimal) -> Range {
+        Range { lo, hi }
+    }
+
+    /// A range of two numbers that arrived as f64, each read as its shortest decimal.
+    pub fn from_f64(lo: f64, hi: f64) -> Range {
+        Range::new(Decimal::from_f64(lo), Decimal::from_f64(hi))
+    }
+
+    /// The nearest f64 of each end: what generated code and simulation hold.
+    pub fn nearest(&self) -> (f64, f64) {
+        (self.lo.value(), self.hi.value())
+    }
+
+    /// The smallest f64 interval that holds the range: what a proof must cover.
+    pub fn outward(&self) -> (f64, f64) {
+        (self.lo.down(), self.hi.up())
+    }
+
+    /// The largest f64 interval inside the range: where a counterexample may lie.
+    pub fn inward(&self) -> (f64, f64) {
+        (self.lo.up(), self.hi.down())
+    }
+
+    /// True when both ends are the same number.
+    pub fn is_point(&self) -> bool {
+        self.lo.exact() == self.hi.exact()
+    }
+}
+
+/// What a state is regulated to.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Target {
+    /// A reference from the guidance filter (its name).
+    Reference(String),
+    /// A fixed equilibrium value.
+    Equilibrium(Decimal),
+}
+
+/// What a symbol is, with the data its kind declares.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Decl {
+    /// Fixed at generation time.
+    Parameter {
+        /// Its value.
+        value: Decimal,
+    },
+    /// Set at run time within a range.
+    Gain {
+        /// The range the proof covers.
+        range: Range,
+        /// The value the generated code falls back to (None when the spec gives none).
+        default: Option<f64>,
+    },
+    /// A proof coordinate through its error around a target.
+    State {
+        /// What it tracks.
+        target: Target,
+        /// The error box of `state − target`.
+        error: Range,
+    },
+    /// A reference from the guidance filter.
+    Reference {
+        /// Its range.
+        range: Range,
+        /// The name of its rate.
+        rate: String,
+    },
+    /// The time derivative of a reference.
+    Rate {
+        /// Its range.
+        range: Range,
+        /// The reference it is the rate of.
+        reference: String,
+    },
+    /// Measured or estimated each cycle.
+    Signal {
+        /// Its range.
+        range: Range,
+    },
+    /// What the plant takes; computed by a law.
+    Input,
+    /// A guidance command, an actuator command or a definition's name.
+    Command,
+    /// The plant's true value of an estimated signal or input.
+    Uncertain {
+        /// The signal or input the law sees instead.
+        estimate: String,
+        /// How the two differ.
+        form: ErrorForm,
+        /// The range of the error, relative or absolute.
+        error: Range,
+    },
+}
+
+impl Decl {
+    /// The kind alone.
+    pub fn kind(&self) -> SymbolKind {
+        match self {
+            Decl::Parameter { .. } => SymbolKind::Parameter,
+            Decl::Gain { .. } => SymbolKind::Gain,
+            Decl::State { .. } => SymbolKind::State,
+            Decl::Reference { .. } => SymbolKind::Reference,
+            Decl::Rate { .. } => SymbolKind::Rate,
+            Decl::Signal { .. } => SymbolKind::Signal,
+            Decl::Input => SymbolKind::Input,
+            Decl::Command => SymbolKind::Command,
+            Decl::Uncertain { .. } => SymbolKind::Uncertain,
+        }
+    }
+}
+
 /// A declared symbol.
 #[derive(Clone, Debug)]
 pub struct Symbol {
     /// Name.
     pub name: String,
-    /// Kind.
-    pub kind: SymbolKind,
     /// The unit as written.
     pub unit: String,
     /// The dimension of the unit.
     pub dim: Dim,
-    /// Declared range: gains, references, rates, signals; for a state, its reference's range
-    /// widened by the error box (or the error box around the equilibrium).
-    pub range: Option<(f64, f64)>,
-    /// Parameter value.
-    pub value: Option<f64>,
-    /// Gain default.
-    pub default: Option<f64>,
-    /// State: the reference it tracks.
-    pub reference: Option<String>,
-    /// State: the equilibrium, when it tracks no reference.
-    pub equilibrium: Option<f64>,
-    /// State: the error box of `state − reference` (or `state − equilibrium`).
-    pub error: Option<(f64, f64)>,
-    /// Reference: the name of its rate.
-    pub rate: Option<String>,
-    /// Uncertain quantity: the estimate it differs from, and how (its `range` is the range
-    /// of the error, relative or absolute).
-    pub estimate: Option<(String, ErrorForm)>,
+    /// What it is, with the data of its kind.
+    pub decl: Decl,
+}
+
+impl Symbol {
+    /// Its kind.
+    pub fn kind(&self) -> SymbolKind {
+        self.decl.kind()
+    }
+
+    /// The declared range of a gain, reference, rate or signal, or the error range of an
+    /// uncertain quantity (a state's error box is [`Symbol::error`]).
+    pub fn range(&self) -> Option<&Range> {
+        match &self.decl {
+            Decl::Gain { range, .. }
+            | Decl::Reference { range, .. }
+            | Decl::Rate { range, .. }
+            | Decl::Signal { range } => Some(range),
+            Decl::Uncertain { error, .. } => Some(error),
+            _ => None,
+        }
+    }
+
+    /// A state's error box.
+    pub fn error(&self) -> Option<&Range> {
+        match &self.decl {
+            Decl::State { error, .. } => Some(error),
+            _ => None,
+        }
+    }
+
+    /// A state's reference, when it tracks one.
+    pub fn reference(&self) -> Option<&str> {
+        match &self.decl {
+            Decl::State {
+                target: Target::Reference(r),
+                ..
+            } => Some(r),
+            _ => None,
+        }
+    }
 }
 
 /// How an uncertain quantity differs from its estimate.
@@ -204,6 +348,22 @@ impl Spec {
 
     /// The symbols of one kind, in declaration order.
     pub fn symbols_of(&self, kind: SymbolKind) -> impl Iterator<Item = &Symbol> {
-        self.symbols.iter().filter(move |s| s.kind == kind)
+        self.symbols.iter().filter(move |s| s.kind() == kind)
+    }
+
+    /// The values a state takes over the envelope, in f64: its reference's range widened by
+    /// its error box, or the error box around its equilibrium (for reports).
+    pub fn state_span(&self, s: &Symbol) -> Option<(f64, f64)> {
+        let Decl::State { target, error } = &s.decl else {
+            return None;
+        };
+        let (el, eh) = error.nearest();
+        match target {
+            Target::Reference(r) => {
+                let (lo, hi) = self.symbol(r)?.range()?.nearest();
+                Some((lo + el, hi + eh))
+            }
+            Target::Equilibrium(eq) => Some((eq.value() + el, eq.value() + eh)),
+        }
     }
 }

@@ -13,6 +13,10 @@ use std::marker::PhantomData;
 /// A string with the position of its YAML scalar.
 pub type SpannedStr = Spanned<String>;
 
+/// `[min, max]` with the position of the list and of each number (so the loader can read
+/// each end as the decimal it was written as).
+pub type RawRange = Spanned<Vec<Spanned<f64>>>;
+
 /// A YAML mapping whose order matters (laws are evaluated in order) and whose keys keep their
 /// positions.
 #[derive(Debug, Clone)]
@@ -180,7 +184,7 @@ pub struct RawParameter {
 #[serde(deny_unknown_fields)]
 pub struct RawGain {
     #[schemars(with = "[f64; 2]")]
-    pub range: Spanned<Vec<f64>>,
+    pub range: RawRange,
     #[schemars(with = "Scalar")]
     pub unit: SpannedStr,
     #[serde(default)]
@@ -200,7 +204,7 @@ pub struct RawState {
     #[schemars(with = "Option<f64>")]
     pub equilibrium: Option<Spanned<f64>>,
     #[schemars(with = "[f64; 2]")]
-    pub error: Spanned<Vec<f64>>,
+    pub error: RawRange,
 }
 
 #[derive(Debug, Deserialize, JsonSchema)]
@@ -209,11 +213,11 @@ pub struct RawReference {
     #[schemars(with = "Scalar")]
     pub unit: SpannedStr,
     #[schemars(with = "[f64; 2]")]
-    pub range: Spanned<Vec<f64>>,
+    pub range: RawRange,
     #[schemars(with = "String")]
     pub rate: SpannedStr,
     #[schemars(with = "[f64; 2]")]
-    pub rate_range: Spanned<Vec<f64>>,
+    pub rate_range: RawRange,
 }
 
 #[derive(Debug, Deserialize, JsonSchema)]
@@ -222,7 +226,7 @@ pub struct RawSignal {
     #[schemars(with = "Scalar")]
     pub unit: SpannedStr,
     #[schemars(with = "[f64; 2]")]
-    pub range: Spanned<Vec<f64>>,
+    pub range: RawRange,
 }
 
 #[derive(Debug, Deserialize, JsonSchema)]
@@ -251,10 +255,10 @@ pub struct RawUncertain {
     pub estimate: SpannedStr,
     #[serde(default)]
     #[schemars(with = "Option<[f64; 2]>")]
-    pub relative: Option<Spanned<Vec<f64>>>,
+    pub relative: Option<RawRange>,
     #[serde(default)]
     #[schemars(with = "Option<[f64; 2]>")]
-    pub absolute: Option<Spanned<Vec<f64>>>,
+    pub absolute: Option<RawRange>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -282,7 +286,7 @@ pub struct RawActuator {
     #[schemars(with = "Scalar")]
     pub unit: SpannedStr,
     #[schemars(with = "[f64; 2]")]
-    pub limits: Spanned<Vec<f64>>,
+    pub limits: RawRange,
 }
 
 #[derive(Debug, Deserialize, JsonSchema)]
@@ -293,5 +297,5 @@ pub struct RawGuidance {
     #[schemars(with = "String")]
     pub gain: SpannedStr,
     #[schemars(with = "[f64; 2]")]
-    pub rate_limit: Spanned<Vec<f64>>,
+    pub rate_limit: RawRange,
 }

@@ -4,11 +4,13 @@
 use crate::bound::{ultimate_bound, BoundOutcome, BoundReport, BoundSettings};
 use crate::goal::{Compiled, Goal, Test};
 use crate::interval::Interval;
-use crate::problem::{exact, Problem, ProofForms, Variable};
+use crate::problem::{Problem, ProofForms, Variable};
 use crate::sample::{falsify, Sampled, Sequence};
 use crate::search::{search, Budget, Counter, Outcome, Report};
 use lawsmith_expr::Arith;
-use lawsmith_expr::{to_text, BigRational, CondKind, Dag, DagLimits, ExprId, Func, Node, Tape};
+use lawsmith_expr::{
+    to_text, BigRational, CondKind, Dag, DagLimits, Decimal, ExprId, Func, Node, Tape,
+};
 use lawsmith_spec::{derive, Claim, Spec};
 use std::collections::HashSet;
 use std::time::Instant;
@@ -398,7 +400,7 @@ fn claim_goal(problem: &mut Problem, forms: &ProofForms, claim: Claim) -> Goal {
             region: Some(forms.candidate),
         },
         Claim::Exponential(rate) => {
-            let two_rate = exact(rate) * BigRational::from_integer(2.into());
+            let two_rate = Decimal::from_f64(rate).exact() * BigRational::from_integer(2.into());
             let c = problem.dag.num(two_rate);
             let scaled = problem.dag.mul(vec![c, forms.candidate]);
             let sum = problem.dag.add(vec![forms.vdot, scaled]);

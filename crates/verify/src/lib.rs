@@ -59,6 +59,6 @@ pub use goal::{Compiled, Feasibility, Goal, Scratch, Test};
 pub use hessian::Method;
 pub use interval::{Interval, LIBM_ULPS};
 pub use margin::{margin, MarginPoint, MarginReport, MarginSettings};
-pub use problem::{error_name, exact as exact_decimal, Problem, ProofForms, Role, Variable};
+pub use problem::{error_name, Problem, ProofForms, Role, Variable};
 pub use sample::{falsify, generalized_golden_ratio, PointSet, Sampled, Sequence};
 pub use search::{search, Budget, Counter, Evidence, Outcome, Report, Tree};

@@ -9,7 +9,7 @@
 
 use crate::bound::{BoundOutcome, ErrorBound};
 use crate::check::{check, CheckError, Settings};
-use lawsmith_spec::{load, Claim, ErrorForm, SymbolKind};
+use lawsmith_spec::{load, Claim, Decl, ErrorForm, Range, SymbolKind};
 
 /// One point of the curve.
 #[derive(Clone, Debug)]
@@ -84,9 +84,12 @@ pub fn margin(
 ) -> Result<MarginReport, CheckError> {
     let spec = load(source)
         .map_err(|d| CheckError::new(format!("the spec does not load ({} problems)", d.len())))?;
-    let sym = spec
+    let (sym, form, declared) = spec
         .symbol(quantity)
-        .filter(|s| s.kind == SymbolKind::Uncertain)
+        .and_then(|s| match &s.decl {
+            Decl::Uncertain { form, error, .. } => Some((s, *form, error.nearest())),
+            _ => None,
+        })
         .ok_or_else(|| {
             let names: Vec<&str> = spec
                 .symbols_of(SymbolKind::Uncertain)
@@ -101,8 +104,6 @@ pub fn margin(
                 )
             })
         })?;
-    let declared = sym.range.unwrap_or((0.0, 0.0));
-    let form = sym.estimate.as_ref().map_or(ErrorForm::Absolute, |e| e.1);
     let unit = match form {
         ErrorForm::Relative => "1".to_string(),
         ErrorForm::Absolute => sym.unit.clone(),
@@ -134,7 +135,9 @@ pub fn margin(
     let point = |t: f64| -> Result<MarginPoint, CheckError> {
         let mut spec = load(source).map_err(|_| CheckError::new("the spec does not load"))?;
         for s in spec.symbols.iter_mut().filter(|s| s.name == quantity) {
-            s.range = Some((declared.0 * t, declared.1 * t));
+            if let Decl::Uncertain { error, .. } = &mut s.decl {
+                *error = Range::from_f64(declared.0 * t, declared.1 * t);
+            }
         }
         spec.claim = Claim::UltimateBound;
         spec.required_bounds = required.to_vec();

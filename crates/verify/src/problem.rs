@@ -8,8 +8,8 @@
 //! true drag, say) is its estimate times `1 + δ` (or plus `δ`), and `δ` is a coordinate. Parameters are replaced by their exact values (the
 //! f64 the generated code will hold, as an exact rational), so they cost no dimension.
 
-use lawsmith_expr::{parse_decimal, AssumeAll, BigRational, Condition, Dag, ExprId, Simplifier};
-use lawsmith_spec::{uncertainty_name, Derivation, ErrorForm, Spec, SymbolKind};
+use lawsmith_expr::{AssumeAll, Condition, Dag, Decimal, ExprId, Simplifier};
+use lawsmith_spec::{uncertainty_name, Decl, Derivation, ErrorForm, Spec, SymbolKind, Target};
 use std::collections::HashMap;
 
 /// What a proof coordinate stands for.
@@ -84,11 +84,11 @@ pub struct Problem {
     pub constraints: Vec<ProofConstraint>,
     /// Parameters and their values.
     pub parameters: Vec<(String, f64)>,
-    /// States: name, reference (or None), equilibrium value.
-    states: Vec<(String, Option<String>, f64)>,
+    /// States and what each tracks.
+    states: Vec<(String, Target)>,
     /// Uncertain quantities: name, estimate, form, and the error when its range is a point
     /// (for reporting true values).
-    uncertain: Vec<(String, String, ErrorForm, Option<f64>)>,
+    uncertain: Vec<(String, String, ErrorForm, Option<Decimal>)>,
     to_proof: HashMap<String, ExprId>,
 }
 
@@ -106,8 +106,11 @@ impl Problem {
         let mut to_proof = HashMap::new();
         let mut parameters = Vec::new();
         let mut states = Vec::new();
-        for s in spec.symbols_of(SymbolKind::State) {
-            let (lo, hi) = s.error.unwrap_or((0.0, 0.0));
+        for s in &spec.symbols {
+            let Decl::State { target, error } = &s.decl else {
+                continue;
+            };
+            let (lo, hi) = error.nearest();
             let name = error_name(&s.name);
             variables.push(Variable {
                 name: name.clone(),
@@ -118,20 +121,13 @@ impl Problem {
                 hi,
             });
             let delta = dag.sym(&name);
-            let base = match &s.reference {
-                Some(r) => dag.sym(r),
-                None => {
-                    let eq = s.equilibrium.unwrap_or(0.0);
-                    dag.num(exact(eq))
-                }
+            let base = match target {
+                Target::Reference(r) => dag.sym(r),
+                Target::Equilibrium(eq) => dag.num(eq.exact().clone()),
             };
             let value = dag.add(vec![base, delta]);
             to_proof.insert(s.name.clone(), value);
-            states.push((
-                s.name.clone(),
-                s.reference.clone(),
-                s.equilibrium.unwrap_or(0.0),
-            ));
+            states.push((s.name.clone(), target.clone()));
         }
         let mut uncertain = Vec::new();
         for (kind, role) in [
@@ -142,16 +138,19 @@ impl Problem {
             (SymbolKind::Gain, Role::Gain),
         ] {
             for s in spec.symbols_of(kind) {
-                let (lo, hi) = s.range.unwrap_or((0.0, 0.0));
-                let (name, unit) = match &s.estimate {
-                    Some((estimate, form)) => {
-                        let known = (lo == hi).then_some(lo);
-                        uncertain.push((s.name.clone(), estimate.clone(), *form, known));
+                let Some(range) = s.range() else {
+                    continue;
+                };
+                let (lo, hi) = range.nearest();
+                let (name, unit) = match &s.decl {
+                    Decl::Uncertain { estimate, form, .. } => {
+                        let known = range.is_point().then(|| range.lo.clone());
+                        uncertain.push((s.name.clone(), estimate.clone(), *form, known.clone()));
                         let name = uncertainty_name(&s.name);
-                        if lo == hi {
+                        if let Some(k) = known {
                             // a known error is a constant, not a coordinate: with zero error
                             // the problem is exactly the one without the uncertainty
-                            let c = dag.num(exact(lo));
+                            let c = dag.num(k.exact().clone());
                             to_proof.insert(name, c);
                             continue;
                         }
@@ -161,7 +160,7 @@ impl Problem {
                         };
                         (name, unit)
                     }
-                    None => (s.name.clone(), s.unit.clone()),
+                    _ => (s.name.clone(), s.unit.clone()),
                 };
                 variables.push(Variable {
                     name,
@@ -173,11 +172,12 @@ impl Problem {
                 });
             }
         }
-        for s in spec.symbols_of(SymbolKind::Parameter) {
-            let v = s.value.unwrap_or(0.0);
-            parameters.push((s.name.clone(), v));
-            let c = dag.num(exact(v));
-            to_proof.insert(s.name.clone(), c);
+        for s in &spec.symbols {
+            if let Decl::Parameter { value } = &s.decl {
+                parameters.push((s.name.clone(), value.value()));
+                let c = dag.num(value.exact().clone());
+                to_proof.insert(s.name.clone(), c);
+            }
         }
         let mut problem = Problem {
             dag,
@@ -285,8 +285,11 @@ impl Problem {
                 .expect("a reference is a coordinate")
         };
         let mut out = Vec::new();
-        for (s, reference, eq) in &self.states {
-            let base = reference.as_deref().map_or(*eq, value);
+        for (s, target) in &self.states {
+            let base = match target {
+                Target::Reference(r) => value(r),
+                Target::Equilibrium(eq) => eq.value(),
+            };
             out.push((s.clone(), base + value(&error_name(s))));
         }
         for (v, x) in self.variables.iter().zip(point) {
@@ -298,7 +301,7 @@ impl Problem {
         for (name, estimate, form, known) in &self.uncertain {
             let delta = match (self.index_of(&uncertainty_name(name)), known) {
                 (Some(d), _) => point[d],
-                (None, Some(c)) => *c,
+                (None, Some(c)) => c.value(),
                 (None, None) => continue,
             };
             let Some(e) = self.index_of(estimate) else {
@@ -318,21 +321,6 @@ impl Problem {
         (0..self.variables.len())
             .filter(|&i| self.variables[i].role == Role::Uncertainty)
             .collect()
-    }
-}
-
-/// The exact rational value of the shortest decimal that reads back as `x`: the number as the
-/// spec wrote it (`9.80665` is 196133/20000, not the binary double next to it). Both are within
-/// half an ulp of each other; the decimal is what the engineer declared and prints as such.
-pub fn exact(x: f64) -> BigRational {
-    let text = format!("{:e}", x.abs());
-    let v = parse_decimal(&text)
-        .or_else(|| BigRational::from_float(x.abs()))
-        .unwrap_or_else(|| BigRational::from_integer(0.into()));
-    if x < 0.0 {
-        -v
-    } else {
-        v
     }
 }
 

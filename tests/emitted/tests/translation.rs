@@ -391,12 +391,18 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
         let mut spec = spec;
         let d = lawsmith_spec::derive(&mut spec).unwrap();
         let mut params = std::collections::HashMap::new();
-        let values: Vec<(String, f64)> = spec
-            .symbols_of(lawsmith_spec::SymbolKind::Parameter)
-            .map(|s| (s.name.clone(), s.value.unwrap()))
+        let values: Vec<(String, lawsmith_expr::BigRational)> = spec
+            .symbols
+            .iter()
+            .filter_map(|s| match &s.decl {
+                lawsmith_spec::Decl::Parameter { value } => {
+                    Some((s.name.clone(), value.exact().clone()))
+                }
+                _ => None,
+            })
             .collect();
         for (n, v) in values {
-            let v = spec.dag.num(lawsmith_verify::exact_decimal(v));
+            let v = spec.dag.num(v);
             params.insert(n, v);
         }
         let roots: Vec<_> = d

@@ -5,12 +5,13 @@ mod dims;
 mod resolve;
 
 use crate::diag::Diagnostic;
+use crate::model::Range as Bounds;
 use crate::model::*;
 use crate::names::{identifier_problem, reserved_reason};
 use crate::schema::*;
 use crate::units::{parse_unit, Dim};
 use dims::second;
-use lawsmith_expr::{nearest, parse_with, Ast, Dag, ExprId, ParseSettings, Span};
+use lawsmith_expr::{nearest, parse_with, Ast, Dag, Decimal, ExprId, ParseSettings, Span};
 use resolve::Ctx;
 use serde_saphyr::Spanned;
 use std::collections::{HashMap, HashSet};
@@ -213,7 +214,8 @@ impl<'s> Loader<'s> {
         }
     }
 
-    fn pair(&mut self, r: &Spanned<Vec<f64>>, what: &str) -> Option<(f64, f64)> {
+    /// A `[min, max]` range, each end read as the decimal it was written as.
+    fn pair(&mut self, r: &RawRange, what: &str) -> Option<Bounds> {
         let span = range_of(self.src, r);
         if r.value.len() != 2 {
             self.err(
@@ -226,7 +228,7 @@ impl<'s> Loader<'s> {
             );
             return None;
         }
-        let (lo, hi) = (r.value[0], r.value[1]);
+        let (lo, hi) = (r.value[0].value, r.value[1].value);
         if !lo.is_finite() || !hi.is_finite() {
             self.err(Diagnostic::new(
                 "bad-range",
@@ -235,7 +237,8 @@ impl<'s> Loader<'s> {
             ));
             return None;
         }
-        if lo > hi {
+        let (dl, dh) = (self.literal(&r.value[0])?, self.literal(&r.value[1])?);
+        if dl.exact() > dh.exact() {
             self.err(
                 Diagnostic::new(
                     "range-order",
@@ -247,23 +250,38 @@ impl<'s> Loader<'s> {
             );
             return None;
         }
-        Some((lo, hi))
+        Some(Bounds::new(dl, dh))
     }
 
-    fn push_symbol(&mut self, name: &str, kind: SymbolKind, unit: &str, dim: Dim) -> usize {
+    /// The exact decimal a (finite) number was written as: its text in the file, read
+    /// exactly. An integer in another notation (`0x10`) is its f64, exact below 2^53.
+    fn literal(&mut self, n: &Spanned<f64>) -> Option<Decimal> {
+        let span = range_of(self.src, n);
+        let text = self.src.get(span.clone()).unwrap_or("");
+        match Decimal::parse(text) {
+            Some(d) if d.value() == n.value => return Some(d),
+            _ => {}
+        }
+        if n.value.fract() == 0.0 && n.value.abs() <= 9_007_199_254_740_992.0 {
+            return Some(Decimal::binary(n.value));
+        }
+        self.err(
+            Diagnostic::new(
+                "bad-number",
+                format!("`{text}` is not a decimal number lawsmith can read exactly"),
+                span,
+            )
+            .hint("write it with digits, a decimal point and an exponent, e.g. 1.5e-3"),
+        );
+        None
+    }
+
+    fn push_symbol(&mut self, name: &str, unit: &str, dim: Dim, decl: Decl) -> usize {
         self.symbols.push(Symbol {
             name: name.to_string(),
-            kind,
             unit: unit.to_string(),
             dim,
-            range: None,
-            value: None,
-            default: None,
-            reference: None,
-            equilibrium: None,
-            error: None,
-            rate: None,
-            estimate: None,
+            decl,
         });
         self.symbols.len() - 1
     }
@@ -297,16 +315,20 @@ impl<'s> Loader<'s> {
             let ok = self.declare(n, SymbolKind::Parameter);
             let dim = self.unit(&p.unit);
             if ok {
-                let i = self.push_symbol(&n.value, SymbolKind::Parameter, &p.unit.value, dim);
-                if !p.value.value.is_finite() {
+                let value = if p.value.value.is_finite() {
+                    self.literal(&p.value)
+                } else {
                     let span = range_of(self.src, &p.value);
                     self.err(Diagnostic::new(
                         "bad-number",
                         "parameter value must be finite",
                         span,
                     ));
-                }
-                self.symbols[i].value = Some(p.value.value);
+                    None
+                };
+                // a placeholder only where an error is already reported: the spec is refused
+                let value = value.unwrap_or_else(|| Decimal::from_f64(0.0));
+                self.push_symbol(&n.value, &p.unit.value, dim, Decl::Parameter { value });
             }
         }
         for (n, g) in &raw.gains.0 {
@@ -314,9 +336,17 @@ impl<'s> Loader<'s> {
             let dim = self.unit(&g.unit);
             let range = self.pair(&g.range, "gain range");
             if ok {
-                let i = self.push_symbol(&n.value, SymbolKind::Gain, &g.unit.value, dim);
-                self.symbols[i].range = range;
-                if let (Some(d), Some((lo, hi))) = (&g.default, range) {
+                let default = g.default.as_ref().map(|d| d.value);
+                self.push_symbol(
+                    &n.value,
+                    &g.unit.value,
+                    dim,
+                    Decl::Gain {
+                        range: range.clone().unwrap_or_else(placeholder),
+                        default,
+                    },
+                );
+                if let (Some(d), Some((lo, hi))) = (&g.default, range.map(|r| r.nearest())) {
                     if !(lo..=hi).contains(&d.value) {
                         let span = range_of(self.src, d);
                         self.err(
@@ -332,7 +362,6 @@ impl<'s> Loader<'s> {
                         );
                     }
                 }
-                self.symbols[i].default = g.default.as_ref().map(|d| d.value);
             }
         }
         for (n, r) in &raw.references.0 {
@@ -342,9 +371,15 @@ impl<'s> Loader<'s> {
             let rate_range = self.pair(&r.rate_range, "rate range");
             let rate_ok = self.declare(&r.rate, SymbolKind::Rate);
             if ok {
-                let i = self.push_symbol(&n.value, SymbolKind::Reference, &r.unit.value, dim);
-                self.symbols[i].range = range;
-                self.symbols[i].rate = Some(r.rate.value.clone());
+                self.push_symbol(
+                    &n.value,
+                    &r.unit.value,
+                    dim,
+                    Decl::Reference {
+                        range: range.unwrap_or_else(placeholder),
+                        rate: r.rate.value.clone(),
+                    },
+                );
             }
             if rate_ok {
                 let u = r.unit.value.trim();
@@ -355,8 +390,15 @@ impl<'s> Loader<'s> {
                     format!("({u})/s")
                 };
                 let rd = dim.div(&parse_unit("s").expect("s is a unit"));
-                let i = self.push_symbol(&r.rate.value, SymbolKind::Rate, &unit, rd);
-                self.symbols[i].range = rate_range;
+                self.push_symbol(
+                    &r.rate.value,
+                    &unit,
+                    rd,
+                    Decl::Rate {
+                        range: rate_range.unwrap_or_else(placeholder),
+                        reference: n.value.clone(),
+                    },
+                );
             }
         }
         let mut tracked: HashSet<String> = HashSet::new();
@@ -364,8 +406,12 @@ impl<'s> Loader<'s> {
             let ok = self.declare(n, SymbolKind::State);
             let dim = self.unit(&s.unit);
             let mut error = self.pair(&s.error, "error box");
-            if let Some((lo, hi)) = error {
-                if !(lo < 0.0 && 0.0 < hi) {
+            if let Some((lo, hi)) = error.as_ref().map(Bounds::nearest) {
+                let zero = lawsmith_expr::BigRational::default();
+                let inside = error
+                    .as_ref()
+                    .is_some_and(|e| e.lo.exact() < &zero && &zero < e.hi.exact());
+                if !inside {
                     self.err(
                         Diagnostic::new(
                             "empty-error-box",
@@ -393,7 +439,6 @@ impl<'s> Loader<'s> {
                     .hint("keep one: `reference:` for a tracked state, `equilibrium:` for a regulated one"),
                 );
             }
-            let mut range = None;
             if let Some(r) = &s.reference {
                 let span = self.name_span(r);
                 match raw.references.0.iter().find(|(k, _)| k.value == r.value) {
@@ -435,36 +480,35 @@ impl<'s> Loader<'s> {
                                 .label("unit differs"),
                             );
                         }
-                        if let (Some((lo, hi)), Some((el, eh))) =
-                            (rr.range.value.first().zip(rr.range.value.get(1)), error)
-                        {
-                            range = Some((lo + el, hi + eh));
-                        }
                     }
                 }
             }
             if ok {
-                let i = self.push_symbol(&n.value, SymbolKind::State, &s.unit.value, dim);
-                let sym = &mut self.symbols[i];
-                sym.error = error;
-                sym.reference = s.reference.as_ref().map(|r| r.value.clone());
-                if sym.reference.is_none() {
-                    let eq = s.equilibrium.as_ref().map_or(0.0, |e| e.value);
-                    if !eq.is_finite() {
-                        let span = s
-                            .equilibrium
-                            .as_ref()
-                            .map_or(0..0, |e| range_of(self.src, e));
+                let target = match (&s.reference, &s.equilibrium) {
+                    (Some(r), _) => Target::Reference(r.value.clone()),
+                    (None, None) => Target::Equilibrium(Decimal::from_f64(0.0)),
+                    (None, Some(e)) if e.value.is_finite() => Target::Equilibrium(
+                        self.literal(e).unwrap_or_else(|| Decimal::from_f64(0.0)),
+                    ),
+                    (None, Some(e)) => {
+                        let span = range_of(self.src, e);
                         self.diags.push(Diagnostic::new(
                             "bad-number",
                             "the equilibrium must be finite",
                             span,
                         ));
+                        Target::Equilibrium(Decimal::from_f64(0.0))
                     }
-                    sym.equilibrium = Some(eq);
-                    range = error.map(|(lo, hi)| (eq + lo, eq + hi));
-                }
-                sym.range = range;
+                };
+                self.push_symbol(
+                    &n.value,
+                    &s.unit.value,
+                    dim,
+                    Decl::State {
+                        target,
+                        error: error.unwrap_or_else(placeholder),
+                    },
+                );
             }
         }
         for (n, _) in &raw.references.0 {
@@ -486,15 +530,21 @@ impl<'s> Loader<'s> {
             let dim = self.unit(&s.unit);
             let range = self.pair(&s.range, "signal range");
             if ok {
-                let i = self.push_symbol(&n.value, SymbolKind::Signal, &s.unit.value, dim);
-                self.symbols[i].range = range;
+                self.push_symbol(
+                    &n.value,
+                    &s.unit.value,
+                    dim,
+                    Decl::Signal {
+                        range: range.unwrap_or_else(placeholder),
+                    },
+                );
             }
         }
         for (n, s) in &raw.inputs.0 {
             let ok = self.declare(n, SymbolKind::Input);
             let dim = self.unit(&s.unit);
             if ok {
-                self.push_symbol(&n.value, SymbolKind::Input, &s.unit.value, dim);
+                self.push_symbol(&n.value, &s.unit.value, dim, Decl::Input);
                 self.inputs.push(n.value.clone());
             }
         }
@@ -545,7 +595,7 @@ impl<'s> Loader<'s> {
                     .iter()
                     .find(|s| s.name == n.value)
                     .map_or(String::from("1"), |s| s.unit.clone());
-                self.push_symbol(&g.command.value, SymbolKind::Command, &unit, dim);
+                self.push_symbol(&g.command.value, &unit, dim, Decl::Command);
             }
             if self.decl.get(&g.gain.value).map(|d| d.0) != Some(SymbolKind::Gain) {
                 let span = self.name_span(&g.gain);
@@ -562,7 +612,7 @@ impl<'s> Loader<'s> {
                     reference: n.value.clone(),
                     command: g.command.value.clone(),
                     gain: g.gain.value.clone(),
-                    rate_limit: rl,
+                    rate_limit: rl.nearest(),
                 });
             }
         }
@@ -748,7 +798,7 @@ impl<'s> Loader<'s> {
                     name: name.clone(),
                     law: id,
                     unit: unit.clone(),
-                    limits: *l,
+                    limits: l.nearest(),
                 });
             }
         }
@@ -909,7 +959,7 @@ impl<'s> Loader<'s> {
             .symbols
             .iter()
             .find(|s| s.name == u.estimate.value)
-            .map(|s| (s.kind, s.unit.clone(), s.dim));
+            .map(|s| (s.kind(), s.unit.clone(), s.dim));
         let (unit, dim) = match estimate {
             Some((SymbolKind::Signal | SymbolKind::Input, unit, dim)) => (unit, dim),
             Some((k, _, _)) => {
@@ -959,10 +1009,12 @@ impl<'s> Loader<'s> {
                 return;
             }
         };
-        let Some((lo, hi)) = self.pair(raw_range, "error range") else {
+        let Some(error) = self.pair(raw_range, "error range") else {
             return;
         };
-        if form == ErrorForm::Relative && lo <= -1.0 {
+        let minus_one = -lawsmith_expr::BigRational::from_integer(1.into());
+        if form == ErrorForm::Relative && error.lo.exact() <= &minus_one {
+            let lo = error.lo.value();
             let span = range_of(self.src, raw_range);
             self.err(
                 Diagnostic::new(
@@ -977,9 +1029,13 @@ impl<'s> Loader<'s> {
             return;
         }
         if ok {
-            let i = self.push_symbol(&n.value, SymbolKind::Uncertain, &unit, dim);
-            self.symbols[i].range = Some((lo, hi));
-            self.symbols[i].estimate = Some((u.estimate.value.clone(), form));
+            let estimate = u.estimate.value.clone();
+            let decl = Decl::Uncertain {
+                estimate,
+                form,
+                error,
+            };
+            self.push_symbol(&n.value, &unit, dim, decl);
         }
     }
 
@@ -1058,7 +1114,7 @@ impl<'s> Loader<'s> {
     fn names_of(&self, kind: SymbolKind) -> Vec<String> {
         self.symbols
             .iter()
-            .filter(|s| s.kind == kind)
+            .filter(|s| s.kind() == kind)
             .map(|s| s.name.clone())
             .collect()
     }
@@ -1118,7 +1174,7 @@ impl<'s> Loader<'s> {
         let gains: Vec<&Symbol> = self
             .symbols
             .iter()
-            .filter(|s| s.kind == SymbolKind::Gain)
+            .filter(|s| s.kind() == SymbolKind::Gain)
             .collect();
         // 9 points per gain, capped at ~60,000 points overall
         let per = match gains.len() {
@@ -1134,12 +1190,17 @@ impl<'s> Loader<'s> {
         let mut env: HashMap<String, f64> = self
             .symbols
             .iter()
-            .filter_map(|s| Some((s.name.clone(), s.value?)))
+            .filter_map(|s| match &s.decl {
+                Decl::Parameter { value } => Some((s.name.clone(), value.value())),
+                _ => None,
+            })
             .collect();
         for k in 0..total {
             let mut idx = k;
             for g in &gains {
-                let (lo, hi) = g.range.unwrap_or((0.0, 0.0));
+                let Some((lo, hi)) = g.range().map(Bounds::nearest) else {
+                    continue;
+                };
                 let t = (idx % per) as f64 / (per - 1) as f64;
                 idx /= per;
                 env.insert(g.name.clone(), lo + t * (hi - lo));
@@ -1171,6 +1232,12 @@ impl<'s> Loader<'s> {
             .hint("widen the gain ranges or relax the constraints"),
         );
     }
+}
+
+/// The range held by a symbol whose declared range was refused (the diagnostic is already
+/// recorded, so the spec is never returned with it).
+fn placeholder() -> Bounds {
+    Bounds::from_f64(0.0, 0.0)
 }
 
 fn unknown(

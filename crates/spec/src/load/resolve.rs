@@ -2,23 +2,9 @@
 
 use super::Loader;
 use crate::diag::Diagnostic;
-use crate::model::SymbolKind;
-use lawsmith_expr::{
-    derivative, lower, parse_decimal, Ast, Dag, ExprId, LowerError, Resolver, Span,
-};
+use crate::model::{Decl, SymbolKind, Target};
+use lawsmith_expr::{derivative, lower, Ast, Dag, ExprId, LowerError, Resolver, Span};
 use std::collections::HashMap;
-
-fn exact(v: f64) -> lawsmith_expr::BigRational {
-    // Rust prints the shortest decimal that round-trips, so `9.80665` comes back exactly as
-    // written in the YAML.
-    let text = format!("{}", v.abs());
-    let r = parse_decimal(&text).unwrap_or_default();
-    if v < 0.0 {
-        -r
-    } else {
-        r
-    }
-}
 
 impl Loader<'_> {
     pub(super) fn lower_in(&mut self, dag: &mut Dag, ast: &Ast, ctx: &Ctx) -> Option<ExprId> {
@@ -101,8 +87,7 @@ impl Resolver for SpecResolver<'_, '_, '_> {
                 hint: None,
             });
         };
-        if sym.kind == SymbolKind::Uncertain && !self.ctx.plant {
-            let estimate = sym.estimate.as_ref().map_or("", |e| e.0.as_str());
+        if let (Decl::Uncertain { estimate, .. }, false) = (&sym.decl, self.ctx.plant) {
             return Err(LowerError {
                 class: "uncertain-in-law",
                 message: format!(
@@ -112,7 +97,7 @@ impl Resolver for SpecResolver<'_, '_, '_> {
                 hint: Some(format!("use its estimate `{estimate}`")),
             });
         }
-        if sym.kind == SymbolKind::Input {
+        if sym.kind() == SymbolKind::Input {
             // positions in the order of `laws:`, which is the evaluation order
             let idx = self.loader.law_order.iter().position(|i| i == name);
             if let (Some(idx), Some(li)) = (idx, self.ctx.law_index) {
@@ -162,13 +147,12 @@ impl SpecResolver<'_, '_, '_> {
     fn reference_of(&mut self, dag: &mut Dag, e: ExprId) -> ExprId {
         let mut map = HashMap::new();
         for s in &self.loader.symbols {
-            if s.kind != SymbolKind::State {
+            let Decl::State { target, .. } = &s.decl else {
                 continue;
-            }
-            let target = match (&s.reference, s.equilibrium) {
-                (Some(r), _) => dag.sym(r),
-                (None, Some(eq)) => dag.num(exact(eq)),
-                (None, None) => dag.int(0),
+            };
+            let target = match target {
+                Target::Reference(r) => dag.sym(r),
+                Target::Equilibrium(eq) => dag.num(eq.exact().clone()),
             };
             map.insert(s.name.clone(), target);
         }
@@ -188,7 +172,13 @@ impl SpecResolver<'_, '_, '_> {
                 .symbols
                 .iter()
                 .find(|s| s.name == name)
-                .map(|s| (s.kind, s.rate.clone()));
+                .map(|s| {
+                    let rate = match &s.decl {
+                        Decl::Reference { rate, .. } => Some(rate.clone()),
+                        _ => None,
+                    };
+                    (s.kind(), rate)
+                });
             let rate = match kind {
                 Some((SymbolKind::Parameter | SymbolKind::Gain, _)) => continue,
                 Some((SymbolKind::Reference, Some(rate))) => dag.sym(&rate),
