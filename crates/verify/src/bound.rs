@@ -288,6 +288,9 @@ fn sampled_refutation(
         let p = goal
             .worst_vertex(&x, root, &mut s)
             .unwrap_or_else(|| x.clone());
+        let Some(p) = goal.declared_point(&p) else {
+            continue;
+        };
         let vdot = goal.value(&p, &mut s);
         // NaN counts as no counterexample
         if vdot.is_nan() || vdot < 0.0 || !goal.feasible_f64(&p, &mut s) {

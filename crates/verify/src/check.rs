@@ -326,11 +326,7 @@ fn condition_goal(problem: &mut Problem, c: &Cond) -> (Goal, Vec<Cond>) {
 /// A full point of the domain: `dims` from `point`, every other coordinate from the first
 /// low-discrepancy point of the domain that meets every constraint (midpoints if none does).
 fn complete(problem: &Problem, all: &FullTapes, dims: &[usize], point: &[f64]) -> Vec<f64> {
-    let root: Vec<Interval> = problem
-        .variables
-        .iter()
-        .map(|v| Interval::new(v.lo, v.hi))
-        .collect();
+    let root = problem.declared_box();
     let fill = |mut x: Vec<f64>| {
         for (k, &d) in dims.iter().enumerate() {
             x[d] = point[k];
@@ -774,11 +770,7 @@ fn saturation(prepared: &Prepared, spec: &Spec, samples: usize) -> Vec<Saturatio
     let (problem, forms, full) = (&prepared.problem, &prepared.forms, &prepared.full);
     let names: Vec<String> = problem.variables.iter().map(|v| v.name.clone()).collect();
     let refs: Vec<&str> = names.iter().map(String::as_str).collect();
-    let root: Vec<Interval> = problem
-        .variables
-        .iter()
-        .map(|v| Interval::new(v.lo, v.hi))
-        .collect();
+    let root = problem.declared_box();
     let mut out = Vec::new();
     for (a, (name, e)) in spec.actuators.iter().zip(&forms.actuators) {
         let Ok(tape) = Tape::compile(&problem.dag, &[*e], &refs) else {

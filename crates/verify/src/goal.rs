@@ -117,6 +117,10 @@ pub struct Compiled {
     /// With a region: the goal is asked only where the region's expression is at least this
     /// level (no restriction while it is 0 or below).
     pub level: f64,
+    /// The f64 points inside each coordinate's declared range (None when some declared range
+    /// holds none): a counterexample must lie there, while the box searched is the larger
+    /// outward-rounded one.
+    inner: Option<Vec<(f64, f64)>>,
     value: Tape,
     grad: Tape,
     hessian: Option<Tape>,
@@ -297,9 +301,11 @@ impl Compiled {
             }
             None => None,
         };
+        let inner = dims.iter().map(|&d| problem.variables[d].inner()).collect();
         Ok(Compiled {
             text: to_text(&problem.dag, f),
             level: 0.0,
+            inner,
             region,
             goal,
             dims,
@@ -538,6 +544,23 @@ impl Compiled {
         } else {
             Feasibility::Some
         }
+    }
+
+    /// The point with each coordinate clamped into its declared range: the nearest point a
+    /// counterexample may be (None when a declared range holds no f64).
+    pub fn declared_point(&self, p: &[f64]) -> Option<Vec<f64>> {
+        let inner = self.inner.as_ref()?;
+        Some(
+            p.iter()
+                .zip(inner)
+                .map(|(&x, &(lo, hi))| x.clamp(lo, hi))
+                .collect(),
+        )
+    }
+
+    /// True when every coordinate of the point lies in its declared range.
+    pub fn is_declared(&self, p: &[f64]) -> bool {
+        self.declared_point(p).is_some_and(|q| q == p)
     }
 
     /// True when the goal is restricted to a region (a positive level is set).

@@ -5,11 +5,16 @@
 //! reference, so the state `h` tracking `h_r` becomes `h_r + Δh` with `Δh` in the error box.
 //! The box is then a plain product of intervals (errors, references, rates, signals, estimate
 //! errors, gains), which is what branch and bound splits. An uncertain quantity (the plant's
-//! true drag, say) is its estimate times `1 + δ` (or plus `δ`), and `δ` is a coordinate. Parameters are replaced by their exact values (the
-//! f64 the generated code will hold, as an exact rational), so they cost no dimension.
+//! true drag, say) is its estimate times `1 + δ` (or plus `δ`), and `δ` is a coordinate.
+//! Parameters are replaced by the exact decimals the spec wrote, so they cost no dimension.
+//! Each coordinate's box is its declared range rounded outward to f64, so it holds every
+//! point the spec declares; a counterexample is reported only inside the declared range.
 
+use crate::interval::Interval;
 use lawsmith_expr::{AssumeAll, Condition, Dag, Decimal, ExprId, Simplifier};
-use lawsmith_spec::{uncertainty_name, Decl, Derivation, ErrorForm, Spec, SymbolKind, Target};
+use lawsmith_spec::{
+    uncertainty_name, Decl, Derivation, ErrorForm, Range, Spec, SymbolKind, Target,
+};
 use std::collections::HashMap;
 
 /// What a proof coordinate stands for.
@@ -55,10 +60,36 @@ pub struct Variable {
     pub role: Role,
     /// Unit as written in the spec.
     pub unit: String,
-    /// Lower end of its range.
+    /// The range the spec declared (its ends as the decimals written).
+    pub declared: Range,
+    /// Lower end of the proof box: the largest f64 at or below the declared lower end.
     pub lo: f64,
-    /// Upper end of its range.
+    /// Upper end of the proof box: the smallest f64 at or above the declared upper end.
     pub hi: f64,
+}
+
+impl Variable {
+    fn new(name: String, symbol: &str, role: Role, unit: String, declared: &Range) -> Variable {
+        // rounded outward, so the box a proof covers always holds what the spec says (0.05
+        // as an f64 is above 1/20: its nearest double would leave the corner 1/20 out)
+        let (lo, hi) = declared.outward();
+        Variable {
+            name,
+            symbol: symbol.to_string(),
+            role,
+            unit,
+            declared: declared.clone(),
+            lo,
+            hi,
+        }
+    }
+
+    /// The f64 points inside the declared range, `[lo, hi]` rounded inward: where a
+    /// counterexample must lie to be one (None when no f64 is inside, e.g. `[0.1, 0.1]`).
+    pub fn inner(&self) -> Option<(f64, f64)> {
+        let (lo, hi) = self.declared.inward();
+        (lo <= hi).then_some((lo, hi))
+    }
 }
 
 /// A gain constraint in proof coordinates: `g < 0` (strict) or `g ≤ 0`.
@@ -110,16 +141,14 @@ impl Problem {
             let Decl::State { target, error } = &s.decl else {
                 continue;
             };
-            let (lo, hi) = error.nearest();
             let name = error_name(&s.name);
-            variables.push(Variable {
-                name: name.clone(),
-                symbol: s.name.clone(),
-                role: Role::Error,
-                unit: s.unit.clone(),
-                lo,
-                hi,
-            });
+            variables.push(Variable::new(
+                name.clone(),
+                &s.name,
+                Role::Error,
+                s.unit.clone(),
+                error,
+            ));
             let delta = dag.sym(&name);
             let base = match target {
                 Target::Reference(r) => dag.sym(r),
@@ -141,7 +170,6 @@ impl Problem {
                 let Some(range) = s.range() else {
                     continue;
                 };
-                let (lo, hi) = range.nearest();
                 let (name, unit) = match &s.decl {
                     Decl::Uncertain { estimate, form, .. } => {
                         let known = range.is_point().then(|| range.lo.clone());
@@ -162,14 +190,7 @@ impl Problem {
                     }
                     _ => (s.name.clone(), s.unit.clone()),
                 };
-                variables.push(Variable {
-                    name,
-                    symbol: s.name.clone(),
-                    role,
-                    unit,
-                    lo,
-                    hi,
-                });
+                variables.push(Variable::new(name, &s.name, role, unit, range));
             }
         }
         for s in &spec.symbols {
@@ -237,6 +258,20 @@ impl Problem {
         }
         out.sort_unstable();
         Ok(out)
+    }
+
+    /// The declared ranges as f64 intervals rounded inward (a range holding no f64 as its
+    /// nearest point): where sample statistics and displayed points are taken.
+    pub fn declared_box(&self) -> Vec<Interval> {
+        self.variables
+            .iter()
+            .map(|v| {
+                let (lo, hi) = v
+                    .inner()
+                    .unwrap_or((v.declared.lo.value(), v.declared.lo.value()));
+                Interval::new(lo, hi)
+            })
+            .collect()
     }
 
     /// Indices of the error coordinates.

@@ -121,8 +121,8 @@ pub fn text(r: &CheckReport, path: &str, timings: bool) -> String {
             v.name,
             " ".repeat(pad),
             v.role.name(),
-            sig(v.lo),
-            sig(v.hi),
+            sig(v.declared.lo.value()),
+            sig(v.declared.hi.value()),
             v.unit
         );
     }

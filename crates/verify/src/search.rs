@@ -350,8 +350,10 @@ pub fn candidates(goal: &Compiled, bx: &[Interval]) -> Vec<Vec<f64>> {
     out
 }
 
-/// Confirms a point as a counterexample: constraints provably met, `f` provably failing.
+/// Confirms a point, moved into the declared ranges, as a counterexample: constraints
+/// provably met, `f` provably failing.
 pub fn confirm(goal: &Compiled, p: &[f64], s: &mut Scratch) -> Option<Counter> {
+    let p = &goal.declared_point(p)?[..];
     if goal.at_origin(p) {
         return None;
     }
@@ -368,9 +370,10 @@ pub fn confirm(goal: &Compiled, p: &[f64], s: &mut Scratch) -> Option<Counter> {
     })
 }
 
-/// The sign of `f` at a feasible point, when an enclosure proves it (+1, −1), else 0.
+/// The sign of `f` at a feasible point of the declared ranges, when an enclosure proves it
+/// (+1, −1), else 0.
 pub fn proved_sign(goal: &Compiled, p: &[f64], s: &mut Scratch) -> i32 {
-    if !goal.feasible_point(p, s) {
+    if !goal.is_declared(p) || !goal.feasible_point(p, s) {
         return 0;
     }
     let e = goal.at_point(p, s);
@@ -389,6 +392,10 @@ pub fn proved_sign(goal: &Compiled, p: &[f64], s: &mut Scratch) -> i32 {
 /// to a few ulps, keeping ends of proved opposite signs and feasible: a sign change of a
 /// continuous function, located.
 pub fn bracket_zero(goal: &Compiled, pos: &[f64], neg: &[f64], s: &mut Scratch) -> Option<Counter> {
+    let (pos, neg) = (
+        &goal.declared_point(pos)?[..],
+        &goal.declared_point(neg)?[..],
+    );
     if proved_sign(goal, pos, s) != 1 || proved_sign(goal, neg, s) != -1 {
         return None;
     }
@@ -423,7 +430,7 @@ pub fn reconfirm(goal: &Compiled, cx: &Counter, s: &mut Scratch) -> bool {
                 && proved_sign(goal, a, s) == 1
                 && proved_sign(goal, b, s) == -1
         }
-        None => confirm(goal, &cx.point, s).is_some(),
+        None => goal.is_declared(&cx.point) && confirm(goal, &cx.point, s).is_some(),
     }
 }
 

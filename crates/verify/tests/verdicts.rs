@@ -85,6 +85,47 @@ fn every_check_case_gets_its_expected_verdict_and_a_certificate_that_rechecks() 
 }
 
 #[test]
+fn every_proof_box_holds_the_declared_range() {
+    // each end rounded outward from the decimal written (0.05 is above 1/20 as a double, so
+    // its nearest double alone would leave 1/20 out; IEEE 754 binary64, common practice)
+    let dirs = [
+        "specs",
+        "tests/data/check",
+        "tests/data/bound",
+        "tests/data/ok",
+    ];
+    let mut widened = 0;
+    for dir in dirs {
+        for entry in std::fs::read_dir(root().join(dir)).unwrap() {
+            let path = entry.unwrap().path();
+            if path.extension().is_none_or(|e| e != "yaml") {
+                continue;
+            }
+            let text = std::fs::read_to_string(&path).unwrap();
+            let mut spec = lawsmith_spec::load(&text).unwrap();
+            let p = prepare(&mut spec).unwrap();
+            for v in &p.problem.variables {
+                let exact = |x: f64| lawsmith_expr::BigRational::from_float(x).unwrap();
+                let (lo, hi) = (v.declared.lo.exact(), v.declared.hi.exact());
+                assert!(
+                    &exact(v.lo) <= lo && &exact(v.hi) >= hi,
+                    "{}: {}",
+                    path.display(),
+                    v.name
+                );
+                // and not wider than it must be: the next double inward is inside the range
+                assert!(&exact(v.lo.next_up()) > lo && &exact(v.hi.next_down()) < hi);
+                widened += usize::from(&exact(v.lo) != lo) + usize::from(&exact(v.hi) != hi);
+            }
+        }
+    }
+    assert!(
+        widened > 0,
+        "some declared end (0.05, 0.2, ...) is not a double"
+    );
+}
+
+#[test]
 fn the_semidefinite_example_fails_as_definite_on_the_plane_of_zero_rate() {
     // V̇ = −k_d·ω² vanishes wherever ω = 0: the counterexample must have Δω = 0, Δφ ≠ 0 and
     // V̇ = 0 exactly (enclosure [0, 0])
