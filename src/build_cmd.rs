@@ -1,6 +1,7 @@
 //! `lawsmith build`: the main job on every example spec: prove, generate `generated/`, fly
 //! the example scenarios into `report/` with a `report/index.md`, print a summary table.
 
+use crate::certcheck_run;
 use crate::emit_cmd::{emit_one, generated_dir, specs_in, status_of, write_files};
 use crate::progress::Progress;
 use crate::sim_cmd::{bound_table, fly_all, load_setup, write_run};
@@ -12,6 +13,9 @@ use serde_json::{json, Value};
 use std::collections::HashMap;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
+
+/// Exit code when the independent checker rejects a certificate: as for an unproven law.
+const EXIT_REJECTED: u8 = 1;
 
 /// Dispersed runs of each scenario whose spec claims an ultimate bound, and their seed.
 pub const BOUND_RUNS: usize = 1000;
@@ -34,7 +38,7 @@ pub fn build_cmd(
     let mut rows = Vec::new();
     let mut json_specs: Vec<Value> = Vec::new();
     let mut notes: Vec<String> = Vec::new();
-    let mut md = String::from("# lawsmith report\n\nWritten by `lawsmith build`. The airframe and the scenarios are the invented demo\nairframe and scenarios of lawsmith's examples, not a real aircraft.\n\n## Specs\n\n| spec | claim | verdict | boxes | worst sampled margin | ops/step | saturation (share of sampled envelope) |\n|---|---|---|---:|---:|---:|---|\n");
+    let mut md = String::from("# lawsmith report\n\nWritten by `lawsmith build`. The airframe and the scenarios are the invented demo\nairframe and scenarios of lawsmith's examples, not a real aircraft.\n\n## Specs\n\n| spec | claim | verdict | boxes | worst sampled margin | ops/step | saturation (share of sampled envelope) | independent checker |\n|---|---|---|---:|---:|---:|---|---|\n");
     let mut code = 0u8;
     // proved ultimate bounds, by spec file, for the scenarios' cross-checks
     let mut bounds: HashMap<PathBuf, BoundReport> = HashMap::new();
@@ -49,7 +53,7 @@ pub fn build_cmd(
             Err(c) => {
                 code = code.max(c);
                 json_specs.push(json!({ "spec": name, "status": status_of(c) }));
-                let _ = writeln!(md, "| {name} | - | not emitted | - | - | - | - |");
+                let _ = writeln!(md, "| {name} | - | not emitted | - | - | - | - | - |");
                 rows.push(vec![
                     name,
                     "-".into(),
@@ -60,6 +64,21 @@ pub fn build_cmd(
                 ]);
             }
             Ok(e) => {
+                // the proof certificate, re-checked by the independent checker (tools/certcheck)
+                let checked = certcheck_run::run(&e.certificate, spec);
+                match &checked {
+                    certcheck_run::Outcome::Rejected(why) => {
+                        eprintln!("error[certcheck]: {}: the independent checker rejects the certificate: {why}", spec.display());
+                        code = code.max(EXIT_REJECTED);
+                    }
+                    certcheck_run::Outcome::NotRun(why) => {
+                        eprintln!(
+                            "warning: {}: the independent checker did not run: {why}",
+                            spec.display()
+                        );
+                    }
+                    certcheck_run::Outcome::Accepted(_) => {}
+                }
                 // written only once every spec is proved and generated, so an interrupted
                 // build leaves the previous generated/ as it was
                 let dir = generated_dir(generated, spec);
@@ -78,6 +97,7 @@ pub fn build_cmd(
                     "saturation": e.report.saturation.iter().map(|a| json!({
                         "actuator": a.actuator, "share": a.share,
                     })).collect::<Vec<_>>(),
+                    "independent_check": {"status": checked.name(), "detail": checked.detail()},
                 }));
                 pending.push((dir, e.files.clone()));
                 let sat: Vec<String> = e
@@ -99,7 +119,7 @@ pub fn build_cmd(
                 }
                 let _ = writeln!(
                     md,
-                    "| {name} | {} | {} | {} | {} | {} | {} |",
+                    "| {name} | {} | {} | {} | {} | {} | {} | {}: {} |",
                     e.report.claim.name(),
                     e.report.verdict.name(),
                     e.report.boxes,
@@ -107,7 +127,9 @@ pub fn build_cmd(
                         .min_margin
                         .map_or("-".into(), |m| format!("{m:.4e}")),
                     e.controller.op_count(),
-                    sat.join(", ")
+                    sat.join(", "),
+                    checked.name(),
+                    checked.detail().trim_start_matches("accepted: ")
                 );
                 rows.push(vec![
                     name,

@@ -77,14 +77,19 @@ impl Limits {
     }
 
     fn json(&self) -> Value {
-        json!({
-            "samples": self.samples, "max_boxes": self.max_boxes,
-            "time_limit_s": self.time_limit, "max_queue": self.max_queue,
-            "level_tolerance": self.level_tolerance,
-            "max_nodes": self.expr.max_nodes,
-            "max_term_products": self.expr.max_term_products,
-        })
+        settings_json(&self.settings())
     }
+}
+
+/// The settings of a check as a certificate records them.
+pub fn settings_json(s: &Settings) -> Value {
+    json!({
+        "samples": s.samples, "max_boxes": s.budget.max_boxes,
+        "time_limit_s": s.budget.time_limit.as_secs_f64(), "max_queue": s.budget.max_queue,
+        "level_tolerance": s.bound.level_tolerance,
+        "max_nodes": s.dag.max_nodes,
+        "max_term_products": s.dag.max_term_products,
+    })
 }
 
 fn exit_of(v: Verdict) -> u8 {

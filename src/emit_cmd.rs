@@ -16,6 +16,8 @@ const EXIT_REFUSED: u8 = 1;
 /// A spec proved and generated in memory.
 pub struct Emitted {
     pub report: CheckReport,
+    /// The proof certificate (JSON text), as `check --certificate` writes it.
+    pub certificate: String,
     pub controller: Controller,
     pub files: Vec<(String, String)>,
 }
@@ -48,10 +50,17 @@ pub fn emit_one(
         progress.boxes(l, b, o)
     });
     progress.finish();
-    let (report, _) = r.map_err(|e| {
+    let (report, prepared) = r.map_err(|e| {
         crate::print_check_error(path, &loaded.bytes, &e);
         EXIT_INVALID
     })?;
+    let origin = lawsmith_verify::Origin {
+        file: &display_path(path),
+        sha256: sha256_hex(&loaded.bytes),
+        tool_version: env!("CARGO_PKG_VERSION"),
+        settings: crate::check_cmd::settings_json(settings),
+    };
+    let certificate = lawsmith_verify::certificate(&report, &prepared, &origin).to_string() + "\n";
     if report.verdict != Verdict::Proven && !allow_unproven {
         eprintln!(
             "error[unproven]: {}: the claim is {}; no code is emitted for an unproven law (run `lawsmith check {}` for the report, or pass --allow-unproven to emit it marked as unproven)",
@@ -78,6 +87,7 @@ pub fn emit_one(
     })?;
     Ok(Emitted {
         report,
+        certificate,
         controller,
         files,
     })

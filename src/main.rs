@@ -2,6 +2,7 @@
 //! crates, prints, and maps outcomes to exit codes. No derivation or proof logic lives here.
 
 mod build_cmd;
+mod certcheck_run;
 mod check_cmd;
 mod derive_cmd;
 mod emit_cmd;

@@ -20,8 +20,17 @@ use rayon::prelude::*;
 use serde_json::{json, Map, Value};
 use sha2::{Digest, Sha256};
 
-/// The certificate format's version; bumped on any incompatible change.
-pub const CERTIFICATE_VERSION: u64 = 1;
+/// The certificate format's version; bumped on any incompatible change. Version 2 added what
+/// an independent checker needs beside the spec: each coordinate's declared range as exact
+/// decimals, the parameters' exact values, the region (V) of an ultimate bound's claim and
+/// the candidate its sublevel proofs bound.
+pub const CERTIFICATE_VERSION: u64 = 2;
+
+/// An exact rational as text: its terminating decimal, or `p/q`.
+fn exact_text(v: &lawsmith_expr::BigRational) -> String {
+    lawsmith_expr::as_terminating_decimal(v)
+        .unwrap_or_else(|| format!("{}/{}", v.numer(), v.denom()))
+}
 
 /// Lower-case hex SHA-256 of bytes.
 pub fn sha256_hex(bytes: &[u8]) -> String {
@@ -138,6 +147,7 @@ fn bound_json(b: &BoundReport, prepared: &Prepared) -> (Value, usize) {
         })
         .collect();
     let v = json!({
+        "candidate": sub.map(|g| json!({"expr": g.text, "dims": g.names})),
         "level": num(b.level),
         "refuted_level": b.refuted_level.map(num),
         "attraction": num(b.attraction),
@@ -175,6 +185,7 @@ pub fn certificate(report: &CheckReport, prepared: &Prepared, origin: &Origin) -
             json!({
                 "name": v.name, "symbol": v.symbol, "role": v.role.name(), "unit": v.unit,
                 "range": [num(v.lo), num(v.hi)],
+                "declared": [exact_text(v.declared.lo.exact()), exact_text(v.declared.hi.exact())],
             })
         })
         .collect();
@@ -189,6 +200,9 @@ pub fn certificate(report: &CheckReport, prepared: &Prepared, origin: &Origin) -
         o.insert("expr".into(), json!(c.text));
         o.insert("test".into(), test_json(&c.goal.test));
         o.insert("origin_exempt".into(), json!(c.goal.origin));
+        if let Some(r) = &c.region_text {
+            o.insert("region".into(), json!(r));
+        }
         o.insert("dims".into(), json!(c.names));
         let status = match &r.status {
             Status::Proven => "proven",
@@ -234,6 +248,7 @@ pub fn certificate(report: &CheckReport, prepared: &Prepared, origin: &Origin) -
         "verdict": report.verdict.name(),
         "well_posed": report.well_posed,
         "domain": domain,
+        "parameters": prepared.problem.parameters.iter().map(|(n, v)| (n.clone(), json!(exact_text(v.exact())))).collect::<Map<String, Value>>(),
         "constraints": report.constraints,
         "settings": origin.settings,
         "counts": {"goals": goals.len(), "boxes": report.boxes, "leaves": leaves_total},

@@ -109,6 +109,8 @@ pub struct Compiled {
     pub errors: Vec<usize>,
     /// `f` in formula syntax.
     pub text: String,
+    /// The region's expression in formula syntax, when the goal has one.
+    pub region_text: Option<String>,
     /// The Hessian closes the origin: f, ∇ₑf vanish at zero error and f is smooth.
     pub origin_closable: bool,
     /// Positions (in `dims`) of the non-error coordinates `f` is affine in (∂²f/∂x² ≡ 0):
@@ -304,6 +306,7 @@ impl Compiled {
         let inner = dims.iter().map(|&d| problem.variables[d].inner()).collect();
         Ok(Compiled {
             text: to_text(&problem.dag, f),
+            region_text: goal.region.map(|r| to_text(&problem.dag, r)),
             level: 0.0,
             inner,
             region,

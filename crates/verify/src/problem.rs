@@ -113,8 +113,8 @@ pub struct Problem {
     pub variables: Vec<Variable>,
     /// Gain constraints.
     pub constraints: Vec<ProofConstraint>,
-    /// Parameters and their values.
-    pub parameters: Vec<(String, f64)>,
+    /// Parameters and their values, as written.
+    pub parameters: Vec<(String, Decimal)>,
     /// States and what each tracks.
     states: Vec<(String, Target)>,
     /// Uncertain quantities: name, estimate, form, and the error when its range is a point
@@ -195,7 +195,7 @@ impl Problem {
         }
         for s in &spec.symbols {
             if let Decl::Parameter { value } = &s.decl {
-                parameters.push((s.name.clone(), value.value()));
+                parameters.push((s.name.clone(), value.clone()));
                 let c = dag.num(value.exact().clone());
                 to_proof.insert(s.name.clone(), c);
             }
@@ -332,7 +332,7 @@ impl Problem {
                 out.push((v.name.clone(), *x));
             }
         }
-        out.extend(self.parameters.iter().cloned());
+        out.extend(self.parameters.iter().map(|(n, v)| (n.clone(), v.value())));
         for (name, estimate, form, known) in &self.uncertain {
             let delta = match (self.index_of(&uncertainty_name(name)), known) {
                 (Some(d), _) => point[d],

@@ -1,0 +1,461 @@
+//! The independent checker (`tools/certcheck/`, Python with SymPy and mpmath from PyPI, no
+//! code shared with the Rust crates): every certificate `lawsmith check` writes for the
+//! example and test specs is accepted with the verdict `check` gave, and every kind of edit of
+//! a certificate below is rejected, each for its own stated reason.
+
+use serde_json::{json, Value};
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+fn root() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+}
+
+/// A fresh file name (the tests run in parallel and must not share files).
+fn scratch(name: &str) -> PathBuf {
+    static NEXT: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+    let n = NEXT.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+    let d = std::env::temp_dir().join(format!("lawsmith-certcheck-{}", std::process::id()));
+    std::fs::create_dir_all(&d).unwrap();
+    d.join(format!("{n}-{name}"))
+}
+
+/// `lawsmith check SPEC --certificate …`: the certificate and the verdict's exit code.
+fn certify(spec: &Path) -> (Value, i32) {
+    let out = scratch(&format!(
+        "{}.cert.json",
+        spec.file_stem().unwrap().to_string_lossy()
+    ));
+    let status = Command::new(env!("CARGO_BIN_EXE_lawsmith"))
+        .arg("check")
+        .arg(spec)
+        .arg("--certificate")
+        .arg(&out)
+        .arg("--quiet")
+        .output()
+        .unwrap();
+    let text = std::fs::read_to_string(&out).unwrap();
+    (
+        serde_json::from_str(&text).unwrap(),
+        status.status.code().unwrap(),
+    )
+}
+
+/// Runs the checker on a certificate (written to a file) and a spec: exit code and output.
+fn checker(cert: &Value, spec: &Path, tag: &str) -> (i32, String) {
+    let path = scratch(&format!("{tag}.json"));
+    std::fs::write(&path, serde_json::to_string(cert).unwrap()).unwrap();
+    checker_file(&path, spec)
+}
+
+fn checker_file(cert: &Path, spec: &Path) -> (i32, String) {
+    let out = Command::new("python3")
+        .arg(root().join("tools/certcheck/certcheck.py"))
+        .arg(cert)
+        .arg(spec)
+        .output()
+        .expect("python3 with SymPy and mpmath (scripts/test installs them)");
+    let text = format!(
+        "{}{}",
+        String::from_utf8_lossy(&out.stdout),
+        String::from_utf8_lossy(&out.stderr)
+    );
+    (out.status.code().unwrap_or(-1), text)
+}
+
+fn specs() -> Vec<PathBuf> {
+    let mut out = Vec::new();
+    for dir in [
+        "specs",
+        "tests/data/check",
+        "tests/data/bound",
+        "tests/data/ok",
+    ] {
+        for e in std::fs::read_dir(root().join(dir)).unwrap() {
+            let p = e.unwrap().path();
+            if p.extension().is_some_and(|x| x == "yaml") {
+                out.push(p);
+            }
+        }
+    }
+    out.sort();
+    out
+}
+
+#[test]
+fn every_certificate_of_the_examples_and_test_specs_is_accepted() {
+    let mut verdicts = std::collections::BTreeMap::new();
+    for spec in specs() {
+        let (cert, code) = certify(&spec);
+        let verdict = ["proven", "falsified", "inconclusive"][code as usize];
+        assert_eq!(cert["verdict"], verdict, "{}", spec.display());
+        let (c, text) = checker(&cert, &spec, "accepted");
+        assert_eq!(c, 0, "{}: {text}", spec.display());
+        assert!(
+            text.starts_with(&format!("accepted: {verdict}")),
+            "{}: {text}",
+            spec.display()
+        );
+        *verdicts.entry(verdict).or_insert(0) += 1;
+    }
+    println!("accepted: {verdicts:?}");
+    assert!(verdicts["proven"] >= 10 && verdicts["falsified"] >= 8);
+}
+
+type Edit = Box<dyn Fn(&mut Value)>;
+
+fn claim(cert: &Value) -> usize {
+    cert["goals"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .position(|g| g["kind"] == "claim")
+        .unwrap()
+}
+
+fn first_leaf(cert: &Value, goal: usize, evidence: &str) -> usize {
+    cert["goals"][goal]["leaves"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .position(|l| l.get(evidence).is_some())
+        .unwrap()
+}
+
+/// Applies each edit to a fresh copy and asserts the checker rejects it with the reason.
+fn rejects(spec: &str, edits: Vec<(&str, &str, Edit)>) -> usize {
+    let path = root().join(spec);
+    let (cert, _) = certify(&path);
+    let (c, text) = checker(&cert, &path, "unedited");
+    assert_eq!(c, 0, "{spec}: {text}");
+    for (what, reason, edit) in &edits {
+        let mut e = cert.clone();
+        edit(&mut e);
+        let (c, text) = checker(&e, &path, "edited");
+        println!("{what}: {}", text.trim());
+        assert_eq!(c, 1, "{what} was not rejected: {text}");
+        assert!(
+            text.contains(reason),
+            "{what}: expected `{reason}`, got {text}"
+        );
+    }
+    edits.len()
+}
+
+#[test]
+fn edited_certificates_of_the_reference_law_are_rejected_each_for_its_reason() {
+    let cert = certify(&root().join("specs/energy_longitudinal.yaml")).0;
+    let (gi, bound) = (claim(&cert), first_leaf(&cert, claim(&cert), "bound"));
+    let edits: Vec<(&str, &str, Edit)> = vec![
+        (
+            "a leaf removed",
+            "the tree has",
+            Box::new(move |c| {
+                c["goals"][gi]["leaves"].as_array_mut().unwrap().pop();
+            }),
+        ),
+        (
+            "the tree cut short",
+            "the tree ends before covering",
+            Box::new(move |c| {
+                c["goals"][gi]["tree"].as_array_mut().unwrap().truncate(3);
+            }),
+        ),
+        (
+            "a split moved to another coordinate",
+            "is not the one its tree position gives",
+            Box::new(move |c| {
+                let t = c["goals"][gi]["tree"].as_array_mut().unwrap();
+                let d = t[0].as_i64().unwrap();
+                t[0] = json!((d + 1) % 5);
+            }),
+        ),
+        (
+            "a leaf box shrunk",
+            "is not the one its tree position gives",
+            Box::new(move |c| {
+                let x = &mut c["goals"][gi]["leaves"][bound]["box"][0][0];
+                *x = json!(x.as_f64().unwrap() + 0.5);
+            }),
+        ),
+        (
+            "the domain narrowed inside the declared range",
+            "does not hold its declared range",
+            Box::new(|c| c["domain"][0]["range"] = json!([-4.0, 5.0])),
+        ),
+        (
+            "V-dot's expression edited",
+            "its expression is not the spec's V-dot",
+            Box::new(move |c| {
+                let e = c["goals"][gi]["expr"]
+                    .as_str()
+                    .unwrap()
+                    .replacen("56.25", "56", 1);
+                c["goals"][gi]["expr"] = json!(e);
+            }),
+        ),
+        (
+            "the claim's test weakened to <= 0",
+            "its test is not the spec's claim",
+            Box::new(move |c| c["goals"][gi]["test"] = json!({"below": 0, "strict": false})),
+        ),
+        (
+            "a bound tightened past the value at its box's midpoint",
+            "misses the value",
+            Box::new(move |c| {
+                let b = &mut c["goals"][gi]["leaves"][bound]["bound"];
+                // V-dot is negative here: the new lower end lies just below the upper
+                let hi = b[1].as_f64().unwrap();
+                b[0] = json!(hi * 1.001);
+            }),
+        ),
+        (
+            "a Hessian claim on a box where the Hessian is not negative definite",
+            "is not negative definite",
+            Box::new(move |c| {
+                let l = c["goals"][gi]["leaves"][bound].as_object_mut().unwrap();
+                l.remove("bound");
+                l.insert(
+                    "hessian".into(),
+                    json!({"method": "gershgorin", "value": -1.0}),
+                );
+            }),
+        ),
+        (
+            "a well-posedness goal removed (the asin argument's)",
+            "no proven goal shows the unit condition",
+            Box::new(|c| {
+                let goals = c["goals"].as_array_mut().unwrap();
+                goals.retain(|g| g["test"].get("within").is_none());
+            }),
+        ),
+        (
+            "the verdict changed",
+            "but its goals give",
+            Box::new(move |c| c["goals"][gi]["status"] = json!("inconclusive")),
+        ),
+        (
+            "the version changed",
+            "certificate version",
+            Box::new(|c| c["version"] = json!(1)),
+        ),
+        (
+            "the spec's hash changed",
+            "SHA-256",
+            Box::new(|c| c["spec"]["sha256"] = json!("0".repeat(64))),
+        ),
+    ];
+    assert_eq!(rejects("specs/energy_longitudinal.yaml", edits), 13);
+}
+
+#[test]
+fn edited_certificates_of_constraints_bounds_and_counterexamples_are_rejected() {
+    let mut kinds = 0;
+    // an exclusion that does not hold: the pitch law's constraint k_tot < k_bal on a box
+    // where it holds
+    let pitch = certify(&root().join("specs/energy_pitch.yaml")).0;
+    let (gi, b) = (claim(&pitch), first_leaf(&pitch, claim(&pitch), "bound"));
+    kinds += rejects(
+        "specs/energy_pitch.yaml",
+        vec![(
+            "an exclusion that does not hold",
+            "does not fail everywhere on the box",
+            Box::new(move |c| {
+                let l = c["goals"][gi]["leaves"][b].as_object_mut().unwrap();
+                l.remove("bound");
+                l.insert("excluded".into(), json!(0));
+            }),
+        )],
+    );
+    // ultimate bounds: the scalar disturbance (level 0.03125, bound 0.25)
+    let scalar = certify(&root().join("tests/data/bound/scalar_disturbance.yaml")).0;
+    let gi = claim(&scalar);
+    let b = first_leaf(&scalar, gi, "bound");
+    kinds += rejects(
+        "tests/data/bound/scalar_disturbance.yaml",
+        vec![
+            (
+                "a smaller level",
+                "is not below the level",
+                Box::new(move |c| {
+                    let u = &mut c["goals"][gi]["ultimate_bound"]["level"];
+                    *u = json!(u.as_f64().unwrap() * 0.5);
+                }),
+            ),
+            (
+                "a tighter error bound",
+                "is not proved at level",
+                Box::new(move |c| {
+                    let e = &mut c["goals"][gi]["ultimate_bound"]["bounds"][0]["upper"];
+                    *e = json!(e.as_f64().unwrap() * 0.9);
+                }),
+            ),
+            (
+                "a larger region of attraction",
+                "no proof that V >",
+                Box::new(move |c| {
+                    let a = &mut c["goals"][gi]["ultimate_bound"]["attraction"];
+                    *a = json!(a.as_f64().unwrap() * 1.5);
+                }),
+            ),
+            (
+                "a sublevel proof dropped",
+                "is not proved at level",
+                Box::new(move |c| {
+                    c["goals"][gi]["ultimate_bound"]["sublevel"]
+                        .as_array_mut()
+                        .unwrap()
+                        .pop();
+                }),
+            ),
+            (
+                "below the level where V is not",
+                "is not below the level",
+                Box::new(move |c| {
+                    let l = c["goals"][gi]["leaves"][b].as_object_mut().unwrap();
+                    l.remove("bound");
+                    l.insert("below_level".into(), json!([0.0, 0.01]));
+                }),
+            ),
+            (
+                "a Hessian claim where V-dot does not vanish with its gradient",
+                "does not vanish with its gradient",
+                Box::new(move |c| {
+                    let l = c["goals"][gi]["leaves"][b].as_object_mut().unwrap();
+                    l.remove("bound");
+                    l.insert("hessian".into(), json!({"method": "minors", "value": -1.0}));
+                }),
+            ),
+        ],
+    );
+    // the audit's edit: the certificate of `auto` retargeted to a spec requiring |x| <= 0.2
+    // (which `check` falsifies), its own required list emptied
+    let strict_spec = scratch("scalar_strict.yaml");
+    let text = std::fs::read_to_string(root().join("tests/data/bound/scalar_disturbance.yaml"))
+        .unwrap()
+        .replace("{ ultimate_bound: auto }", "{ ultimate_bound: [0.2] }");
+    std::fs::write(&strict_spec, &text).unwrap();
+    let mut c = scalar.clone();
+    c["spec"]["sha256"] = json!(sha256(text.as_bytes()));
+    c["goals"][gi]["ultimate_bound"]["required"] = json!([]);
+    let (code, out) = checker(&c, &strict_spec, "retargeted");
+    assert_eq!(code, 1, "{out}");
+    assert!(out.contains("exceeds the spec's required 0.2"), "{out}");
+    kinds += 1;
+    // counterexamples: the pendulum's plane of zero rate
+    let pend = certify(&root().join("tests/data/check/pendulum_definite.yaml")).0;
+    let gi = claim(&pend);
+    kinds += rejects(
+        "tests/data/check/pendulum_definite.yaml",
+        vec![
+            (
+                "a counterexample moved off the plane where V-dot = 0",
+                "does not refute the goal",
+                Box::new(move |c| {
+                    let dims = c["goals"][gi]["dims"].clone();
+                    let k = dims.as_array().unwrap().iter().position(|d| d == "Δomega");
+                    c["goals"][gi]["counterexample"]["point"][k.unwrap()] = json!(0.5);
+                }),
+            ),
+            (
+                "a counterexample outside the declared range",
+                "outside its declared range",
+                Box::new(move |c| {
+                    let dims = c["goals"][gi]["dims"].clone();
+                    let k = dims.as_array().unwrap().iter().position(|d| d == "Δphi");
+                    c["goals"][gi]["counterexample"]["point"][k.unwrap()] = json!(100.0);
+                }),
+            ),
+        ],
+    );
+    // an undecided goal marked proven
+    let corner = certify(&root().join("tests/data/check/declared_corner.yaml")).0;
+    let gi = claim(&corner);
+    kinds += rejects(
+        "tests/data/check/declared_corner.yaml",
+        vec![(
+            "an undecided goal marked proven",
+            "no proof tree",
+            Box::new(move |c| {
+                c["goals"][gi]["status"] = json!("proven");
+                c["verdict"] = json!("proven");
+            }),
+        )],
+    );
+    // a certificate of another spec under this spec's hash
+    let other = certify(&root().join("specs/energy_pitch.yaml")).0;
+    let mut c = other.clone();
+    let refspec = root().join("specs/energy_longitudinal.yaml");
+    c["spec"]["sha256"] = json!(sha256(&std::fs::read(&refspec).unwrap()));
+    let (code, out) = checker(&c, &refspec, "other");
+    assert_eq!(code, 1, "{out}");
+    assert!(out.contains("does not hold its declared range"), "{out}");
+    kinds += 1;
+    // with the 13 kinds of the reference law's test: 25 (README)
+    assert_eq!(13 + kinds, 25);
+}
+
+#[test]
+fn unreadable_inputs_exit_3() {
+    let spec = root().join("specs/pendulum_damping.yaml");
+    let bad = scratch("not.json");
+    std::fs::write(&bad, "{ not json").unwrap();
+    assert_eq!(checker_file(&bad, &spec).0, 3);
+    let (cert, _) = certify(&spec);
+    let (code, _) = checker(&cert, &root().join("specs/no_such_spec.yaml"), "missing");
+    assert_eq!(code, 3);
+}
+
+#[test]
+fn the_checker_imports_nothing_from_the_project() {
+    // only the standard library, the three general-purpose libraries and its own modules
+    let allowed = [
+        "argparse",
+        "hashlib",
+        "json",
+        "math",
+        "multiprocessing",
+        "os",
+        "re",
+        "sys",
+        "fractions",
+        "sympy",
+        "mpmath",
+        "yaml",
+        "formula",
+        "iv",
+        "model",
+    ];
+    let dir = root().join("tools/certcheck");
+    let mut lines = 0;
+    for e in std::fs::read_dir(&dir).unwrap() {
+        let p = e.unwrap().path();
+        if p.extension().is_none_or(|x| x != "py") {
+            continue;
+        }
+        let text = std::fs::read_to_string(&p).unwrap();
+        lines += text.lines().count();
+        for l in text.lines().map(str::trim) {
+            let module = l
+                .strip_prefix("import ")
+                .or_else(|| l.strip_prefix("from "))
+                .map(|r| r.split([' ', '.', ',']).next().unwrap_or(""));
+            if let Some(m) = module {
+                assert!(allowed.contains(&m), "{}: imports {m}", p.display());
+            }
+        }
+        assert!(!text.contains("lawsmith_"), "{}", p.display());
+    }
+    println!("tools/certcheck: {lines} lines");
+    assert!(lines < 1500, "{lines} lines");
+    // the size the checker's README and the project's README state is the size it has
+    for doc in ["tools/certcheck/README.md", "README.md"] {
+        let text = std::fs::read_to_string(root().join(doc)).unwrap();
+        let stated = format!("{},{:03} lines", lines / 1000, lines % 1000);
+        assert!(text.contains(&stated), "{doc} does not state `{stated}`");
+    }
+}
+
+fn sha256(bytes: &[u8]) -> String {
+    lawsmith_verify::sha256_hex(bytes)
+}
