@@ -82,7 +82,7 @@ fn bound_check(
     runs: usize,
     seed: u64,
 ) -> Result<Option<(String, Value)>, u8> {
-    if spec.claim != Claim::UltimateBound {
+    if !matches!(spec.claim, Claim::UltimateBound { .. }) {
         return Ok(None);
     }
     let progress = Progress::new();

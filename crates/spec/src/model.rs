@@ -235,7 +235,7 @@ pub fn uncertainty_name(quantity: &str) -> String {
 }
 
 /// What the Lyapunov argument claims.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq)]
 pub enum Claim {
     /// V̇ < 0 whenever the error is non-zero.
     NegativeDefinite,
@@ -244,9 +244,12 @@ pub enum Claim {
     /// V̇ ≤ −2·rate·V.
     Exponential(f64),
     /// The smallest level `c` with V̇ < 0 wherever V ≥ c in the domain (every trajectory
-    /// enters {V ≤ c} and stays), and the bound it implies on each error; with
-    /// [`Spec::required_bounds`], those bounds must not exceed the required ones.
-    UltimateBound,
+    /// enters {V ≤ c} and stays), and the bound it implies on each error.
+    UltimateBound {
+        /// Required bounds, state → largest allowed |error|, in state order (empty for
+        /// `auto`): the proved bounds must not exceed them.
+        required: Vec<(String, f64)>,
+    },
 }
 
 impl Claim {
@@ -256,7 +259,7 @@ impl Claim {
             Claim::NegativeDefinite => "negative_definite".into(),
             Claim::NegativeSemidefinite => "negative_semidefinite".into(),
             Claim::Exponential(r) => format!("exponential({r})"),
-            Claim::UltimateBound => "ultimate_bound".into(),
+            Claim::UltimateBound { .. } => "ultimate_bound".into(),
         }
     }
 }
@@ -327,9 +330,6 @@ pub struct Spec {
     pub candidate_span: std::ops::Range<usize>,
     /// What is claimed of V̇.
     pub claim: Claim,
-    /// For an ultimate-bound claim with required bounds: state → largest allowed |error|, in
-    /// state order (empty for `auto`).
-    pub required_bounds: Vec<(String, f64)>,
     /// Laws in evaluation order: input → expression (earlier inputs as symbols).
     pub laws: Vec<(String, ExprId)>,
     /// Gain constraints.

@@ -21,36 +21,16 @@
 //!
 //! Every proof keeps its tree, so the certificate lets `recheck` re-evaluate all of them.
 
-use crate::check::Settings;
 use crate::goal::{Compiled, Scratch, Test};
 use crate::interval::Interval;
 use crate::problem::Problem;
 use crate::sample::{falsify, PointSet};
 use crate::search::{search, Counter, Outcome, Report};
+use crate::settings::{BoundSettings, Settings};
 
 /// Below this share of the region of attraction's level, with nothing refuted, the level
 /// bisection stops: the level is zero within what the search near zero error can resolve.
 pub const NEAR_ZERO_LEVEL: f64 = 1e-9;
-
-/// Tolerances of the bisections.
-#[derive(Clone, Debug)]
-pub struct BoundSettings {
-    /// Relative width at which the level bisection stops (`--level-tolerance`).
-    pub level_tolerance: f64,
-    /// Relative width at which each error-bound bisection stops.
-    pub bound_tolerance: f64,
-}
-
-impl Default for BoundSettings {
-    fn default() -> Self {
-        // 0.2 % on the level is 0.1 % on a bound of a quadratic V, well inside what anyone
-        // reads off a flight-test plot; each halving costs one proof
-        BoundSettings {
-            level_tolerance: 2e-3,
-            bound_tolerance: 1e-3,
-        }
-    }
-}
 
 /// Which part of the error box a sublevel proof covers.
 #[derive(Copy, Clone, Debug, PartialEq)]

@@ -11,10 +11,11 @@
 //! Non-finite numbers are written as the strings `"inf"`, `"-inf"`, `"nan"` (JSON has none).
 
 use crate::bound::{above, sublevel_root, BoundReport, Side};
-use crate::check::{CheckReport, GoalKind, Prepared, Status, Verdict};
+use crate::check::{CheckReport, GoalKind, Status, Verdict};
 use crate::goal::{Compiled, Feasibility, Scratch, Test};
 use crate::hessian::Method;
 use crate::interval::Interval;
+use crate::prepare::Prepared;
 use crate::search::{halves, reconfirm, Counter, Evidence, Tree};
 use rayon::prelude::*;
 use serde_json::{json, Map, Value};
@@ -127,7 +128,7 @@ fn tree_json(o: &mut Map<String, Value>, tree: &Tree) -> usize {
 /// The ultimate-bound section of a certificate: the level, the bounds and every sublevel
 /// proof with its tree.
 fn bound_json(b: &BoundReport, prepared: &Prepared) -> (Value, usize) {
-    let sub = prepared.sublevel.as_ref();
+    let sub = prepared.sublevel();
     let mut leaves = 0;
     let proofs: Vec<Value> = b
         .sublevel
@@ -373,7 +374,7 @@ pub fn recheck(
         statuses.push(status.to_string());
         // an ultimate bound's claim goal is proved at the certificate's level
         let mut at_level = None;
-        if let (GoalKind::Claim, Some(_)) = (pg.kind, &prepared.sublevel) {
+        if let (GoalKind::Claim, Some(_)) = (pg.kind, prepared.sublevel()) {
             if status == "proven" {
                 let (level, leaves) = recheck_bound(gj, prepared, &at)?;
                 out.leaves += leaves;
@@ -442,8 +443,7 @@ pub fn recheck(
 /// level the claim goal must be proved at, and the leaves re-evaluated.
 fn recheck_bound(gj: &Value, prepared: &Prepared, at: &str) -> Result<(f64, usize), Rejection> {
     let sub = prepared
-        .sublevel
-        .as_ref()
+        .sublevel()
         .ok_or_else(|| Rejection(format!("{at}: the spec's claim has no ultimate bound")))?;
     let b = field(gj, "ultimate_bound", at)?;
     let bad = |what: &str| Rejection(format!("{at}: malformed ultimate bound ({what})"));
@@ -564,13 +564,13 @@ fn recheck_bound(gj: &Value, prepared: &Prepared, at: &str) -> Result<(f64, usiz
             ))
         })
         .collect();
-    if listed.as_deref() != Some(prepared.required.as_slice()) {
+    if listed.as_deref() != Some(prepared.required()) {
         return reject(format!(
             "{at}: the certificate's required bounds differ from the spec's ({})",
-            required_text(&prepared.required)
+            required_text(prepared.required())
         ));
     }
-    for (state, need) in &prepared.required {
+    for (state, need) in prepared.required() {
         match stated.iter().find(|(s, _)| s == state) {
             Some((_, got)) if got <= need => {}
             Some((_, got)) => {

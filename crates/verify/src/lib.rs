@@ -35,30 +35,37 @@
 mod bound;
 mod certificate;
 mod check;
+mod conditions;
 mod goal;
 mod hessian;
 mod interval;
 mod margin;
+mod plan;
+mod prepare;
 mod problem;
 pub mod report;
 mod sample;
 mod search;
+mod settings;
 
 pub use bound::{
-    at_level, sublevel_root, ultimate_bound, BoundOutcome, BoundReport, BoundSettings, ErrorBound,
-    LevelStep, Side, SublevelProof,
+    at_level, sublevel_root, ultimate_bound, BoundOutcome, BoundReport, ErrorBound, LevelStep,
+    Side, SublevelProof,
 };
 pub use certificate::{
     certificate, recheck, sha256_hex, Origin, Rechecked, Rejection, CERTIFICATE_VERSION,
 };
 pub use check::{
-    check, prepare, CheckError, CheckReport, Counterexample, GoalKind, GoalResult, Prepared,
-    PreparedGoal, Saturation, Settings, Status, Verdict,
+    check, CheckError, CheckReport, Counterexample, GoalKind, GoalResult, Saturation, Status,
+    Verdict,
 };
 pub use goal::{Compiled, Feasibility, Goal, Scratch, Test};
 pub use hessian::Method;
 pub use interval::{Interval, LIBM_ULPS};
 pub use margin::{margin, MarginPoint, MarginReport, MarginSettings};
+pub use plan::{Plan, Strategy};
+pub use prepare::{prepare, Prepared, PreparedGoal};
 pub use problem::{error_name, Problem, ProofForms, Role, Variable};
 pub use sample::{falsify, generalized_golden_ratio, PointSet, Sampled, Sequence};
-pub use search::{search, Budget, Counter, Evidence, Outcome, Report, Tree};
+pub use search::{search, Counter, Evidence, Outcome, Report, Tree};
+pub use settings::{BoundSettings, Budget, Settings};

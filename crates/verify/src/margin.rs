@@ -8,7 +8,8 @@
 //! is a full proof, so every number in the table is guaranteed, not estimated.
 
 use crate::bound::{BoundOutcome, ErrorBound};
-use crate::check::{check, CheckError, Settings};
+use crate::check::{check, CheckError};
+use crate::settings::Settings;
 use lawsmith_spec::{load, Claim, Decl, ErrorForm, Range, SymbolKind};
 
 /// One point of the curve.
@@ -139,8 +140,9 @@ pub fn margin(
                 *error = Range::from_f64(declared.0 * t, declared.1 * t);
             }
         }
-        spec.claim = Claim::UltimateBound;
-        spec.required_bounds = required.to_vec();
+        spec.claim = Claim::UltimateBound {
+            required: required.to_vec(),
+        };
         let label = format!("{quantity} x {t:.3}");
         let (report, _) = check(&mut spec, settings, &|l, b, o| {
             progress(&format!("{label}: {l}"), b, o)

@@ -190,9 +190,11 @@ pub fn text(r: &CheckReport, path: &str, timings: bool) -> String {
         bound_text(&mut s, b);
     }
     if let Some(m) = r.min_margin {
-        let f = match r.claim {
-            lawsmith_spec::Claim::Exponential(rate) => format!("(dV/dt + 2*{rate}*V)"),
-            _ => "dV/dt".into(),
+        // a compound quantity in parentheses before the division
+        let f = if r.quantity.contains(' ') {
+            format!("({})", r.quantity)
+        } else {
+            r.quantity.clone()
         };
         let _ = writeln!(
             s,

@@ -16,32 +16,9 @@
 use crate::goal::{Compiled, Feasibility, Scratch, Test};
 use crate::hessian::Method;
 use crate::interval::Interval;
+use crate::settings::Budget;
 use rayon::prelude::*;
-use std::time::{Duration, Instant};
-
-/// Limits on one search. Every limit is explicit; hitting one gives an inconclusive verdict
-/// that names it.
-#[derive(Clone, Debug)]
-pub struct Budget {
-    /// Boxes evaluated at most (`--max-boxes`).
-    pub max_boxes: usize,
-    /// Wall-clock limit (`--time-limit`).
-    pub time_limit: Duration,
-    /// Open boxes held at most (memory of the queue, `--max-queue`).
-    pub max_queue: usize,
-}
-
-impl Default for Budget {
-    fn default() -> Self {
-        // two million boxes is a few seconds of work on a laptop core for the example laws and
-        // far more than they need; a queue of a million boxes of 10 coordinates is ~200 MB
-        Budget {
-            max_boxes: 2_000_000,
-            time_limit: Duration::from_secs(120),
-            max_queue: 1_000_000,
-        }
-    }
-}
+use std::time::Instant;
 
 /// Why a box is proved.
 #[derive(Clone, Copy, Debug, PartialEq)]

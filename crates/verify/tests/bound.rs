@@ -131,7 +131,7 @@ fn the_aircraft_bound_is_sound_at_a_million_points() {
     assert!(below > 0, "no violation found at half the refuted level");
     // and the bounds are those of the level set: every sampled point with V <= c lies
     // inside them
-    let sub = p.sublevel.as_ref().unwrap();
+    let sub = p.sublevel().unwrap();
     let root = p.sublevel_root();
     let seq = Sequence::new(root.len());
     let mut s = Scratch::default();

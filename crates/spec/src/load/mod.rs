@@ -616,7 +616,7 @@ impl<'s> Loader<'s> {
                 });
             }
         }
-        let (claim, required_bounds) = self.claim(&raw);
+        let claim = self.claim(&raw);
 
         // 2. structure: dynamics for every state, a law for every input
         let mut dag = Dag::new();
@@ -893,7 +893,6 @@ impl<'s> Loader<'s> {
                 )
             },
             claim,
-            required_bounds,
             laws,
             constraints,
             actuators,
@@ -1040,22 +1039,20 @@ impl<'s> Loader<'s> {
     }
 
     /// The claim, and the required bounds of an ultimate-bound claim.
-    fn claim(&mut self, raw: &RawSpec) -> (Claim, Vec<(String, f64)>) {
+    fn claim(&mut self, raw: &RawSpec) -> Claim {
         let span = range_of(self.src, &raw.lyapunov.claim);
         let hint = "use negative_definite, negative_semidefinite, { exponential: RATE } or { ultimate_bound: auto | { STATE: BOUND, … } }";
         let states = self.names_of(SymbolKind::State);
         let bad = |what: String| Diagnostic::new("bad-claim", what, span.clone()).hint(hint);
         match &raw.lyapunov.claim.value {
-            RawClaim::Named(s) if s == "negative_definite" => {
-                return (Claim::NegativeDefinite, vec![])
-            }
+            RawClaim::Named(s) if s == "negative_definite" => return Claim::NegativeDefinite,
             RawClaim::Named(s) if s == "negative_semidefinite" => {
-                return (Claim::NegativeSemidefinite, vec![])
+                return Claim::NegativeSemidefinite
             }
             RawClaim::Exponential { exponential }
                 if *exponential > 0.0 && exponential.is_finite() =>
             {
-                return (Claim::Exponential(*exponential), vec![])
+                return Claim::Exponential(*exponential)
             }
             RawClaim::Named(s) => self.err(bad(format!("unknown claim `{s}`"))),
             RawClaim::Exponential { exponential } => self.err(bad(format!(
@@ -1068,7 +1065,7 @@ impl<'s> Loader<'s> {
                         self.err(bad(format!(
                             "ultimate_bound takes `auto` or bounds per state error, not `{s}`"
                         )));
-                        return (Claim::UltimateBound, vec![]);
+                        return Claim::UltimateBound { required: vec![] };
                     }
                     RawBound::List(v) => {
                         if v.len() != states.len() {
@@ -1078,7 +1075,7 @@ impl<'s> Loader<'s> {
                                 states.len(),
                                 states.join(", ")
                             )));
-                            return (Claim::UltimateBound, vec![]);
+                            return Claim::UltimateBound { required: vec![] };
                         }
                         states.iter().cloned().zip(v.iter().copied()).collect()
                     }
@@ -1105,10 +1102,10 @@ impl<'s> Loader<'s> {
                         "the bound on `{s}` must be positive and finite, not {b}"
                     )));
                 }
-                return (Claim::UltimateBound, required);
+                return Claim::UltimateBound { required };
             }
         }
-        (Claim::NegativeDefinite, vec![])
+        Claim::NegativeDefinite
     }
 
     fn names_of(&self, kind: SymbolKind) -> Vec<String> {

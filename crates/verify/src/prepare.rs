@@ -1,0 +1,223 @@
+//! A spec turned into goals: the proof domain, the well-posedness conditions, V > 0 and the
+//! claim's goal with its strategy, compiled; and counterexamples shown in every symbol.
+
+use crate::check::{CheckError, Counterexample, GoalKind};
+use crate::conditions;
+use crate::goal::{Compiled, Goal, Test};
+use crate::interval::Interval;
+use crate::plan::{Plan, Strategy};
+use crate::problem::{Problem, ProofForms};
+use crate::sample::Sequence;
+use crate::search::Counter;
+use lawsmith_expr::{Arith, Tape};
+use lawsmith_spec::{derive, Claim, Spec};
+
+/// A full point of the domain: `dims` from `point`, every other coordinate from the first
+/// low-discrepancy point of the domain that meets every constraint (midpoints if none does).
+fn complete(problem: &Problem, all: &FullTapes, dims: &[usize], point: &[f64]) -> Vec<f64> {
+    let root = problem.declared_box();
+    let fill = |mut x: Vec<f64>| {
+        for (k, &d) in dims.iter().enumerate() {
+            x[d] = point[k];
+        }
+        x
+    };
+    let seq = Sequence::new(root.len());
+    for i in 1..=4096u64 {
+        let x = fill(seq.point(i, &root));
+        if all.feasible(&x) {
+            return x;
+        }
+    }
+    fill(root.iter().map(Interval::mid).collect())
+}
+
+/// Tapes over every coordinate: the constraints and V̇.
+#[derive(Debug)]
+pub(crate) struct FullTapes {
+    constraints: Vec<(Tape, bool)>,
+    vdot: Tape,
+}
+
+impl FullTapes {
+    pub(crate) fn feasible(&self, x: &[f64]) -> bool {
+        let mut scratch = Vec::new();
+        self.constraints.iter().all(|(t, strict)| {
+            let mut o = [0.0];
+            t.eval_into(x, &mut scratch, &mut o);
+            if *strict {
+                o[0] < 0.0
+            } else {
+                o[0] <= 0.0
+            }
+        })
+    }
+}
+
+fn root_of(problem: &Problem, dims: &[usize]) -> Vec<Interval> {
+    dims.iter()
+        .map(|&i| Interval::new(problem.variables[i].lo, problem.variables[i].hi))
+        .collect()
+}
+
+/// One goal of a prepared check.
+#[derive(Debug)]
+pub struct PreparedGoal {
+    /// What it is about.
+    pub kind: GoalKind,
+    /// Where it comes from.
+    pub source: String,
+    /// The goal, compiled.
+    pub compiled: Compiled,
+}
+
+/// A spec turned into goals, ready to be sampled and searched (by [`check`]) or to have a
+/// certificate's leaves re-evaluated (by [`crate::recheck`]).
+#[derive(Debug)]
+pub struct Prepared {
+    /// The proof domain and the expressions.
+    pub problem: Problem,
+    /// V, V̇, laws and actuators in proof coordinates.
+    pub forms: ProofForms,
+    /// Every goal, in order: conditions, V > 0, the claim.
+    pub goals: Vec<PreparedGoal>,
+    /// The claim.
+    pub claim: Claim,
+    /// What the claim's goal bounds, as its statement reads (`dV/dt`, `dV/dt + 2*r*V`).
+    pub quantity: String,
+    /// How the claim's goal is decided.
+    pub strategy: Strategy,
+    pub(crate) full: FullTapes,
+}
+
+/// Derives V̇ and builds every goal of a spec: the well-posedness conditions (the laws' and
+/// actuators' functions and divisions, those of V and V̇, and every side condition the
+/// simplifier assumed), V > 0, and the claim.
+pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
+    let derivation = derive(spec).map_err(CheckError::from)?;
+    let mut problem = Problem::new(spec);
+    let forms = problem.forms(&derivation);
+
+    let mut goals: Vec<(GoalKind, String, Goal)> =
+        conditions::goals(&mut problem, &derivation, &forms)
+            .into_iter()
+            .map(|(source, g)| (GoalKind::Condition, source, g))
+            .collect();
+    let neg_v = problem.dag.neg(forms.candidate);
+    let (neg_v, _) = problem.simplify(neg_v);
+    goals.push((
+        GoalKind::Positive,
+        "the Lyapunov candidate".into(),
+        Goal {
+            label: "V > 0 wherever the error is not zero".into(),
+            expr: neg_v,
+            test: Test::Negative { strict: true },
+            origin: true,
+            region: None,
+        },
+    ));
+    let plan = Plan::of(&mut problem, &forms, &spec.claim);
+    goals.push((GoalKind::Claim, "the claim".into(), plan.goal.clone()));
+
+    let mut prepared_goals = Vec::new();
+    for (kind, source, g) in goals {
+        prepared_goals.push(PreparedGoal {
+            kind,
+            source,
+            compiled: Compiled::new(&mut problem, g).map_err(CheckError::new)?,
+        });
+    }
+    let strategy = plan.strategy(&mut problem)?;
+    let names: Vec<String> = problem.variables.iter().map(|v| v.name.clone()).collect();
+    let name_refs: Vec<&str> = names.iter().map(String::as_str).collect();
+    let full = FullTapes {
+        constraints: problem
+            .constraints
+            .iter()
+            .map(|c| Ok((Tape::compile(&problem.dag, &[c.g], &name_refs)?, c.strict)))
+            .collect::<Result<_, String>>()
+            .map_err(CheckError::new)?,
+        vdot: Tape::compile(&problem.dag, &[forms.vdot], &name_refs).map_err(CheckError::new)?,
+    };
+    Ok(Prepared {
+        problem,
+        forms,
+        goals: prepared_goals,
+        claim: spec.claim.clone(),
+        quantity: plan.quantity,
+        strategy,
+        full,
+    })
+}
+
+impl Prepared {
+    /// The root box of a goal.
+    pub fn root(&self, goal: usize) -> Vec<Interval> {
+        root_of(&self.problem, &self.goals[goal].compiled.dims)
+    }
+
+    /// The goal `V > level` of a level strategy (its test is set per proof).
+    pub fn sublevel(&self) -> Option<&Compiled> {
+        match &self.strategy {
+            Strategy::Level { sublevel, .. } => Some(sublevel),
+            Strategy::Direct => None,
+        }
+    }
+
+    /// The required bounds of a level strategy (state, bound); empty otherwise.
+    pub fn required(&self) -> &[(String, f64)] {
+        match &self.strategy {
+            Strategy::Level { required, .. } => required,
+            Strategy::Direct => &[],
+        }
+    }
+
+    /// The root box of the sublevel goal (empty without one).
+    pub fn sublevel_root(&self) -> Vec<Interval> {
+        self.sublevel()
+            .map_or(Vec::new(), |g| root_of(&self.problem, &g.dims))
+    }
+
+    /// Index of the claim's goal.
+    pub fn claim_index(&self) -> Option<usize> {
+        self.goals.iter().position(|g| g.kind == GoalKind::Claim)
+    }
+
+    /// A counterexample of goal `goal` at `point` (over its dims) in every symbol.
+    pub fn counterexample(&self, goal: usize, cx: &Counter) -> Counterexample {
+        let c = &self.goals[goal].compiled;
+        let x = complete(&self.problem, &self.full, &c.dims, &cx.point);
+        // goals are stated as `f < 0`; show the quantity as the statement reads
+        let (quantity, sign) = match (self.goals[goal].kind, c.goal.test) {
+            (GoalKind::Positive, _) => ("V".to_string(), -1.0),
+            (GoalKind::Claim, _) => (self.quantity.clone(), 1.0),
+            (GoalKind::Condition, Test::Negative { .. }) => ("the expression".to_string(), -1.0),
+            (GoalKind::Condition, _) => ("the expression".to_string(), 1.0),
+        };
+        let mut scratch = Vec::new();
+        let mut o = [0.0];
+        self.full.vdot.eval_into(&x, &mut scratch, &mut o);
+        Counterexample {
+            goal: c.goal.label.clone(),
+            coordinates: self
+                .problem
+                .variables
+                .iter()
+                .map(|v| v.name.clone())
+                .zip(x.iter().copied())
+                .collect(),
+            point: self.problem.base_values(&x),
+            quantity,
+            value: sign * cx.value,
+            enclosure: if sign < 0.0 {
+                cx.enclosure.neg()
+            } else {
+                cx.enclosure
+            },
+            // V̇ was simplified assuming the conditions: where one fails it means nothing
+            vdot: (self.goals[goal].kind != GoalKind::Condition && o[0].is_finite())
+                .then_some(o[0]),
+            sign_change: cx.bracket.is_some(),
+        }
+    }
+}
