@@ -1,0 +1,585 @@
+//! Phase 1 of loading: the declarations. Every symbol, definition and guidance filter with
+//! its unit, range and kind, each number read as the decimal it was written as.
+
+use super::{placeholder, range_of, scalar_base, unknown, Def, Loader};
+use crate::diag::Diagnostic;
+use crate::model::Range as Bounds;
+use crate::model::*;
+use crate::schema::*;
+use crate::units::{parse_unit, Dim};
+use lawsmith_expr::{nearest, Decimal};
+use serde_saphyr::Spanned;
+use std::collections::HashSet;
+
+impl Loader<'_> {
+    /// Declares every symbol of the spec; returns the definitions in order and the guidance
+    /// filters.
+    pub(super) fn declarations(&mut self, raw: &RawSpec) -> (Vec<String>, Vec<Guidance>) {
+        self.declare_parameters(raw);
+        self.declare_gains(raw);
+        self.declare_references(raw);
+        self.declare_states(raw);
+        self.declare_signals(raw);
+        let def_order = self.declare_definitions(raw);
+        (def_order, self.declare_guidance(raw))
+    }
+
+    fn declare_parameters(&mut self, raw: &RawSpec) {
+        for (n, p) in &raw.parameters.0 {
+            let ok = self.declare(n, SymbolKind::Parameter);
+            let dim = self.unit(&p.unit);
+            if ok {
+                let value = if p.value.value.is_finite() {
+                    self.literal(&p.value)
+                } else {
+                    let span = range_of(self.src, &p.value);
+                    self.err(Diagnostic::new(
+                        "bad-number",
+                        "parameter value must be finite",
+                        span,
+                    ));
+                    None
+                };
+                // a placeholder only where an error is already reported: the spec is refused
+                let value = value.unwrap_or_else(|| Decimal::from_f64(0.0));
+                self.push_symbol(&n.value, &p.unit.value, dim, Decl::Parameter { value });
+            }
+        }
+    }
+
+    fn declare_gains(&mut self, raw: &RawSpec) {
+        for (n, g) in &raw.gains.0 {
+            let ok = self.declare(n, SymbolKind::Gain);
+            let dim = self.unit(&g.unit);
+            let range = self.pair(&g.range, "gain range");
+            if ok {
+                let default = g.default.as_ref().map(|d| d.value);
+                self.push_symbol(
+                    &n.value,
+                    &g.unit.value,
+                    dim,
+                    Decl::Gain {
+                        range: range.clone().unwrap_or_else(placeholder),
+                        default,
+                    },
+                );
+                if let (Some(d), Some((lo, hi))) = (&g.default, range.map(|r| r.nearest())) {
+                    if !(lo..=hi).contains(&d.value) {
+                        let span = range_of(self.src, d);
+                        self.err(
+                            Diagnostic::new(
+                                "default-out-of-range",
+                                format!(
+                                    "default {} is outside the gain range [{lo}, {hi}]",
+                                    d.value
+                                ),
+                                span,
+                            )
+                            .label("outside the range"),
+                        );
+                    }
+                }
+            }
+        }
+    }
+
+    fn declare_references(&mut self, raw: &RawSpec) {
+        for (n, r) in &raw.references.0 {
+            let ok = self.declare(n, SymbolKind::Reference);
+            let dim = self.unit(&r.unit);
+            let range = self.pair(&r.range, "reference range");
+            let rate_range = self.pair(&r.rate_range, "rate range");
+            let rate_ok = self.declare(&r.rate, SymbolKind::Rate);
+            if ok {
+                self.push_symbol(
+                    &n.value,
+                    &r.unit.value,
+                    dim,
+                    Decl::Reference {
+                        range: range.unwrap_or_else(placeholder),
+                        rate: r.rate.value.clone(),
+                    },
+                );
+            }
+            if rate_ok {
+                let u = r.unit.value.trim();
+                // `m` gives `m/s`; a compound unit is parenthesised: `(m/s)/s`
+                let unit = if u.chars().all(|c| c.is_ascii_alphanumeric() || c == '^') {
+                    format!("{u}/s")
+                } else {
+                    format!("({u})/s")
+                };
+                let rd = dim.div(&parse_unit("s").expect("s is a unit"));
+                self.push_symbol(
+                    &r.rate.value,
+                    &unit,
+                    rd,
+                    Decl::Rate {
+                        range: rate_range.unwrap_or_else(placeholder),
+                        reference: n.value.clone(),
+                    },
+                );
+            }
+        }
+    }
+
+    fn declare_states(&mut self, raw: &RawSpec) {
+        let mut tracked: HashSet<String> = HashSet::new();
+        for (n, s) in &raw.states.0 {
+            let ok = self.declare(n, SymbolKind::State);
+            let dim = self.unit(&s.unit);
+            let mut error = self.pair(&s.error, "error box");
+            if let Some((lo, hi)) = error.as_ref().map(Bounds::nearest) {
+                let zero = lawsmith_expr::BigRational::default();
+                let inside = error
+                    .as_ref()
+                    .is_some_and(|e| e.lo.exact() < &zero && &zero < e.hi.exact());
+                if !inside {
+                    self.err(
+                        Diagnostic::new(
+                            "empty-error-box",
+                            format!(
+                                "the error box [{lo}, {hi}] of `{}` does not hold zero error inside it",
+                                n.value
+                            ),
+                            range_of(self.src, &s.error),
+                        )
+                        .label("min must be below 0 and max above")
+                        .hint("the proof is about errors around zero; write e.g. [-1, 1]"),
+                    );
+                    error = None;
+                }
+            }
+            if let (Some(r), Some(e)) = (&s.reference, &s.equilibrium) {
+                let _ = r;
+                let span = range_of(self.src, e);
+                self.err(
+                    Diagnostic::new(
+                        "state-target",
+                        format!("state `{}` has both a reference and an equilibrium", n.value),
+                        span,
+                    )
+                    .hint("keep one: `reference:` for a tracked state, `equilibrium:` for a regulated one"),
+                );
+            }
+            if let Some(r) = &s.reference {
+                let span = self.name_span(r);
+                match raw.references.0.iter().find(|(k, _)| k.value == r.value) {
+                    None => {
+                        let names = raw.references.0.iter().map(|(k, _)| k.value.as_str());
+                        let mut d = Diagnostic::new(
+                            "unknown-symbol",
+                            format!(
+                                "state `{}` tracks `{}`, which is not a declared reference",
+                                n.value, r.value
+                            ),
+                            span,
+                        )
+                        .label("not declared under `references`");
+                        if let Some(s) = nearest(&r.value, names) {
+                            d = d.hint(format!("did you mean `{s}`?"));
+                        }
+                        self.err(d);
+                    }
+                    Some((_, rr)) => {
+                        if !tracked.insert(r.value.clone()) {
+                            self.err(Diagnostic::new(
+                                "duplicate-name",
+                                format!("reference `{}` is tracked by two states", r.value),
+                                span.clone(),
+                            ));
+                        }
+                        let rdim = parse_unit(&rr.unit.value).unwrap_or_default();
+                        if rdim != dim {
+                            self.err(
+                                Diagnostic::new(
+                                    "dimension",
+                                    format!(
+                                        "state `{}` is in {} but its reference `{}` is in {}",
+                                        n.value, dim, r.value, rdim
+                                    ),
+                                    span,
+                                )
+                                .label("unit differs"),
+                            );
+                        }
+                    }
+                }
+            }
+            if ok {
+                let target = match (&s.reference, &s.equilibrium) {
+                    (Some(r), _) => Target::Reference(r.value.clone()),
+                    (None, None) => Target::Equilibrium(Decimal::from_f64(0.0)),
+                    (None, Some(e)) if e.value.is_finite() => Target::Equilibrium(
+                        self.literal(e).unwrap_or_else(|| Decimal::from_f64(0.0)),
+                    ),
+                    (None, Some(e)) => {
+                        let span = range_of(self.src, e);
+                        self.diags.push(Diagnostic::new(
+                            "bad-number",
+                            "the equilibrium must be finite",
+                            span,
+                        ));
+                        Target::Equilibrium(Decimal::from_f64(0.0))
+                    }
+                };
+                self.push_symbol(
+                    &n.value,
+                    &s.unit.value,
+                    dim,
+                    Decl::State {
+                        target,
+                        error: error.unwrap_or_else(placeholder),
+                    },
+                );
+            }
+        }
+        for (n, _) in &raw.references.0 {
+            if !tracked.contains(&n.value) {
+                let span = self.name_span(n);
+                self.err(
+                    Diagnostic::new(
+                        "reference-without-state",
+                        format!("reference `{}` is not tracked by any state", n.value),
+                        span,
+                    )
+                    .label("unused reference")
+                    .hint("add `reference: NAME` to the state that follows it, or remove it"),
+                );
+            }
+        }
+    }
+
+    /// Signals, inputs and uncertain quantities.
+    fn declare_signals(&mut self, raw: &RawSpec) {
+        for (n, s) in &raw.signals.0 {
+            let ok = self.declare(n, SymbolKind::Signal);
+            let dim = self.unit(&s.unit);
+            let range = self.pair(&s.range, "signal range");
+            if ok {
+                self.push_symbol(
+                    &n.value,
+                    &s.unit.value,
+                    dim,
+                    Decl::Signal {
+                        range: range.unwrap_or_else(placeholder),
+                    },
+                );
+            }
+        }
+        for (n, s) in &raw.inputs.0 {
+            let ok = self.declare(n, SymbolKind::Input);
+            let dim = self.unit(&s.unit);
+            if ok {
+                self.push_symbol(&n.value, &s.unit.value, dim, Decl::Input);
+                self.inputs.push(n.value.clone());
+            }
+        }
+        for (n, u) in &raw.uncertain.0 {
+            self.declare_uncertain(n, u);
+        }
+    }
+
+    fn declare_definitions(&mut self, raw: &RawSpec) -> Vec<String> {
+        // definitions: energies and `where` names share one namespace with the symbols; they
+        // are declared with the `Command` kind (never an input of a formula) and recognised
+        // through `defs`
+        let mut def_order = Vec::new();
+        for (n, f) in raw.energies.0.iter().chain(raw.lyapunov.where_.0.iter()) {
+            if !self.declare(n, SymbolKind::Command) {
+                continue;
+            }
+            let parsed = self.parse_formula(f);
+            let base = scalar_base(self.src, f);
+            self.defs.insert(
+                n.value.clone(),
+                Def {
+                    ast: parsed.map(|p| p.0),
+                    base,
+                    text: f.value.clone(),
+                    lowered: None,
+                },
+            );
+            def_order.push(n.value.clone());
+        }
+        def_order
+    }
+
+    fn declare_guidance(&mut self, raw: &RawSpec) -> Vec<Guidance> {
+        let mut guidance_cmds = Vec::new();
+        for (n, g) in &raw.guidance.0 {
+            if self.decl.get(&n.value).map(|d| d.0) != Some(SymbolKind::Reference) {
+                let span = self.name_span(n);
+                self.err(unknown(
+                    "unknown-symbol",
+                    &n.value,
+                    "reference",
+                    span,
+                    self.names_of(SymbolKind::Reference),
+                ));
+            }
+            if self.declare(&g.command, SymbolKind::Command) {
+                let dim = self
+                    .symbols
+                    .iter()
+                    .find(|s| s.name == n.value)
+                    .map_or(Dim::one(), |s| s.dim);
+                let unit = self
+                    .symbols
+                    .iter()
+                    .find(|s| s.name == n.value)
+                    .map_or(String::from("1"), |s| s.unit.clone());
+                self.push_symbol(&g.command.value, &unit, dim, Decl::Command);
+            }
+            if self.decl.get(&g.gain.value).map(|d| d.0) != Some(SymbolKind::Gain) {
+                let span = self.name_span(&g.gain);
+                self.err(unknown(
+                    "unknown-symbol",
+                    &g.gain.value,
+                    "gain",
+                    span,
+                    self.names_of(SymbolKind::Gain),
+                ));
+            }
+            if let Some(rl) = self.pair(&g.rate_limit, "rate limit") {
+                guidance_cmds.push(Guidance {
+                    reference: n.value.clone(),
+                    command: g.command.value.clone(),
+                    gain: g.gain.value.clone(),
+                    rate_limit: rl.nearest(),
+                });
+            }
+        }
+        guidance_cmds
+    }
+
+    /// A `[min, max]` range, each end read as the decimal it was written as.
+    pub(super) fn pair(&mut self, r: &RawRange, what: &str) -> Option<Bounds> {
+        let span = range_of(self.src, r);
+        if r.value.len() != 2 {
+            self.err(
+                Diagnostic::new(
+                    "bad-range",
+                    format!("{what} needs two numbers, [min, max]"),
+                    span,
+                )
+                .label(format!("{} number(s)", r.value.len())),
+            );
+            return None;
+        }
+        let (lo, hi) = (r.value[0].value, r.value[1].value);
+        if !lo.is_finite() || !hi.is_finite() {
+            self.err(Diagnostic::new(
+                "bad-range",
+                format!("{what} must be finite"),
+                span,
+            ));
+            return None;
+        }
+        let (dl, dh) = (self.literal(&r.value[0])?, self.literal(&r.value[1])?);
+        if dl.exact() > dh.exact() {
+            self.err(
+                Diagnostic::new(
+                    "range-order",
+                    format!("{what} [{lo}, {hi}] has min > max"),
+                    span,
+                )
+                .label("empty range")
+                .hint(format!("write [{hi}, {lo}]")),
+            );
+            return None;
+        }
+        Some(Bounds::new(dl, dh))
+    }
+
+    /// The exact decimal a (finite) number was written as: its text in the file, read
+    /// exactly. An integer in another notation (`0x10`) is its f64, exact below 2^53.
+    fn literal(&mut self, n: &Spanned<f64>) -> Option<Decimal> {
+        let span = range_of(self.src, n);
+        let text = self.src.get(span.clone()).unwrap_or("");
+        match Decimal::parse(text) {
+            Some(d) if d.value() == n.value => return Some(d),
+            _ => {}
+        }
+        if n.value.fract() == 0.0 && n.value.abs() <= 9_007_199_254_740_992.0 {
+            return Some(Decimal::binary(n.value));
+        }
+        self.err(
+            Diagnostic::new(
+                "bad-number",
+                format!("`{text}` is not a decimal number lawsmith can read exactly"),
+                span,
+            )
+            .hint("write it with digits, a decimal point and an exponent, e.g. 1.5e-3"),
+        );
+        None
+    }
+
+    fn push_symbol(&mut self, name: &str, unit: &str, dim: Dim, decl: Decl) -> usize {
+        self.symbols.push(Symbol {
+            name: name.to_string(),
+            unit: unit.to_string(),
+            dim,
+            decl,
+        });
+        self.symbols.len() - 1
+    }
+
+    /// Declares an uncertain quantity: the plant's true value of a signal or an input.
+    fn declare_uncertain(&mut self, n: &SpannedStr, u: &RawUncertain) {
+        let ok = self.declare(n, SymbolKind::Uncertain);
+        let span = self.name_span(&u.estimate);
+        let estimate = self
+            .symbols
+            .iter()
+            .find(|s| s.name == u.estimate.value)
+            .map(|s| (s.kind(), s.unit.clone(), s.dim));
+        let (unit, dim) = match estimate {
+            Some((SymbolKind::Signal | SymbolKind::Input, unit, dim)) => (unit, dim),
+            Some((k, _, _)) => {
+                self.err(
+                    Diagnostic::new(
+                        "bad-uncertain",
+                        format!(
+                            "`{}` is a {}; an uncertain quantity is the true value of a signal or an input",
+                            u.estimate.value,
+                            k.name()
+                        ),
+                        span,
+                    )
+                    .label("not a signal or input"),
+                );
+                return;
+            }
+            None => {
+                let mut names = self.names_of(SymbolKind::Signal);
+                names.extend(self.names_of(SymbolKind::Input));
+                self.err(unknown(
+                    "unknown-symbol",
+                    &u.estimate.value,
+                    "signal or input",
+                    span,
+                    names,
+                ));
+                return;
+            }
+        };
+        let (form, raw_range) = match (&u.relative, &u.absolute) {
+            (Some(r), None) => (ErrorForm::Relative, r),
+            (None, Some(a)) => (ErrorForm::Absolute, a),
+            _ => {
+                let span = self.name_span(n);
+                self.err(
+                    Diagnostic::new(
+                        "bad-uncertain",
+                        format!(
+                            "uncertain `{}` needs exactly one of `relative: [min, max]` and `absolute: [min, max]`",
+                            n.value
+                        ),
+                        span,
+                    )
+                    .hint("relative: true = estimate·(1 + error); absolute: true = estimate + error (in the estimate's unit)"),
+                );
+                return;
+            }
+        };
+        let Some(error) = self.pair(raw_range, "error range") else {
+            return;
+        };
+        let minus_one = -lawsmith_expr::BigRational::from_integer(1.into());
+        if form == ErrorForm::Relative && error.lo.exact() <= &minus_one {
+            let lo = error.lo.value();
+            let span = range_of(self.src, raw_range);
+            self.err(
+                Diagnostic::new(
+                    "bad-uncertain",
+                    format!(
+                        "a relative error of {lo} would make the true value zero or flip its sign"
+                    ),
+                    span,
+                )
+                .label("must be above -1"),
+            );
+            return;
+        }
+        if ok {
+            let estimate = u.estimate.value.clone();
+            let decl = Decl::Uncertain {
+                estimate,
+                form,
+                error,
+            };
+            self.push_symbol(&n.value, &unit, dim, decl);
+        }
+    }
+
+    /// The claim, and the required bounds of an ultimate-bound claim.
+    pub(super) fn claim(&mut self, raw: &RawSpec) -> Claim {
+        let span = range_of(self.src, &raw.lyapunov.claim);
+        let hint = "use negative_definite, negative_semidefinite, { exponential: RATE } or { ultimate_bound: auto | { STATE: BOUND, … } }";
+        let states = self.names_of(SymbolKind::State);
+        let bad = |what: String| Diagnostic::new("bad-claim", what, span.clone()).hint(hint);
+        match &raw.lyapunov.claim.value {
+            RawClaim::Named(s) if s == "negative_definite" => return Claim::NegativeDefinite,
+            RawClaim::Named(s) if s == "negative_semidefinite" => {
+                return Claim::NegativeSemidefinite
+            }
+            RawClaim::Exponential { exponential }
+                if *exponential > 0.0 && exponential.is_finite() =>
+            {
+                return Claim::Exponential(*exponential)
+            }
+            RawClaim::Named(s) => self.err(bad(format!("unknown claim `{s}`"))),
+            RawClaim::Exponential { exponential } => self.err(bad(format!(
+                "exponential rate {exponential} must be positive and finite"
+            ))),
+            RawClaim::Bound { ultimate_bound } => {
+                let required: Vec<(String, f64)> = match ultimate_bound {
+                    RawBound::Auto(s) if s == "auto" => Vec::new(),
+                    RawBound::Auto(s) => {
+                        self.err(bad(format!(
+                            "ultimate_bound takes `auto` or bounds per state error, not `{s}`"
+                        )));
+                        return Claim::UltimateBound { required: vec![] };
+                    }
+                    RawBound::List(v) => {
+                        if v.len() != states.len() {
+                            self.err(bad(format!(
+                                "ultimate_bound lists {} bounds for {} states ({})",
+                                v.len(),
+                                states.len(),
+                                states.join(", ")
+                            )));
+                            return Claim::UltimateBound { required: vec![] };
+                        }
+                        states.iter().cloned().zip(v.iter().copied()).collect()
+                    }
+                    RawBound::Map(m) => {
+                        for k in m.keys() {
+                            if !states.contains(k) {
+                                let mut d = bad(format!(
+                                    "ultimate_bound names `{k}`, which is not a state"
+                                ));
+                                if let Some(s) = nearest(k, states.iter().map(String::as_str)) {
+                                    d = d.hint(format!("did you mean `{s}`?"));
+                                }
+                                self.err(d);
+                            }
+                        }
+                        states
+                            .iter()
+                            .filter_map(|s| Some((s.clone(), *m.get(s)?)))
+                            .collect()
+                    }
+                };
+                if let Some((s, b)) = required.iter().find(|(_, b)| !(*b > 0.0 && b.is_finite())) {
+                    self.err(bad(format!(
+                        "the bound on `{s}` must be positive and finite, not {b}"
+                    )));
+                }
+                return Claim::UltimateBound { required };
+            }
+        }
+        Claim::NegativeDefinite
+    }
+}
