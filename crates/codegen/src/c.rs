@@ -47,26 +47,7 @@ impl Emit {
     }
 
     fn func(&self, f: Func) -> String {
-        let base = match f {
-            Func::Sin => "sin",
-            Func::Cos => "cos",
-            Func::Tan => "tan",
-            Func::Asin => "asin",
-            Func::Acos => "acos",
-            Func::Atan => "atan",
-            Func::Atan2 => "atan2",
-            Func::Sqrt => "sqrt",
-            Func::Exp => "exp",
-            Func::Ln => "log",
-            Func::Abs => "fabs",
-            Func::Min => "fmin",
-            Func::Max => "fmax",
-            Func::Clamp => unreachable!("lowered"),
-        };
-        match self.float {
-            Float::F32 => format!("{base}f"),
-            Float::F64 => base.to_string(),
-        }
+        crate::math_name(f, self.float)
     }
 
     /// The statements of a program (indented by `ind`) and each output's expression.
@@ -97,11 +78,7 @@ impl Emit {
                 Op::Call1(f, a) => format!("{}({})", self.func(*f), name(*a)),
                 Op::Call2(f, a, b) => format!("{}({}, {})", self.func(*f), name(*a), name(*b)),
                 Op::Pow(a, b) => {
-                    let f = if self.float == Float::F32 {
-                        "powf"
-                    } else {
-                        "pow"
-                    };
+                    let f = crate::with_float("pow", self.float);
                     format!("{f}({}, {})", name(*a), name(*b))
                 }
                 Op::Clamp(a, lo, hi) => format!(

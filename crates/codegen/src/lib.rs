@@ -46,6 +46,37 @@ pub enum Float {
     F64,
 }
 
+/// The name of a function in C's `<math.h>` and in the `libm` crate, which share their
+/// names, for this float type (`sin`, `sinf`). One table for both emitters.
+pub(crate) fn math_name(f: lawsmith_expr::Func, float: Float) -> String {
+    use lawsmith_expr::Func;
+    let base = match f {
+        Func::Sin => "sin",
+        Func::Cos => "cos",
+        Func::Tan => "tan",
+        Func::Asin => "asin",
+        Func::Acos => "acos",
+        Func::Atan => "atan",
+        Func::Atan2 => "atan2",
+        Func::Sqrt => "sqrt",
+        Func::Exp => "exp",
+        Func::Ln => "log",
+        Func::Abs => "fabs",
+        Func::Min => "fmin",
+        Func::Max => "fmax",
+        Func::Clamp => unreachable!("the IR lowers clamp to fmax and fmin"),
+    };
+    with_float(base, float)
+}
+
+/// A `<math.h>`/`libm` name in this float type: `pow`, `powf`.
+pub(crate) fn with_float(base: &str, float: Float) -> String {
+    match float {
+        Float::F32 => format!("{base}f"),
+        Float::F64 => base.to_string(),
+    }
+}
+
 /// The languages to emit.
 #[derive(Copy, Clone, Debug, PartialEq, Eq)]
 pub enum Lang {

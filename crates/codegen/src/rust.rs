@@ -49,26 +49,7 @@ impl Emit {
     }
 
     fn func(&self, f: Func) -> Ident {
-        let base = match f {
-            Func::Sin => "sin",
-            Func::Cos => "cos",
-            Func::Tan => "tan",
-            Func::Asin => "asin",
-            Func::Acos => "acos",
-            Func::Atan => "atan",
-            Func::Atan2 => "atan2",
-            Func::Sqrt => "sqrt",
-            Func::Exp => "exp",
-            Func::Ln => "log",
-            Func::Abs => "fabs",
-            Func::Min => "fmin",
-            Func::Max => "fmax",
-            Func::Clamp => unreachable!("lowered"),
-        };
-        match self.float {
-            Float::F32 => format_ident!("{}f", base),
-            Float::F64 => ident(base),
-        }
+        ident(&crate::math_name(f, self.float))
     }
 
     /// The statements of a program; `input(i)` gives the expression of input `i`. Returns the
@@ -122,10 +103,7 @@ impl Emit {
                     quote!(libm::#f(#a, #b))
                 }
                 Op::Pow(a, b) => {
-                    let f = match self.float {
-                        Float::F32 => ident("powf"),
-                        Float::F64 => ident("pow"),
-                    };
+                    let f = ident(&crate::with_float("pow", self.float));
                     let (a, b) = (name(*a), name(*b));
                     quote!(libm::#f(#a, #b))
                 }

@@ -34,6 +34,7 @@
 //! ```
 #![deny(missing_docs)]
 
+pub mod derivation;
 mod derive;
 mod diag;
 mod load;

@@ -149,11 +149,6 @@ impl<'a> PointSet<'a> {
         self.samples + self.corners + self.near * SHRINKS.len()
     }
 
-    /// True when there is no point.
-    pub fn is_empty(&self) -> bool {
-        self.len() == 0
-    }
-
     /// Writes points `start .. start + n` column by column: coordinate `k` of point `j` goes
     /// to `cols[k * n + j]`.
     pub fn columns_into(&self, start: usize, n: usize, cols: &mut [f64], row: &mut [f64]) {

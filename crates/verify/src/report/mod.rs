@@ -1,4 +1,7 @@
-//! Rendering of a check report: readable text and JSON.
+//! Rendering of a check report: readable text and JSON; and of the margin curve
+//! ([`margin`]).
+
+pub mod margin;
 
 use crate::bound::{BoundOutcome, BoundReport};
 use crate::check::{CheckReport, GoalKind, GoalResult, Status};
