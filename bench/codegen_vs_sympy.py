@@ -8,9 +8,10 @@ lawsmith's count covers the law section of `NAME_step` (between its `the law` an
 `saturation` comments), not the envelope guards and saturation, which SymPy does not produce;
 its `asin` argument clamp is counted. Goal: ratio <= 1.0.
 
-Usage: python3 bench/codegen_vs_sympy.py [SPEC ...]   (default: every spec in specs/)
+Usage: python3 bench/codegen_vs_sympy.py [SPEC ...] [--bin LAWSMITH]   (default: every spec in specs/)
 """
 
+import argparse
 import glob
 import os
 import re
@@ -94,9 +95,15 @@ def sympys(spec_path):
 
 
 def main():
-    specs = sys.argv[1:] or sorted(glob.glob(os.path.join(HERE, "..", "specs", "*.yaml")))
-    binary = os.path.join(HERE, "..", "target", "release", "lawsmith")
-    subprocess.run(["cargo", "build", "--release", "-q"], check=True)
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("specs", nargs="*")
+    ap.add_argument("--bin", help="the lawsmith binary (default: build target/release/lawsmith)")
+    args = ap.parse_args()
+    specs = args.specs or sorted(glob.glob(os.path.join(HERE, "..", "specs", "*.yaml")))
+    binary = args.bin
+    if binary is None:
+        subprocess.run(["cargo", "build", "--release", "-q"], check=True)
+        binary = os.path.join(HERE, "..", "target", "release", "lawsmith")
     print(f"{'spec':<24} {'lawsmith':>9} {'sympy cse':>10} {'ratio':>6}")
     worst = 0.0
     for s in specs:

@@ -7,9 +7,10 @@ with some outside it), and measured with `valgrind --tool=callgrind`, counting o
 the step function (`--toggle-collect`). Instruction counts repeat exactly for the same binary
 and inputs. Goal: ratio <= 1.0.
 
-Usage: python3 bench/step_instructions.py
+Usage: python3 bench/step_instructions.py [--bin LAWSMITH] [--steps N]
 """
 
+import argparse
 import os
 import random
 import re
@@ -68,8 +69,16 @@ def instructions(exe, fn, tmp):
 
 
 def main():
-    subprocess.run(["cargo", "build", "--release", "-q"], check=True, cwd=ROOT)
-    binary = os.path.join(ROOT, "target", "release", "lawsmith")
+    global STEPS
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--bin", help="the lawsmith binary (default: build target/release/lawsmith)")
+    ap.add_argument("--steps", type=int, default=STEPS, help="steps measured")
+    args = ap.parse_args()
+    STEPS = args.steps
+    binary = args.bin
+    if binary is None:
+        subprocess.run(["cargo", "build", "--release", "-q"], check=True, cwd=ROOT)
+        binary = os.path.join(ROOT, "target", "release", "lawsmith")
     with tempfile.TemporaryDirectory() as tmp:
         subprocess.run([binary, "emit", os.path.join(ROOT, "specs", "energy_longitudinal.yaml"),
                         "--lang", "c", "--out", tmp], check=True, capture_output=True)

@@ -150,9 +150,9 @@ pub fn build_cmd(
         }
     }
     for (dir, files) in &pending {
-        if let Err(msg) = write_files(dir, files) {
-            eprintln!("error[io]: {msg}");
-            code = EXIT_INVALID;
+        if let Err((c, msg)) = write_files(dir, files) {
+            eprintln!("{msg}");
+            code = code.max(c);
         }
     }
     if !notes.is_empty() {

@@ -1,6 +1,34 @@
 //! The `lawsmith` command line: parses arguments, reads files, dispatches to the library
 //! crates, prints, and maps outcomes to exit codes. No derivation or proof logic lives here.
 
+// Printing never panics: when the reader of a pipe goes away (`lawsmith check … | head -1`),
+// the rest of the output is dropped and the command still ends with its own exit code. These
+// shadow the standard macros for every module declared below.
+macro_rules! println {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        let _ = writeln!(std::io::stdout(), $($t)*);
+    }};
+}
+macro_rules! print {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        let _ = write!(std::io::stdout(), $($t)*);
+    }};
+}
+macro_rules! eprintln {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        let _ = writeln!(std::io::stderr(), $($t)*);
+    }};
+}
+macro_rules! eprint {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        let _ = write!(std::io::stderr(), $($t)*);
+    }};
+}
+
 mod build_cmd;
 mod certcheck_run;
 mod check_cmd;
@@ -18,6 +46,15 @@ use std::process::ExitCode;
 
 /// Exit code for a spec that cannot be read or is invalid.
 const EXIT_INVALID: u8 = 3;
+
+/// Exit code for a request refused to keep the user's files safe, or one the command cannot
+/// serve: an output directory inside `specs/` or holding files lawsmith did not write, a file
+/// `new` or `emit` would overwrite, a spec the simulator cannot fly.
+const EXIT_REFUSED: u8 = 4;
+
+/// The file lawsmith keeps in an output directory outside the working directory: the names of
+/// the files it wrote there, one per line, so that it may write there again and nothing else.
+const MANIFEST: &str = ".lawsmith";
 
 #[derive(Parser)]
 #[command(
@@ -411,17 +448,11 @@ fn dispatch(command: Command) -> ExitCode {
     }
 }
 
-/// Refuses an output directory inside `specs/` (where the user's specs live) or outside the
-/// working directory, unless `force`: a mistyped `--out` must not scatter or overwrite files.
-fn out_dir_allowed(out: &Path, force: bool) -> Result<(), u8> {
-    if force {
-        return Ok(());
-    }
-    let Ok(cwd) = std::env::current_dir().and_then(|d| d.canonicalize()) else {
-        return Ok(());
-    };
-    // the nearest existing ancestor, resolved, plus what does not exist yet
-    let joined = cwd.join(out);
+/// `path` made absolute and resolved through its nearest existing ancestor (the rest may not
+/// exist yet).
+fn resolved(path: &Path) -> Option<PathBuf> {
+    let cwd = std::env::current_dir().ok()?.canonicalize().ok()?;
+    let joined = cwd.join(path);
     let mut existing = joined.as_path();
     let mut rest = Vec::new();
     while !existing.exists() {
@@ -433,27 +464,89 @@ fn out_dir_allowed(out: &Path, force: bool) -> Result<(), u8> {
             _ => break,
         }
     }
-    let mut resolved = existing
+    let mut out = existing
         .canonicalize()
         .unwrap_or_else(|_| existing.to_path_buf());
     for n in rest.iter().rev() {
-        resolved.push(n);
+        out.push(n);
     }
-    let problem = if !resolved.starts_with(&cwd) {
-        Some("is outside the working directory")
-    } else if resolved.starts_with(cwd.join("specs")) {
-        Some("is inside specs/, where the specs live")
-    } else {
+    Some(out)
+}
+
+/// True when `path` lies outside the working directory.
+fn outside_cwd(path: &Path) -> bool {
+    let cwd = std::env::current_dir().and_then(|d| d.canonicalize());
+    match (cwd, resolved(path)) {
+        (Ok(c), Some(p)) => !p.starts_with(c),
+        _ => false,
+    }
+}
+
+/// The first file under `dir` that lawsmith did not write: neither listed in its directory's
+/// manifest nor carrying the marker line of generated code.
+fn foreign_file(dir: &Path) -> Option<PathBuf> {
+    let listed: Vec<String> = std::fs::read_to_string(dir.join(MANIFEST))
+        .map(|t| t.lines().map(str::to_string).collect())
+        .unwrap_or_default();
+    for e in std::fs::read_dir(dir).ok()?.flatten() {
+        let p = e.path();
+        let name = e.file_name().to_string_lossy().to_string();
+        if p.is_dir() {
+            if let Some(f) = foreign_file(&p) {
+                return Some(f);
+            }
+            continue;
+        }
+        let marked = || {
+            std::fs::read_to_string(&p).is_ok_and(|t| {
+                t.lines()
+                    .take(3)
+                    .any(|l| l.contains(lawsmith_codegen::MARKER))
+            })
+        };
+        if name != MANIFEST && !listed.contains(&name) && !marked() {
+            return Some(p);
+        }
+    }
+    None
+}
+
+/// May lawsmith write into the output directory `out`? Not inside `specs/` (where the user's
+/// specs live); and outside the working directory only where it would not mix with the
+/// user's own files: a directory that does not exist yet, is empty, or holds only files
+/// lawsmith wrote. `force` allows anything.
+fn out_dir_allowed(out: &Path, force: bool) -> Result<(), u8> {
+    let (Ok(cwd), Some(target)) = (
+        std::env::current_dir().and_then(|d| d.canonicalize()),
+        resolved(out),
+    ) else {
+        return Ok(());
+    };
+    if force {
+        return Ok(());
+    }
+    let problem = if target.starts_with(cwd.join("specs")) {
+        Some("is inside specs/, where the specs live".to_string())
+    } else if target.starts_with(&cwd) || !target.exists() {
         None
+    } else if !target.is_dir() {
+        Some("is a file, not a directory".to_string())
+    } else {
+        foreign_file(&target).map(|f| {
+            format!(
+                "holds {}, which lawsmith did not write (outputs would mix with your files)",
+                f.display()
+            )
+        })
     };
     match problem {
         None => Ok(()),
         Some(why) => {
             eprintln!(
-                "error[out-path]: {} {why}; pass --force to write there anyway",
+                "error[out-path]: {} {why}; choose a new or empty directory, or pass --force to write there anyway",
                 out.display()
             );
-            Err(EXIT_INVALID)
+            Err(EXIT_REFUSED)
         }
     }
 }
@@ -586,6 +679,17 @@ fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     })();
     if result.is_err() {
         let _ = std::fs::remove_file(&tmp);
+        return result;
     }
-    result
+    if outside_cwd(path) {
+        // so that a later run may write here again (see `out_dir_allowed`)
+        let manifest = dir.join(MANIFEST);
+        let mut listed = std::fs::read_to_string(&manifest).unwrap_or_default();
+        if !listed.lines().any(|l| l == name) {
+            listed.push_str(&name);
+            listed.push('\n');
+            std::fs::write(&manifest, listed)?;
+        }
+    }
+    Ok(())
 }

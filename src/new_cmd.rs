@@ -1,7 +1,7 @@
 //! `lawsmith new NAME`: a commented starter spec that loads, proves and emits as written, to
 //! be edited into the law the user wants.
 
-use crate::{write_atomic, ReportFormat, EXIT_INVALID};
+use crate::{write_atomic, ReportFormat, EXIT_INVALID, EXIT_REFUSED};
 use std::path::Path;
 use std::process::ExitCode;
 
@@ -92,7 +92,7 @@ pub fn new_cmd(name: &str, dir: &Path, force: bool, format: ReportFormat) -> Exi
             "error[exists]: {} exists; pass --force to overwrite it",
             path.display()
         );
-        return ExitCode::from(EXIT_INVALID);
+        return ExitCode::from(EXIT_REFUSED);
     }
     if let Err(e) =
         std::fs::create_dir_all(dir).and_then(|_| write_atomic(&path, starter(name).as_bytes()))

@@ -2,11 +2,11 @@
 //! metrics.
 
 use crate::progress::Progress;
-use crate::{read_spec, write_atomic, ReportFormat, EXIT_INVALID};
+use crate::{read_spec, write_atomic, ReportFormat, EXIT_INVALID, EXIT_REFUSED};
 use lawsmith_sim::bounded::{cross_check, BoundCheck};
 use lawsmith_sim::montecarlo::campaign;
 use lawsmith_sim::output::{csv, json, plots, table, ScenarioRun};
-use lawsmith_sim::run::{Setup, PILOTS};
+use lawsmith_sim::run::{Setup, SetupError, PILOTS};
 use lawsmith_sim::scenario::Scenario;
 use lawsmith_spec::{Claim, Spec};
 use lawsmith_verify::{check, BoundReport, Settings, Verdict};
@@ -27,9 +27,15 @@ pub fn load_setup(path: &Path) -> Result<(Setup, Spec), u8> {
     })?;
     let spec_path = path.parent().unwrap_or(Path::new(".")).join(&scenario.spec);
     let loaded = read_spec(&spec_path).ok_or(EXIT_INVALID)?;
-    let setup = Setup::new(scenario, &loaded.spec).map_err(|e| {
-        eprintln!("error[scenario]: {}: {e}", path.display());
-        EXIT_INVALID
+    let setup = Setup::new(scenario, &loaded.spec).map_err(|e| match e {
+        SetupError::Invalid(m) => {
+            eprintln!("error[scenario]: {}: {m}", path.display());
+            EXIT_INVALID
+        }
+        SetupError::Unsupported(m) => {
+            eprintln!("error[unsupported]: {}: {m}", path.display());
+            EXIT_REFUSED
+        }
     })?;
     Ok((setup, loaded.spec))
 }

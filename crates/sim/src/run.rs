@@ -34,10 +34,28 @@ pub struct Variant {
     pub perturbation: Perturbation,
 }
 
+/// Why a scenario cannot be set up.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub enum SetupError {
+    /// The scenario contradicts its spec (a gain it does not declare, gains outside the
+    /// proved set).
+    Invalid(String),
+    /// The simulator cannot fly this spec (its states are not the airframe's).
+    Unsupported(String),
+}
+
+impl std::fmt::Display for SetupError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            SetupError::Invalid(m) | SetupError::Unsupported(m) => f.write_str(m),
+        }
+    }
+}
+
 impl Setup {
     /// Prepares a scenario flying the law of `spec` on the demo airframe.
-    pub fn new(scenario: Scenario, spec: &lawsmith_spec::Spec) -> Result<Setup, String> {
-        let law = Controller::new(spec).map_err(|e| e.0)?;
+    pub fn new(scenario: Scenario, spec: &lawsmith_spec::Spec) -> Result<Setup, SetupError> {
+        let law = Controller::new(spec).map_err(|e| SetupError::Unsupported(e.0))?;
         let mut gains: Vec<f64> = law.gains.iter().map(|g| g.default).collect();
         for (name, v) in &scenario.gains {
             let i = law
@@ -45,15 +63,22 @@ impl Setup {
                 .iter()
                 .position(|g| &g.name == name)
                 .ok_or_else(|| {
-                    format!("the scenario sets gain `{name}`, which the spec does not declare")
+                    SetupError::Invalid(format!(
+                        "the scenario sets gain `{name}`, which the spec does not declare"
+                    ))
                 })?;
             gains[i] = *v;
         }
         if !law.gains_valid(&gains) {
-            return Err("the scenario's gains leave the spec's proved gain set".into());
+            return Err(SetupError::Invalid(
+                "the scenario's gains leave the spec's proved gain set".into(),
+            ));
         }
-        crate::fly::proved_box(&law)
-            .ok_or("the spec must have states `h` and `va` for the simulation")?;
+        crate::fly::proved_box(&law).ok_or_else(|| {
+            SetupError::Unsupported(
+                "the spec must have states `h` and `va` for the simulation".into(),
+            )
+        })?;
         Ok(Setup {
             scenario,
             law,

@@ -2,7 +2,8 @@
 //! per-run time. `bench/derive_vs_sympy.py` runs this and SymPy's derivation of the same spec
 //! in the same session and prints the ratio.
 //!
-//! Usage: cargo bench --bench derive -- [SPEC] [RUNS]
+//! Usage: cargo bench -p lawsmith-spec --bench derive -- [SPEC] [RUNS] (the spec's path is
+//! read from the package directory, `crates/spec`, so give it absolute).
 
 use std::time::Instant;
 
