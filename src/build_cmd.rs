@@ -17,6 +17,10 @@ use std::path::{Path, PathBuf};
 /// Exit code when the independent checker rejects a certificate: as for an unproven law.
 const EXIT_REJECTED: u8 = 1;
 
+/// Dispersed runs of every scenario the report summarises by percentiles, and their seed.
+const REPORT_RUNS: usize = 200;
+const REPORT_SEED: u64 = 3;
+
 /// Dispersed runs of each scenario whose spec claims an ultimate bound, and their seed.
 pub const BOUND_RUNS: usize = 1000;
 const BOUND_SEED: u64 = 1;
@@ -125,7 +129,7 @@ pub fn build_cmd(
                     e.report.boxes,
                     e.report
                         .min_margin
-                        .map_or("-".into(), |m| format!("{m:.4e}")),
+                        .map_or("-".into(), |m| format!("{:.4e}", m + 0.0)),
                     e.controller.op_count(),
                     sat.join(", "),
                     checked.name(),
@@ -142,7 +146,7 @@ pub fn build_cmd(
                     ),
                     e.report
                         .min_margin
-                        .map_or("-".into(), |m| format!("{m:.4e}")),
+                        .map_or("-".into(), |m| format!("{:.4e}", m + 0.0)),
                     e.controller.op_count().to_string(),
                     written,
                 ]);
@@ -204,6 +208,22 @@ pub fn build_cmd(
                     "\nPlots: {}\n\n![altitude]({stem}/altitude.svg)",
                     links.join(" · ")
                 );
+                // the scenario dispersed: what one nominal flight does not show
+                match lawsmith_sim::montecarlo::campaign(&setup, REPORT_RUNS, REPORT_SEED) {
+                    Ok(c) => {
+                        let _ = write!(
+                            md,
+                            "\n{} runs with the scenario's dispersions (seed {REPORT_SEED}; `lawsmith sim {} --runs {REPORT_RUNS} --seed {REPORT_SEED}`):\n\n{}",
+                            c.runs,
+                            sc.display(),
+                            c.markdown()
+                        );
+                    }
+                    Err(e) => {
+                        eprintln!("error[sim]: {}: {e}", sc.display());
+                        code = EXIT_INVALID;
+                    }
+                }
                 let spec_file = sc
                     .parent()
                     .unwrap_or(Path::new("."))

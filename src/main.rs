@@ -234,8 +234,13 @@ enum Command {
         #[arg(long, value_enum, default_value_t = ReportFormat::Text)]
         format: ReportFormat,
     },
-    /// Print the JSON Schema of the spec format (committed as schema/spec.schema.json).
-    Schema,
+    /// Print the JSON Schema of the spec format (committed as schema/spec.schema.json), or of
+    /// the scenario format with --scenario (schema/scenario.schema.json).
+    Schema {
+        /// The scenario format instead of the spec format.
+        #[arg(long)]
+        scenario: bool,
+    },
     /// Print a shell completion script (bash, zsh, fish, elvish, powershell) to stdout.
     Completions {
         /// The shell.
@@ -332,8 +337,13 @@ fn dispatch(command: Command) -> ExitCode {
             force,
             format,
         } => new_cmd::new_cmd(&name, &dir, force, format),
-        Command::Schema => {
-            let text = serde_json::to_string_pretty(&lawsmith_spec::json_schema()).expect("json");
+        Command::Schema { scenario } => {
+            let schema = if scenario {
+                lawsmith_sim::scenario::json_schema()
+            } else {
+                lawsmith_spec::json_schema()
+            };
+            let text = serde_json::to_string_pretty(&schema).expect("json");
             println!("{text}");
             ExitCode::SUCCESS
         }

@@ -160,7 +160,7 @@ fn emit_refuses_reserved_words_unproven_laws_and_foreign_files() {
     let mine = dir.join("energy_pitch.h");
     std::fs::write(&mine, "/* my own header */\n").unwrap();
     let out = lawsmith(&["emit", "specs/energy_pitch.yaml", "--out", d, "--force"]);
-    assert_eq!(out.status.code(), Some(3));
+    assert_eq!(out.status.code(), Some(4), "a refusal");
     assert!(String::from_utf8_lossy(&out.stderr).contains("not overwriting"));
     assert_eq!(
         std::fs::read_to_string(&mine).unwrap(),
@@ -218,7 +218,7 @@ fn sim_writes_series_plots_and_the_metrics() {
         let m = &v["controllers"][c];
         assert!(m["altitude_overshoot"].is_number(), "{c}: {m}");
         assert!(
-            m["peak_airspeed_deviation_in_climb"].is_number(),
+            m["peak_airspeed_deviation_in_altitude_change"].is_number(),
             "{c}: {m}"
         );
         // no airspeed step in this scenario: undefined, not zero

@@ -92,3 +92,43 @@ fn a_general_purpose_validator_accepts_every_spec_and_rejects_schema_errors() {
     println!("{valid} specs valid, {rejected} schema errors rejected");
     assert!(valid >= 10 && rejected == SCHEMA_ERRORS.len());
 }
+
+#[test]
+fn the_scenario_schema_is_current_and_accepts_every_scenario() {
+    let out = Command::new(env!("CARGO_BIN_EXE_lawsmith"))
+        .args(["schema", "--scenario"])
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let committed = std::fs::read(root().join("schema/scenario.schema.json")).unwrap();
+    assert!(
+        committed == out.stdout,
+        "schema/scenario.schema.json is stale: run `lawsmith schema --scenario > schema/scenario.schema.json`"
+    );
+    let scenarios = yaml_in("specs/scenarios");
+    let bad =
+        std::env::temp_dir().join(format!("lawsmith-bad-scenario-{}.yaml", std::process::id()));
+    std::fs::write(
+        &bad,
+        "name: x\nspec: a.yaml\nduration: 10\ninitial: { h: 100, va: 20 }\nwinds: {}\n",
+    )
+    .unwrap();
+    let out = Command::new("python3")
+        .arg(root().join("tests/python/validate_schema.py"))
+        .arg(root().join("schema/scenario.schema.json"))
+        .args(&scenarios)
+        .arg(&bad)
+        .output()
+        .expect("python3 with jsonschema and pyyaml");
+    let text = String::from_utf8_lossy(&out.stdout).to_string();
+    for s in &scenarios {
+        let line = format!("valid {}", s.display());
+        assert!(text.lines().any(|l| l == line), "{text}");
+    }
+    let line = format!("invalid {}:", bad.display());
+    assert!(
+        text.lines().any(|l| l.starts_with(&line)),
+        "an unknown key: {text}"
+    );
+    std::fs::remove_file(&bad).unwrap();
+}

@@ -259,20 +259,20 @@ fn latex(dag: &Dag, id: ExprId, out: &mut String) {
         }
         Node::Add(xs) => {
             for (i, &x) in xs.iter().enumerate() {
-                match dag.node(x) {
-                    Node::Neg(inner) if i > 0 => {
+                let mut term = String::new();
+                latex_wrap(dag, x, prec(dag, x) <= P_ADD, &mut term);
+                // a term that prints with a leading minus (a negation, a negative number, a
+                // product whose first factor is one) is subtracted: `a - b`, not `a + -b`
+                match term.strip_prefix('-') {
+                    Some(rest) if i > 0 => {
                         out.push_str(" - ");
-                        latex_wrap(dag, *inner, prec(dag, *inner) <= P_ADD, out);
-                    }
-                    Node::Num(v) if i > 0 && v.is_negative() => {
-                        out.push_str(" - ");
-                        out.push_str(&num_text(&-v.clone()));
+                        out.push_str(rest);
                     }
                     _ => {
                         if i > 0 {
                             out.push_str(" + ");
                         }
-                        latex_wrap(dag, x, prec(dag, x) <= P_ADD, out);
+                        out.push_str(&term);
                     }
                 }
             }

@@ -48,8 +48,10 @@ pub struct Sample {
     pub balance_error: f64,
     /// The energy law raised its domain flag.
     pub domain: bool,
-    /// An actuator command is at its limit.
-    pub saturated: bool,
+    /// The elevator command is at its limit.
+    pub elevator_saturated: bool,
+    /// The throttle command is at 0 or 1.
+    pub throttle_saturated: bool,
     /// The state error is outside the spec's proved error box.
     pub outside_box: bool,
 }
@@ -169,9 +171,8 @@ pub fn fly(
             uw: (s.u, s.w),
         };
         let (c, notes): (Controls, _) = pilot.step(&m, &r, dtc);
-        let saturated = c.elevator.abs() >= truth.elevator_limit - 1e-12
-            || c.throttle <= 0.0
-            || c.throttle >= 1.0;
+        let elevator_saturated = c.elevator.abs() >= truth.elevator_limit - 1e-12;
+        let throttle_saturated = c.throttle <= 0.0 || c.throttle >= 1.0;
         let ek = (r.va * r.va - air.airspeed * air.airspeed) / (2.0 * G0);
         let outside_box = boxes.is_some_and(|((hl, hh), (vl, vh))| {
             let (eh, ev) = (s.h - r.h, air.airspeed - r.va);
@@ -195,7 +196,8 @@ pub fn fly(
             energy_error: (r.h - s.h) + ek,
             balance_error: (r.h - s.h) - ek,
             domain: notes.domain,
-            saturated,
+            elevator_saturated,
+            throttle_saturated,
             outside_box,
         });
         if k == steps {
@@ -229,24 +231,68 @@ pub fn fly(
     }
 }
 
-/// The names of the metrics, in report order, with their units. The airspeed deviation in a
-/// climb is from the guidance reference (what the controller is asked to fly then), over each
-/// altitude step until it settles; overshoot and settling (5% band) are per step of the
-/// command, the worst step reported.
-pub const METRICS: [(&str, &str); 12] = [
-    ("peak_airspeed_deviation_in_climb", "m/s"),
-    ("altitude_overshoot", "%"),
-    ("altitude_settling_time", "s"),
-    ("airspeed_overshoot", "%"),
-    ("airspeed_settling_time", "s"),
-    ("energy_error_rms", "m"),
-    ("balance_error_rms", "m"),
-    ("elevator_rate_rms", "rad/s"),
-    ("throttle_rate_rms", "1/s"),
-    ("time_in_saturation", "s"),
-    ("time_outside_proved_box", "s"),
-    ("first_exit_from_proved_box", "s"),
+/// The metrics, in report order: key (as in JSON), unit, and what the table calls it. The
+/// airspeed deviation during an altitude change is from the guidance reference (what the
+/// controller is asked to fly then), over each altitude step until it settles. Overshoot is
+/// the first peak beyond the commanded value after the response first reaches it (a later
+/// excursion, a gust's, is not an overshoot); settling is into 5% of the step and staying
+/// there; both per step of the command, the worst step reported.
+pub const METRICS: [(&str, &str, &str); 14] = [
+    (
+        "peak_airspeed_deviation_in_altitude_change",
+        "m/s",
+        "peak airspeed deviation during an altitude change",
+    ),
+    ("altitude_overshoot", "%", "altitude overshoot, first peak"),
+    (
+        "altitude_settling_time",
+        "s",
+        "altitude settling time, to 5% of the step",
+    ),
+    ("airspeed_overshoot", "%", "airspeed overshoot, first peak"),
+    (
+        "airspeed_settling_time",
+        "s",
+        "airspeed settling time, to 5% of the step",
+    ),
+    ("energy_error_rms", "m", "energy error rms"),
+    ("balance_error_rms", "m", "balance error rms"),
+    ("elevator_rate_rms", "rad/s", "elevator rate rms"),
+    ("throttle_rate_rms", "1/s", "throttle rate rms"),
+    (
+        "time_in_saturation",
+        "s",
+        "time with an actuator at its limit",
+    ),
+    (
+        "time_elevator_saturated",
+        "s",
+        "time with the elevator at its limit",
+    ),
+    (
+        "time_throttle_saturated",
+        "s",
+        "time with the throttle at 0 or 1",
+    ),
+    (
+        "time_outside_proved_box",
+        "s",
+        "time outside the proved box",
+    ),
+    (
+        "first_exit_from_proved_box",
+        "s",
+        "first exit from the proved box",
+    ),
 ];
+
+/// The table label of a metric, with its unit: `energy error rms (m)`.
+pub fn metric_label(key: &str) -> String {
+    METRICS.iter().find(|m| m.0 == key).map_or_else(
+        || key.replace('_', " "),
+        |(_, unit, label)| format!("{label} ({unit})"),
+    )
+}
 
 /// Settling band: 5% of the step.
 const BAND: f64 = 0.05;
@@ -268,11 +314,17 @@ fn step_response(
                 let before = command(&samples[s0 - 1]);
                 let step = target - before;
                 let seg = &samples[s0..i];
-                let over = seg
-                    .iter()
-                    .map(|x| (value(x) - target) * step.signum())
-                    .fold(0.0f64, f64::max)
-                    / step.abs()
+                // the first peak: from the first sample at or past the target to the next
+                // one back on the near side
+                let beyond = |x: &Sample| (value(x) - target) * step.signum();
+                let first = seg.iter().position(|x| beyond(x) >= 0.0);
+                let over = first.map_or(0.0, |k| {
+                    seg[k..]
+                        .iter()
+                        .map(beyond)
+                        .take_while(|&b| b >= 0.0)
+                        .fold(0.0f64, f64::max)
+                }) / step.abs()
                     * 100.0;
                 let last_out = seg
                     .iter()
@@ -343,7 +395,7 @@ pub fn metrics(f: &Flight) -> BTreeMap<String, f64> {
             })
             .fold(0.0, f64::max)
     };
-    m.insert("peak_airspeed_deviation_in_climb".into(), peak_dv);
+    m.insert("peak_airspeed_deviation_in_altitude_change".into(), peak_dv);
     m.insert("altitude_overshoot".into(), worst(&alt, |e| e.0));
     m.insert("altitude_settling_time".into(), worst(&alt, |e| e.1));
     m.insert("airspeed_overshoot".into(), worst(&spd, |e| e.0));
@@ -360,7 +412,18 @@ pub fn metrics(f: &Flight) -> BTreeMap<String, f64> {
     m.insert("elevator_rate_rms".into(), rate(|x| x.elevator));
     m.insert("throttle_rate_rms".into(), rate(|x| x.throttle));
     let count = |p: fn(&Sample) -> bool| s.iter().filter(|x| p(x)).count() as f64 * dtc;
-    m.insert("time_in_saturation".into(), count(|x| x.saturated));
+    m.insert(
+        "time_in_saturation".into(),
+        count(|x| x.elevator_saturated || x.throttle_saturated),
+    );
+    m.insert(
+        "time_elevator_saturated".into(),
+        count(|x| x.elevator_saturated),
+    );
+    m.insert(
+        "time_throttle_saturated".into(),
+        count(|x| x.throttle_saturated),
+    );
     m.insert("time_outside_proved_box".into(), count(|x| x.outside_box));
     m.insert(
         "first_exit_from_proved_box".into(),

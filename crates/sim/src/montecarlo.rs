@@ -2,7 +2,7 @@
 //! turbulence seed), flown in parallel, summarised by percentiles and histograms.
 
 use crate::fly::Perturbation;
-use crate::fly::{metrics, METRICS};
+use crate::fly::{metric_label, metrics, METRICS};
 use crate::plot::histogram;
 use crate::run::{Setup, Variant, PILOTS};
 use crate::turbulence::Noise;
@@ -110,9 +110,9 @@ impl Campaign {
             "{} runs of {} (seed {}); per controller p5 / p50 / p95 / max\n",
             self.runs, self.scenario, self.seed
         );
-        for (name, unit) in METRICS {
-            let _ = writeln!(s, "{} ({unit})", name.replace('_', " "));
-            for (pilot, m) in &self.values {
+        for (name, _, _) in METRICS {
+            let _ = writeln!(s, "{}", metric_label(name));
+            for (pilot, m) in self.in_order() {
                 let v = m.get(name).map(Vec::as_slice).unwrap_or(&[]);
                 let cells: Vec<String> = PERCENTILES
                     .iter()
@@ -137,13 +137,64 @@ impl Campaign {
         s
     }
 
-    /// `{"scenario", "runs", "seed", "controllers": {name: {metric: {p5, p50, p95, max}}}}`.
+    /// The summary as a Markdown table: per metric and controller, p50 / p95 / max, and how
+    /// many runs define the metric where not all do.
+    pub fn markdown(&self) -> String {
+        let pilots: Vec<&str> = self.in_order().map(|(p, _)| p).collect();
+        let mut s = format!(
+            "| metric | {} |\n|---|{}\n",
+            pilots
+                .iter()
+                .map(|p| format!("{p} p50 / p95 / max"))
+                .collect::<Vec<_>>()
+                .join(" | "),
+            "---:|".repeat(pilots.len())
+        );
+        for (name, _, _) in METRICS {
+            let mut row = vec![metric_label(name)];
+            for (_, m) in self.in_order() {
+                let v = m.get(name).map(Vec::as_slice).unwrap_or(&[]);
+                let defined = v.iter().filter(|x| x.is_finite()).count();
+                let cell = if defined == 0 {
+                    "-".to_string()
+                } else {
+                    let q: Vec<String> = [50.0, 95.0, 100.0]
+                        .iter()
+                        .map(|p| format!("{:.3}", percentile(v, *p)))
+                        .collect();
+                    q.join(" / ")
+                };
+                row.push(if defined > 0 && defined < v.len() {
+                    format!("{cell} ({defined} of {} runs)", v.len())
+                } else {
+                    cell
+                });
+            }
+            s.push_str(&format!("| {} |\n", row.join(" | ")));
+        }
+        s
+    }
+
+    /// The controllers in the order of the nominal tables (energy, pid, lqr).
+    pub fn in_order(&self) -> impl Iterator<Item = (&str, &BTreeMap<String, Vec<f64>>)> {
+        PILOTS
+            .iter()
+            .filter_map(|p| self.values.get(*p).map(|m| (*p, m)))
+    }
+
+    /// `{"scenario", "runs", "seed", "controllers": {name: {metric: {p5, p50, p95, max,
+    /// defined}}}}`, `defined` the runs where the metric is defined (a step metric is not,
+    /// in a run whose step never settles).
     pub fn json(&self) -> Value {
         let mut controllers = Map::new();
-        for (pilot, m) in &self.values {
+        for (pilot, m) in self.in_order() {
             let mut o = Map::new();
             for (k, v) in m {
                 let mut q = Map::new();
+                q.insert(
+                    "defined".into(),
+                    json!(v.iter().filter(|x| x.is_finite()).count()),
+                );
                 for (p, name) in PERCENTILES {
                     let x = percentile(v, p);
                     q.insert(
@@ -153,7 +204,7 @@ impl Campaign {
                 }
                 o.insert(k.clone(), Value::Object(q));
             }
-            controllers.insert(pilot.clone(), Value::Object(o));
+            controllers.insert(pilot.to_string(), Value::Object(o));
         }
         json!({"scenario": self.scenario, "runs": self.runs, "seed": self.seed, "controllers": controllers})
     }
@@ -161,16 +212,15 @@ impl Campaign {
     /// Histograms of the headline metrics: (file name, SVG).
     pub fn histograms(&self) -> Vec<(String, String)> {
         [
-            "peak_airspeed_deviation_in_climb",
+            "peak_airspeed_deviation_in_altitude_change",
             "altitude_overshoot",
             "energy_error_rms",
         ]
         .iter()
         .map(|metric| {
             let samples: Vec<(String, Vec<f64>)> = self
-                .values
-                .iter()
-                .map(|(p, m)| (p.clone(), m.get(*metric).cloned().unwrap_or_default()))
+                .in_order()
+                .map(|(p, m)| (p.to_string(), m.get(*metric).cloned().unwrap_or_default()))
                 .collect();
             let unit = METRICS.iter().find(|m| m.0 == *metric).map_or("", |m| m.1);
             (
@@ -179,7 +229,7 @@ impl Campaign {
                     &format!(
                         "{}: {} over {} runs",
                         self.scenario,
-                        metric.replace('_', " "),
+                        METRICS.iter().find(|m| m.0 == *metric).map_or("", |m| m.2),
                         self.runs
                     ),
                     unit,

@@ -1,7 +1,7 @@
 //! What a scenario run produces: CSV time series, SVG plots, the side-by-side metrics table
 //! (text and Markdown) and JSON.
 
-use crate::fly::{metrics, Flight, METRICS};
+use crate::fly::{metric_label, metrics, Flight, METRICS};
 use crate::plot::{lines, Series};
 use serde_json::{json, Map, Value};
 use std::collections::BTreeMap;
@@ -38,15 +38,16 @@ impl ScenarioRun {
 /// The time series of a flight as CSV (SI units; angles in rad).
 pub fn csv(f: &Flight) -> String {
     let mut s = String::from(
-        "t,h,va,theta,q,alpha,elevator,throttle,elevator_cmd,throttle_cmd,h_cmd,va_cmd,h_r,va_r,energy_error,balance_error,domain,saturated,outside_box\n",
+        "t,h,va,theta,q,alpha,elevator,throttle,elevator_cmd,throttle_cmd,h_cmd,va_cmd,h_r,va_r,energy_error,balance_error,domain,elevator_saturated,throttle_saturated,outside_box\n",
     );
     for x in &f.samples {
         let _ = writeln!(
             s,
-            "{:.3},{:.6},{:.6},{:.6},{:.6},{:.6},{:.6},{:.6},{:.6},{:.6},{:.3},{:.3},{:.6},{:.6},{:.6},{:.6},{},{},{}",
+            "{:.3},{:.6},{:.6},{:.6},{:.6},{:.6},{:.6},{:.6},{:.6},{:.6},{:.3},{:.3},{:.6},{:.6},{:.6},{:.6},{},{},{},{}",
             x.t, x.h, x.va, x.theta, x.q, x.alpha, x.elevator, x.throttle, x.elevator_cmd,
             x.throttle_cmd, x.h_cmd, x.va_cmd, x.h_r, x.va_r, x.energy_error, x.balance_error,
-            u8::from(x.domain), u8::from(x.saturated), u8::from(x.outside_box)
+            u8::from(x.domain), u8::from(x.elevator_saturated), u8::from(x.throttle_saturated),
+            u8::from(x.outside_box)
         );
     }
     s
@@ -144,8 +145,8 @@ fn cell(v: f64) -> String {
 
 fn rows(r: &ScenarioRun) -> Vec<Vec<String>> {
     let mut out = Vec::new();
-    for (name, unit) in METRICS {
-        let mut row = vec![format!("{} ({unit})", name.replace('_', " "))];
+    for (name, _, _) in METRICS {
+        let mut row = vec![metric_label(name)];
         for (_, m) in &r.flights {
             row.push(cell(m.get(name).copied().unwrap_or(f64::NAN)));
         }

@@ -15,14 +15,15 @@
 //! ```
 //!
 //! Optional: `rates: { plant: 50, control: 50 }` (Hz), `tuning:` for the baselines and the
-//! inner loop, `gains:` for the energy law, `dispersions:` for Monte Carlo. Every key has a
-//! documented default.
+//! inner loop, `gains:` for the energy law, `dispersions:` for Monte Carlo. Every key and its
+//! default is documented in `docs/scenarios.md`; [`json_schema`] is the format's schema.
 
+use schemars::JsonSchema;
 use serde::Deserialize;
 use std::collections::BTreeMap;
 
 /// A command change.
-#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[derive(Clone, Debug, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct CommandChange {
     /// Time of the change, s.
@@ -36,7 +37,7 @@ pub struct CommandChange {
 }
 
 /// The initial trimmed flight.
-#[derive(Clone, Copy, Debug, Deserialize, PartialEq)]
+#[derive(Clone, Copy, Debug, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct Initial {
     /// Altitude, m.
@@ -46,7 +47,7 @@ pub struct Initial {
 }
 
 /// Steady wind and turbulence.
-#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[derive(Clone, Debug, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct WindSpec {
     /// Horizontal wind along the flight path (tailwind positive), m/s.
@@ -76,7 +77,7 @@ impl Default for WindSpec {
 
 /// What the controllers' models get wrong: the truth is the airframe, the controllers use
 /// these factors and biases on their estimates.
-#[derive(Clone, Copy, Debug, Deserialize, PartialEq)]
+#[derive(Clone, Copy, Debug, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct Estimates {
     /// Factor on the drag estimate (1.2: 20% high).
@@ -110,7 +111,7 @@ impl Default for Estimates {
 }
 
 /// Sensor noise (standard deviations).
-#[derive(Clone, Copy, Debug, Default, Deserialize, PartialEq)]
+#[derive(Clone, Copy, Debug, Default, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct SensorNoise {
     /// Altitude, m.
@@ -128,7 +129,7 @@ pub struct SensorNoise {
 }
 
 /// Simulation rates.
-#[derive(Clone, Copy, Debug, Deserialize, PartialEq)]
+#[derive(Clone, Copy, Debug, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct Rates {
     /// Plant integration rate (RK4), Hz.
@@ -159,7 +160,7 @@ impl Default for Rates {
 }
 
 /// The inner pitch-attitude loop on the elevator (energy law and PID).
-#[derive(Clone, Copy, Debug, Deserialize, PartialEq)]
+#[derive(Clone, Copy, Debug, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct PitchTuning {
     /// Elevator per pitch error, rad/rad.
@@ -194,7 +195,7 @@ impl Default for PitchTuning {
 }
 
 /// Successive-loop PID: altitude through pitch, airspeed through throttle.
-#[derive(Clone, Copy, Debug, Deserialize, PartialEq)]
+#[derive(Clone, Copy, Debug, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct PidTuning {
     /// Pitch per altitude error, rad/m.
@@ -243,7 +244,7 @@ impl Default for PidTuning {
 }
 
 /// LQR with integral action: weights by Bryson's rule (1/maximum², common practice).
-#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[derive(Clone, Debug, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct LqrTuning {
     /// Largest acceptable deviations of (u, w, q, θ, h, ∫h, ∫V) in SI units.
@@ -272,7 +273,7 @@ impl Default for LqrTuning {
 }
 
 /// Baseline tuning.
-#[derive(Clone, Debug, Default, Deserialize, PartialEq)]
+#[derive(Clone, Debug, Default, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct Tuning {
     /// Inner pitch loop.
@@ -287,7 +288,7 @@ pub struct Tuning {
 }
 
 /// Monte Carlo dispersions: each run draws uniformly within ± these.
-#[derive(Clone, Copy, Debug, Deserialize, PartialEq)]
+#[derive(Clone, Copy, Debug, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct Dispersions {
     /// Relative mass change.
@@ -344,7 +345,7 @@ impl Default for Dispersions {
 }
 
 /// A scenario as written.
-#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[derive(Clone, Debug, Deserialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct Scenario {
     /// Name.
@@ -389,6 +390,19 @@ pub struct Scenario {
 
 fn default_seed() -> u64 {
     1
+}
+
+/// The JSON Schema (draft 2020-12) of a scenario file, from the types serde reads it with.
+pub fn json_schema() -> serde_json::Value {
+    let mut schema = schemars::generate::SchemaSettings::draft2020_12()
+        .into_generator()
+        .into_root_schema_for::<Scenario>();
+    schema.insert("title".into(), "lawsmith scenario".into());
+    schema.insert(
+        "description".into(),
+        "A flight lawsmith sim flies: the spec, the initial trim, the commands, wind, estimate errors, noise, rates, baseline tuning, gains and Monte Carlo dispersions (docs/scenarios.md).".into(),
+    );
+    schema.to_value()
 }
 
 /// A scenario that cannot be flown.

@@ -83,6 +83,14 @@ fn step_metrics_follow_their_definitions() {
         m["airspeed_overshoot"].is_nan(),
         "no airspeed step: undefined"
     );
+    // the first peak only: 11 m (10%), back below the target, then a gust to 13 m later
+    let mut v = vec![(0.0, 0.0, 0.0)];
+    let shape = [0.0, 6.0, 11.0, 10.2, 9.8, 10.0, 13.0, 10.0];
+    for (i, h) in shape.iter().enumerate() {
+        v.push((1.0 + i as f64, *h, 10.0));
+    }
+    let m = metrics(&synthetic(&v));
+    assert!((m["altitude_overshoot"] - 10.0).abs() < 1e-9, "{m:?}");
     // a step that never settles
     let v = vec![
         (0.0, 0.0, 0.0),

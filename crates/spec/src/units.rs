@@ -144,6 +144,15 @@ pub fn parse_unit(text: &str) -> Result<Dim, (usize, String)> {
             return Err((start, "expected a unit name".into()));
         }
         let Some((_, d)) = units.iter().find(|(n, _)| *n == name) else {
+            // `s2` for `s^2`: a unit followed by its exponent without the `^`
+            let base = name.trim_end_matches(|c: char| c.is_ascii_digit());
+            if base.len() < name.len() && units.iter().any(|(n, _)| *n == base) {
+                let exponent = &name[base.len()..];
+                return Err((
+                    start,
+                    format!("unknown unit `{name}`; did you mean `{base}^{exponent}`?"),
+                ));
+            }
             let names = units.iter().map(|(n, _)| *n);
             let hint = match lawsmith_expr::nearest(name, names) {
                 Some(s) => format!("unknown unit `{name}`; did you mean `{s}`?"),
@@ -207,5 +216,8 @@ mod tests {
         let (at, msg) = parse_unit("m/sec").unwrap_err();
         assert_eq!(at, 2);
         assert!(msg.contains("did you mean `s`"), "{msg}");
+        let (at, msg) = parse_unit("m/s2").unwrap_err();
+        assert_eq!(at, 2);
+        assert!(msg.contains("did you mean `s^2`"), "{msg}");
     }
 }

@@ -437,7 +437,7 @@ pub fn ultimate_bound(
             out.outcome = BoundOutcome::Refuted(
                 cx,
                 format!(
-                    "dV/dt >= 0 at a point with V >= {top:.4e}, and no larger level has its sublevel set inside the error box (V > {a:.4e} on its faces): widen the error box, raise the gains or shrink the uncertainty"
+                    "no invariant level fits in the error box: its sublevel sets stay inside only below V = {a:.4e} (V exceeds that on every face), and already the largest level tried, c = {top:.4e}, fails: dV/dt >= 0 at a point where V = {r:.4e}; widen the error box, raise the gains or shrink the uncertainty"
                 ),
             );
             out.boxes = run.boxes;

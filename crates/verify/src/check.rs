@@ -310,7 +310,8 @@ pub fn check(
         .iter()
         .find(|r| r.kind == GoalKind::Claim)
         .and_then(|r| r.sampled.as_ref())
-        .map(|s| s.min_margin)
+        // + 0.0: a margin of −0 (V̇ = 0 where sampled) is 0
+        .map(|s| s.min_margin + 0.0)
         .filter(|m| m.is_finite());
     let saturation = saturation(&prepared, spec, settings.samples);
     let report = CheckReport {

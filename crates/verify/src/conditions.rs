@@ -161,11 +161,30 @@ pub(crate) fn goals(
     let mut i = 0;
     while i < conds.len() {
         let (g, more) = condition_goal(problem, &conds[i]);
-        if seen.insert((format!("{:?}", g.test), g.expr)) {
+        // a condition on a constant that holds (a parameter's `7.5 != 0`) is no goal; one
+        // that fails stays, to be refuted
+        let trivial = holds(&problem.dag, &g);
+        if !trivial && seen.insert((format!("{:?}", g.test), g.expr)) {
             goals.push((conds[i].source.clone(), g));
         }
         conds.extend(more);
         i += 1;
     }
     goals
+}
+
+/// True when the goal's expression is a number for which its test holds, decided exactly.
+fn holds(dag: &Dag, g: &Goal) -> bool {
+    let Some(v) = dag.as_num(g.expr) else {
+        return false;
+    };
+    let zero = BigRational::from_integer(0.into());
+    let one = BigRational::from_integer(1.into());
+    match g.test {
+        Test::NonZero => v != &zero,
+        Test::Negative { strict: true } => v < &zero,
+        Test::Negative { strict: false } => v <= &zero,
+        // the only interval test a condition has is [-1, 1]
+        Test::Within { lo, hi } => lo == -1.0 && hi == 1.0 && -&one <= *v && v <= &one,
+    }
 }

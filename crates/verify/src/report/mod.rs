@@ -17,7 +17,8 @@ fn plain(x: f64) -> String {
 /// A number with 4 significant digits, in plain or scientific notation as fits.
 fn sig(x: f64) -> String {
     if x == 0.0 || !x.is_finite() {
-        return format!("{x}");
+        // negative zero (a margin of −0·…) reads as 0
+        return plain(x);
     }
     let a = x.abs();
     if (1e-3..1e5).contains(&a) {
@@ -142,12 +143,20 @@ pub fn text(r: &CheckReport, path: &str, timings: bool) -> String {
         Some(false) => "FAILS",
         None => "undecided",
     };
-    let _ = writeln!(
-        s,
-        "\nwell-posedness: {wp} ({} condition{})",
-        conds.len(),
-        if conds.len() == 1 { "" } else { "s" }
-    );
+    if conds.is_empty() {
+        // every division and function of the laws is by or of a constant that is fine
+        let _ = writeln!(
+            s,
+            "\nwell-posedness: nothing to prove (the laws are defined everywhere)"
+        );
+    } else {
+        let _ = writeln!(
+            s,
+            "\nwell-posedness: {wp} ({} condition{})",
+            conds.len(),
+            if conds.len() == 1 { "" } else { "s" }
+        );
+    }
     for g in &conds {
         let _ = writeln!(
             s,
@@ -303,7 +312,7 @@ fn bound_text(s: &mut String, b: &BoundReport) {
             "  no level proved ({} level proofs tried{})",
             b.steps.len(),
             b.refuted_level.map_or(String::new(), |r| format!(
-                "; a point with dV/dt >= 0 and V = {} rules out every level below it",
+                "; the highest point found with dV/dt >= 0 has V = {}, so no level below that holds",
                 sig(r)
             ))
         );
@@ -315,7 +324,7 @@ fn bound_text(s: &mut String, b: &BoundReport) {
             b.steps.len(),
             b.refuted_level
                 .map_or("no level refuted".to_string(), |r| format!(
-                    "a point with dV/dt >= 0 and V = {} rules out every level below it",
+                    "the highest point found with dV/dt >= 0 has V = {}, so no level below that holds",
                     sig(r)
                 ))
         );
@@ -428,7 +437,7 @@ pub fn json(r: &CheckReport, path: &str) -> Value {
         .goals
         .iter()
         .map(|g| {
-            json!({
+            let mut o = json!({
                 "kind": match g.kind { GoalKind::Condition => "condition", GoalKind::Positive => "positive", GoalKind::Claim => "claim" },
                 "label": g.label,
                 "source": g.source,
@@ -437,7 +446,28 @@ pub fn json(r: &CheckReport, path: &str) -> Value {
                 "status": status_word(&g.status).to_lowercase(),
                 "boxes": g.search.as_ref().map(|s| s.boxes),
                 "samples": g.sampled.as_ref().map(|s| s.evaluated),
-            })
+            });
+            if let Status::Inconclusive(why) = &g.status {
+                // why it stopped, and the open boxes with the largest bound (coordinate →
+                // [lo, hi], and the bound of the goal's expression there)
+                let open: Vec<Value> = g
+                    .search
+                    .iter()
+                    .flat_map(|s| &s.worst)
+                    .map(|(bx, bound)| {
+                        let coords: Map<String, Value> = g
+                            .dims
+                            .iter()
+                            .zip(bx)
+                            .map(|(&d, i)| (r.variables[d].name.clone(), json!([i.lo(), i.hi()])))
+                            .collect();
+                        json!({"box": coords, "bound": if bound.is_finite() { json!(bound) } else { Value::Null }})
+                    })
+                    .collect();
+                o["reason"] = json!(why);
+                o["open_boxes"] = Value::Array(open);
+            }
+            o
         })
         .collect();
     json!({
