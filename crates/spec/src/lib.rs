@@ -53,4 +53,4 @@ pub use model::{
 };
 pub use names::{identifier_problem, reserved_reason, C_RESERVED, RUST_RESERVED};
 pub use schema::json_schema;
-pub use units::{named_units, parse_unit, Dim};
+pub use units::{degrees_to_radians, named_units, parse_unit, Dim};

@@ -114,6 +114,16 @@ pub fn named_units() -> Vec<(&'static str, Dim)> {
     ]
 }
 
+/// π to 50 decimals, for degrees (an actuator's limits may be written in `deg`).
+const PI_50: &str = "3.14159265358979323846264338327950288419716939937510";
+
+/// The nearest f64 of an angle of `deg` degrees in radians (π taken to 50 decimals, far
+/// below an ulp).
+pub fn degrees_to_radians(deg: &lawsmith_expr::BigRational) -> f64 {
+    let pi = lawsmith_expr::parse_decimal(PI_50).expect("a decimal");
+    lawsmith_expr::to_f64(&(deg * pi / lawsmith_expr::BigRational::from_integer(180.into())))
+}
+
 /// Parses a unit string such as `m/s^2`, `kg*m^2`, `1/s`, `N` or `1`.
 /// Errors carry the byte offset of the problem and, for a typo, the nearest known unit.
 pub fn parse_unit(text: &str) -> Result<Dim, (usize, String)> {
@@ -142,6 +152,12 @@ pub fn parse_unit(text: &str) -> Result<Dim, (usize, String)> {
         let name = &text[start..pos];
         if name.is_empty() {
             return Err((start, "expected a unit name".into()));
+        }
+        if name == "deg" {
+            return Err((
+                start,
+                "`deg` is accepted only as the unit of an actuator (its limits are then read in degrees); everywhere else angles are in rad".into(),
+            ));
         }
         let Some((_, d)) = units.iter().find(|(n, _)| *n == name) else {
             // `s2` for `s^2`: a unit followed by its exponent without the `^`
@@ -216,6 +232,9 @@ mod tests {
         let (at, msg) = parse_unit("m/sec").unwrap_err();
         assert_eq!(at, 2);
         assert!(msg.contains("did you mean `s`"), "{msg}");
+        assert!(parse_unit("deg").unwrap_err().1.contains("actuator"));
+        let r = degrees_to_radians(&lawsmith_expr::parse_decimal("20").unwrap());
+        assert_eq!(r, 20.0f64.to_radians());
         let (at, msg) = parse_unit("m/s2").unwrap_err();
         assert_eq!(at, 2);
         assert!(msg.contains("did you mean `s^2`"), "{msg}");

@@ -71,3 +71,35 @@ fn there_are_at_least_twelve_classes_of_bad_input() {
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../tests/data/err");
     assert!(std::fs::read_dir(dir).unwrap().count() >= 12);
 }
+
+#[test]
+fn an_actuator_in_degrees_has_its_limits_in_radians() {
+    // 20° = π/9 rad, 25° = 5π/36 rad (common practice)
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../tests/data/ok");
+    let text = std::fs::read_to_string(dir.join("pitch_limits_in_degrees.yaml")).unwrap();
+    let spec = load(&text).unwrap();
+    let a = spec
+        .actuators
+        .iter()
+        .find(|a| a.name == "pitch_cmd")
+        .unwrap();
+    assert_eq!(a.unit, "rad");
+    assert!(
+        (a.limits.0 + std::f64::consts::PI / 9.0).abs() < 1e-15,
+        "{:?}",
+        a.limits
+    );
+    assert!(
+        (a.limits.1 - 5.0 * std::f64::consts::PI / 36.0).abs() < 1e-15,
+        "{:?}",
+        a.limits
+    );
+    // anywhere else `deg` is refused, with the reason
+    let bad = text.replace("alpha: { unit: rad", "alpha: { unit: deg");
+    let d = load(&bad).unwrap_err();
+    assert!(
+        d.iter()
+            .any(|d| d.class == "bad-unit" && d.message.contains("actuator")),
+        "{d:?}"
+    );
+}

@@ -7,7 +7,8 @@ use super::{unknown, Loader, ParsedConstraint};
 use crate::diag::Diagnostic;
 use crate::model::*;
 use crate::schema::*;
-use lawsmith_expr::{Ast, Dag, ExprId};
+use crate::units::{degrees_to_radians, Dim};
+use lawsmith_expr::{Ast, Dag, Decimal, ExprId};
 use std::collections::HashMap;
 
 /// A formula of a named thing: the name, the tree with the file offset of its text, the text.
@@ -121,8 +122,24 @@ impl Loader<'_> {
             if !self.declare(n, SymbolKind::Command) {
                 continue;
             }
-            let dim = self.unit(&a.unit);
-            let limits = self.pair(&a.limits, "actuator limits");
+            // an actuator in degrees: its command is an angle (in rad, as every formula is)
+            // and its limits, written in degrees, are converted
+            let degrees = a.unit.value.trim() == "deg";
+            let dim = if degrees {
+                Dim::one()
+            } else {
+                self.unit(&a.unit)
+            };
+            let mut limits = self.pair(&a.limits, "actuator limits");
+            if let (true, Some(l)) = (degrees, &limits) {
+                let rad = |d: &Decimal| Decimal::from_f64(degrees_to_radians(d.exact()));
+                limits = Some(Range::new(rad(&l.lo), rad(&l.hi)));
+            }
+            let unit = if degrees {
+                "rad".to_string()
+            } else {
+                a.unit.value.clone()
+            };
             if let Some((ast, base)) = self.parse_formula(&a.law) {
                 self.expect_dim(
                     &ast,
@@ -136,7 +153,7 @@ impl Loader<'_> {
                     ast,
                     base,
                     a.law.value.clone(),
-                    a.unit.value.clone(),
+                    unit,
                     limits,
                 ));
             }
