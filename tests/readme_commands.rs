@@ -4,12 +4,11 @@
 //! s`) masked, and a line `…` standing for any number of lines. A change of output without a
 //! change of the documentation fails here.
 
+mod common;
+
+use common::{copy_dir, root};
 use std::path::{Path, PathBuf};
 use std::process::Command;
-
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
 
 /// A documented command and the output written under it.
 #[derive(Debug)]
@@ -87,19 +86,6 @@ fn matches(doc: &[String], actual: &[String]) -> bool {
         Some((d, rest)) => actual
             .split_first()
             .is_some_and(|(a, more)| norm(a) == norm(d) && matches(rest, more)),
-    }
-}
-
-fn copy_dir(from: &Path, to: &Path) {
-    std::fs::create_dir_all(to).unwrap();
-    for e in std::fs::read_dir(from).unwrap() {
-        let e = e.unwrap();
-        let dest = to.join(e.file_name());
-        if e.path().is_dir() {
-            copy_dir(&e.path(), &dest);
-        } else {
-            std::fs::copy(e.path(), dest).unwrap();
-        }
     }
 }
 

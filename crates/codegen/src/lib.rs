@@ -50,21 +50,14 @@ pub enum Float {
 /// names, for this float type (`sin`, `sinf`). One table for both emitters.
 pub(crate) fn math_name(f: lawsmith_expr::Func, float: Float) -> String {
     use lawsmith_expr::Func;
+    // the formula language's names, where C's differ
     let base = match f {
-        Func::Sin => "sin",
-        Func::Cos => "cos",
-        Func::Tan => "tan",
-        Func::Asin => "asin",
-        Func::Acos => "acos",
-        Func::Atan => "atan",
-        Func::Atan2 => "atan2",
-        Func::Sqrt => "sqrt",
-        Func::Exp => "exp",
         Func::Ln => "log",
         Func::Abs => "fabs",
         Func::Min => "fmin",
         Func::Max => "fmax",
         Func::Clamp => unreachable!("the IR lowers clamp to fmax and fmin"),
+        _ => f.name(),
     };
     with_float(base, float)
 }

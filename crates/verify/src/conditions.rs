@@ -139,19 +139,18 @@ pub(crate) fn goals(
             &mut conds,
         );
     }
-    for (rule, c) in &derivation.assumptions {
+    // the simplifier's assumptions: in base symbols (the derivation's) or already in proof
+    // coordinates (those of the rewriting)
+    let assumed = derivation
+        .assumptions
+        .iter()
+        .map(|a| (a, false))
+        .chain(forms.assumed.iter().map(|a| (a, true)));
+    for ((rule, c), in_proof) in assumed {
         conds.push(Cond {
             kind: c.kind,
             expr: c.expr,
-            in_proof: false,
-            source: format!("assumed by the simplifier ({rule})"),
-        });
-    }
-    for (rule, c) in &forms.assumed {
-        conds.push(Cond {
-            kind: c.kind,
-            expr: c.expr,
-            in_proof: true,
+            in_proof,
             source: format!("assumed by the simplifier ({rule})"),
         });
     }
