@@ -42,7 +42,7 @@ pub fn build_cmd(
     let mut rows = Vec::new();
     let mut json_specs: Vec<Value> = Vec::new();
     let mut notes: Vec<String> = Vec::new();
-    let mut md = String::from("# lawsmith report\n\nWritten by `lawsmith build`. The airframe and the scenarios are the invented demo\nairframe and scenarios of lawsmith's examples, not a real aircraft.\n\n## Specs\n\n| spec | claim | verdict | boxes | worst sampled margin | ops/step | saturation (share of sampled envelope) | independent checker |\n|---|---|---|---:|---:|---:|---|---|\n");
+    let mut md = String::from("# lawsmith report\n\nWritten by `lawsmith build`. The airframe and the scenarios are the invented demo\nairframe and scenarios of lawsmith's examples, not a real aircraft.\n\n## Specs\n\n| spec | claim | verdict | boxes | worst sampled margin | ops/step | saturation (verdict over the envelope; share of sampled points beyond the limits) | independent checker |\n|---|---|---|---:|---:|---:|---|---|\n");
     let mut code = 0u8;
     // proved ultimate bounds, by spec file, for the scenarios' cross-checks
     let mut bounds: HashMap<PathBuf, BoundReport> = HashMap::new();
@@ -99,7 +99,7 @@ pub fn build_cmd(
                     "generated": dir.display().to_string(),
                     "files": e.files.iter().map(|(n, _)| n.as_str()).collect::<Vec<_>>(),
                     "saturation": e.report.saturation.iter().map(|a| json!({
-                        "actuator": a.actuator, "share": a.share,
+                        "actuator": a.actuator, "verdict": a.verdict(), "share": a.share,
                     })).collect::<Vec<_>>(),
                     "independent_check": {"status": checked.name(), "detail": checked.detail()},
                 }));
@@ -108,7 +108,7 @@ pub fn build_cmd(
                     .report
                     .saturation
                     .iter()
-                    .map(|a| format!("{} {:.2}%", a.actuator, 100.0 * a.share))
+                    .map(|a| format!("{} {} ({:.2}%)", a.actuator, a.verdict(), 100.0 * a.share))
                     .collect();
                 if let (Some(b), Verdict::Proven, Ok(p)) =
                     (&e.report.bound, e.report.verdict, spec.canonicalize())

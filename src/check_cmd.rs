@@ -73,6 +73,7 @@ impl Limits {
                 ..BoundSettings::default()
             },
             dag: self.expr.dag(),
+            actuators: true,
         }
     }
 
@@ -241,14 +242,20 @@ pub fn recheck_cmd(
     }
     match outcome {
         Ok(r) => {
+            let actuators: Vec<String> = r
+                .actuators
+                .iter()
+                .map(|(a, word)| format!("{a} {word}"))
+                .collect();
             println!(
-                "accepted: {} re-checked against {} ({} goals, {} leaf boxes re-evaluated, {} counterexamples re-confirmed); verdict {}",
+                "accepted: {} re-checked against {} ({} goals, {} leaf boxes re-evaluated, {} counterexamples re-confirmed); verdict {}; actuators: {}",
                 cert_path.display(),
                 spec_path.display(),
                 r.goals,
                 r.leaves,
                 r.counterexamples,
-                r.verdict.name()
+                r.verdict.name(),
+                if actuators.is_empty() { "none".to_string() } else { actuators.join(", ") }
             );
             ExitCode::SUCCESS
         }

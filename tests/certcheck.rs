@@ -391,8 +391,70 @@ fn edited_certificates_of_constraints_bounds_and_counterexamples_are_rejected() 
     assert_eq!(code, 1, "{out}");
     assert!(out.contains("does not hold its declared range"), "{out}");
     kinds += 1;
-    // with the 13 kinds of the reference law's test: 25 (README)
+    // with the 13 kinds of the reference law's test: 25
     assert_eq!(13 + kinds, 25);
+}
+
+/// The point of a refuted actuator goal, set to these values by coordinate name.
+fn set_point(c: &mut Value, values: &[(&str, f64)]) {
+    let dims = c["actuators"][0]["dims"].clone();
+    for (name, v) in values {
+        let k = dims.as_array().unwrap().iter().position(|d| d == name);
+        c["actuators"][0]["counterexample"]["point"][k.unwrap()] = json!(v);
+    }
+}
+
+#[test]
+fn edited_actuator_sections_are_rejected_each_for_its_reason() {
+    // u = -k*x with k in [0.5, 3], x in [-2, 2]: limits [-4, 4] are left where k*|x| > 4,
+    // [-6.5, 6.5] never
+    let free: Vec<(&str, &str, Edit)> = vec![
+        (
+            "the limits' test widened past the declared limits",
+            "its test is not within the declared limits",
+            Box::new(|c| c["actuators"][0]["test"] = json!({"within": [-7.0, 7.0]})),
+        ),
+        (
+            "the command's expression edited",
+            "its expression is not the spec's command",
+            Box::new(|c| {
+                let e = c["actuators"][0]["expr"]
+                    .as_str()
+                    .unwrap()
+                    .replace('k', "0.5*k");
+                c["actuators"][0]["expr"] = json!(e);
+            }),
+        ),
+        (
+            "the actuator dropped",
+            "the certificate's actuators are not the spec's",
+            Box::new(|c| c["actuators"] = json!([])),
+        ),
+    ];
+    let saturates: Vec<(&str, &str, Edit)> = vec![
+        (
+            "a saturating command marked saturation-free",
+            "no proof tree",
+            Box::new(|c| c["actuators"][0]["status"] = json!("proven")),
+        ),
+        (
+            "the point moved inside the limits",
+            "does not refute the goal",
+            Box::new(|c| set_point(c, &[("Δx", 1.0), ("k", 1.0)])),
+        ),
+        (
+            "the test narrowed inside the limits, with a point between the two",
+            "the recorded point is not outside the limits",
+            Box::new(|c| {
+                c["actuators"][0]["test"] = json!({"within": [-3.0, 3.0]});
+                set_point(c, &[("Δx", 2.0), ("k", 1.75)]);
+            }),
+        ),
+    ];
+    let n = rejects("tests/data/check/saturation_free.yaml", free)
+        + rejects("tests/data/check/saturation_unavoidable.yaml", saturates);
+    // with the 25 kinds of the claim's certificates: 31 (README)
+    assert_eq!(25 + n, 31);
 }
 
 #[test]

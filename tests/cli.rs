@@ -208,7 +208,12 @@ fn check_json_has_the_documented_keys() {
     assert_eq!(v["claim"], "negative_definite");
     assert_eq!(v["counterexample"]["point"]["omega"], 0.0);
     assert_eq!(v["counterexample"]["vdot"], 0.0);
-    assert!(v["saturation"]["torque_cmd"].is_number());
+    // |torque| = k_d*|omega| <= 0.5*4 = 2 over the box: it touches its limits [-2, 2] N*m
+    // at two corners and never leaves them (elementary bound)
+    let torque = &v["saturation"]["torque_cmd"];
+    assert_eq!(torque["verdict"], "saturation-free", "{torque}");
+    assert_eq!(torque["share"], 0.0, "{torque}");
+    assert!(torque["point"].is_null(), "{torque}");
 }
 
 #[test]

@@ -5,7 +5,7 @@
 
 Exit 0: accepted; 1: rejected, with the reason; 3: an input cannot be read. It shares no code
 with lawsmith: it reads the spec itself, derives what it needs with SymPy and re-evaluates
-every leaf with its own interval arithmetic. The rules it checks, R1 to R9, are in README.md
+every leaf with its own interval arithmetic. The rules it checks, R1 to R10, are in README.md
 beside this file; each function below names the rule it implements.
 """
 
@@ -26,7 +26,7 @@ import formula  # noqa: E402
 import iv  # noqa: E402
 import model  # noqa: E402
 
-VERSION = 2
+VERSION = 3
 SPLIT_DEPTH = 10      # a leaf this checker cannot show at once is halved, at most this deep
 MAX_AFFINE = 6        # vertices of at most 2^6 sub-boxes
 
@@ -49,29 +49,22 @@ class Unreadable(Exception):
     """An input cannot be read."""
 
 
-def sym(n):
-    return sp.Symbol(n, real=True)
+def sym(n): return sp.Symbol(n, real=True)
 
 
 def expr_of(text):
     """A certificate expression as SymPy."""
     def go(node):
-        t = node[0]
-        if t == "num":
-            return model.R(node[1])
-        if t == "sym":
-            return sym(node[1])
-        if t == "add":
-            return sp.Add(*[go(a) for a in node[1]])
-        if t == "mul":
-            return sp.Mul(*[go(a) for a in node[1]])
+        t, a = node[0], node[1:]
+        if t in ("num", "sym"):
+            return model.R(a[0]) if t == "num" else sym(a[0])
+        if t in ("add", "mul"):
+            return (sp.Add if t == "add" else sp.Mul)(*[go(x) for x in a[0]])
         if t == "neg":
-            return -go(node[1])
-        if t == "div":
-            return go(node[1]) / go(node[2])
-        if t == "pow":
-            return go(node[1]) ** go(node[2])
-        return model.FUNCS[node[1]](*[go(a) for a in node[2]])
+            return -go(a[0])
+        if t in ("div", "pow"):
+            return go(a[0]) / go(a[1]) if t == "div" else go(a[0]) ** go(a[1])
+        return model.FUNCS[a[0]](*[go(x) for x in a[1]])
     try:
         return go(formula.parse(text))
     except (formula.FormulaError, KeyError) as e:
@@ -87,9 +80,7 @@ def same(a, b):
 
 
 def num(v):
-    if isinstance(v, str):
-        return {"inf": math.inf, "-inf": -math.inf, "nan": math.nan}[v]
-    return float(v)
+    return float({"inf": "inf", "-inf": "-inf", "nan": "nan"}[v] if isinstance(v, str) else v)
 
 
 def interval(v):
@@ -125,6 +116,15 @@ def refutes(test, f):
     return f == (0.0, 0.0)
 
 
+def split(bx, k):
+    """The two halves of a box at the midpoint of coordinate k (None if it does not cut)."""
+    lo, hi = bx[k]
+    mid = 0.5 * lo + 0.5 * hi
+    a, b = list(bx), list(bx)
+    a[k], b[k] = (lo, mid), (mid, hi)
+    return (a, b) if lo < mid < hi else None
+
+
 def inter(a, b):
     lo, hi = max(a[0], b[0]), min(a[1], b[1])
     return (lo, hi) if lo <= hi else a
@@ -141,8 +141,8 @@ class Goal:
         if missing:
             raise Reject(f"the expression uses {sorted(missing)}, not among its coordinates")
         self.errors = [k for k, n in enumerate(self.dims) if check.role.get(n) == "error"]
-        self._value = self._grad = self._hessian = self._affine = None
-        self._closable = None
+        self._value = self._hessian = self._affine = self._closable = None
+        self._grad = {}
 
     def value(self, box):
         if self._value is None:
@@ -152,8 +152,6 @@ class Goal:
     def grad(self, box, ks):
         """The gradient's components along coordinates ks over the box (compiled once per
         set of coordinates: at the vertices of the affine ones, only the others count)."""
-        if self._grad is None:
-            self._grad = {}
         if ks not in self._grad:
             try:
                 self._grad[ks] = iv.Compiled(
@@ -337,10 +335,7 @@ class Check:
             self.m = model.Model(spec_text)
         except (model.SpecError, formula.FormulaError, KeyError, TypeError) as e:
             raise Unreadable(f"the spec cannot be read: {e}") from e
-        self.role = {}
-        self.leaves = 0
-        self.jobs = 1
-        self.below = None
+        self.role, self.leaves, self.jobs, self.below, self.limits = {}, 0, 1, None, []
 
     # R2 ---------------------------------------------------------------------------------
     def domain(self):
@@ -377,14 +372,8 @@ class Check:
         gs = self.cert.get("goals") or []
         self.compiled = []
         for i, gj in enumerate(gs):
-            at = f"goal {i + 1} ({gj.get('label')})"
-            g = Goal(expr_of(gj["expr"]), gj["dims"], self)
-            g.test = parse_test(gj["test"])
-            g.origin = bool(gj.get("origin_exempt"))
-            g.kind, g.status, g.at, g.json = gj["kind"], gj["status"], at, gj
-            for n in g.dims:
-                if n not in self.box:
-                    raise Reject(f"{at}: `{n}` is not a domain coordinate")
+            g = self.goal(gj, f"goal {i + 1} ({gj.get('label')})", gj["kind"])
+            at = g.at
             if g.kind in self.own:
                 e, test = self.own[g.kind]
                 if g.test != test or not g.origin:
@@ -405,6 +394,37 @@ class Check:
         for k in ("claim", "positive"):
             if sum(g.kind == k for g in self.compiled) != 1:
                 raise Reject(f"the certificate does not have exactly one {k} goal")
+
+    def goal(self, gj, at, kind):
+        g = Goal(expr_of(gj["expr"]), gj["dims"], self)
+        g.test = parse_test(gj["test"])
+        g.origin = bool(gj.get("origin_exempt"))
+        g.kind, g.status, g.at, g.json = kind, gj["status"], at, gj
+        for n in g.dims:
+            if n not in self.box:
+                raise Reject(f"{at}: `{n}` is not a domain coordinate")
+        return g
+
+    # R10 --------------------------------------------------------------------------------
+    def actuators(self):
+        """Each command against its limits, outside the verdict: ['name status']."""
+        acts = self.cert.get("actuators") or []
+        if [a.get("actuator") for a in acts] != list(self.m.actuators):
+            raise Reject("the certificate's actuators are not the spec's, in its order")
+        for aj in acts:
+            e, lo, hi = self.m.actuators[aj["actuator"]]
+            g = self.goal(aj, f"actuator `{aj['actuator']}`", "actuator")
+            if (t := g.test)[0] != "within" or g.origin or not (model.R(t[1]) >= lo and model.R(t[2]) <= hi):
+                raise Reject(f"{g.at}: its test is not within the declared limits [{lo}, {hi}]")
+            if not same(g.expr, self.m.to_proof(e)):
+                raise Reject(f"{g.at}: its expression is not the spec's command")
+            self.evidence(g)
+            if g.status == "refuted":
+                f = g.value([(num(x), num(x)) for x in aj["counterexample"]["point"]])
+                if not (model.R(f[1]) < lo or model.R(f[0]) > hi):
+                    raise Reject(f"{g.at}: the recorded point is not outside the limits")
+        words = {"proven": "saturation-free", "refuted": "saturates", "inconclusive": "undecided"}
+        return [f"{a['actuator']} {words.get(a['status'], 'not checked')}" for a in acts]
 
     def own_conditions(self):
         """R4's conditions in proof coordinates, once each: (kind, u, source)."""
@@ -446,8 +466,7 @@ class Check:
 
     # R5, R6 -----------------------------------------------------------------------------
     def tree(self, obj, g, root, test, at, level=None):
-        shape = obj.get("tree")
-        leaves = obj.get("leaves")
+        shape, leaves = obj.get("tree"), obj.get("leaves")
         if not isinstance(shape, list) or not isinstance(leaves, list):
             raise Reject(f"{at}: no proof tree")
         boxes, stack, pos = [], [list(root)], 0
@@ -462,14 +481,10 @@ class Check:
                 continue
             if s >= len(bx):
                 raise Reject(f"{at}: a split along a coordinate the goal does not have")
-            lo, hi = bx[s]
-            mid = 0.5 * lo + 0.5 * hi
-            if not lo < mid < hi:
+            halves = split(bx, s)
+            if halves is None:
                 raise Reject(f"{at}: a split that does not cut its box")
-            a, b = list(bx), list(bx)
-            a[s], b[s] = (lo, mid), (mid, hi)
-            stack.append(b)
-            stack.append(a)
+            stack += [halves[1], halves[0]]
         if pos != len(shape) or len(boxes) != len(leaves):
             raise Reject(f"{at}: the tree has {len(boxes)} leaves and {len(shape)} entries, "
                          f"the certificate lists {len(leaves)} leaves")
@@ -554,13 +569,7 @@ class Check:
         root = [self.box[n] for n in g.dims]
         k = max(range(len(bx)), key=lambda i: (bx[i][1] - bx[i][0]) /
                 ((root[i][1] - root[i][0]) or 1.0))
-        lo, hi = bx[k]
-        mid = 0.5 * lo + 0.5 * hi
-        if not lo < mid < hi:
-            return []
-        a, b = list(bx), list(bx)
-        a[k], b[k] = (lo, mid), (mid, hi)
-        return [a, b]
+        return split(bx, k) or []
 
     # R7 ---------------------------------------------------------------------------------
     def ultimate(self, g):
@@ -661,13 +670,10 @@ class Check:
                 raise Reject(f"{g.at}: the counterexample does not meet the constraints")
         if not self.some_feasible_gain():
             raise Reject(f"{g.at}: no gain vector is shown to meet the constraints")
-        if g.kind == "condition":
-            if not any(self.implies(g, k, u, refuted=True) for k, u, _ in self.own_conditions()):
-                raise Reject(f"{g.at}: the refuted condition is none the spec's laws need")
-            exprs = [g.expr]
-        else:
-            exprs = [g.expr, self.own[g.kind][0]]
-        for e in exprs:
+        if g.kind == "condition" and not any(
+                self.implies(g, k, u, refuted=True) for k, u, _ in self.own_conditions()):
+            raise Reject(f"{g.at}: the refuted condition is none the spec's laws need")
+        for e in [g.expr] + ([self.own[g.kind][0]] if g.kind in self.own else []):
             # the spec's own form may use coordinates that cancel from the goal's: any value
             # in their declared ranges will do (their midpoints)
             extra = sorted({s.name for s in e.free_symbols} - set(g.dims))
@@ -714,22 +720,24 @@ class Check:
         return not self.m.constraints or any(self.feasible(gains, p, True) for p in tries)
 
     # R9 ---------------------------------------------------------------------------------
+    def evidence(self, g):
+        """R5 to R8 for the goal's status."""
+        if g.status == "proven":
+            level = None
+            if g.kind == "claim" and self.kind == "ultimate_bound":
+                level = self.ultimate(g)
+            self.tree(g.json, g, [self.box[n] for n in g.dims], g.test, g.at, level)
+        elif g.status == "refuted":
+            self.counterexample(g)
+        elif g.status not in ("inconclusive", "skipped"):
+            raise Reject(f"{g.at}: unknown status {g.status!r}")
+
     def run(self):
         self.domain()
         self.goals()
-        statuses = []
+        statuses = [g.status for g in self.compiled]
         for g in self.compiled:
-            statuses.append(g.status)
-            root = [self.box[n] for n in g.dims]
-            if g.status == "proven":
-                level = None
-                if g.kind == "claim" and self.kind == "ultimate_bound":
-                    level = self.ultimate(g)
-                self.tree(g.json, g, root, g.test, g.at, level)
-            elif g.status == "refuted":
-                self.counterexample(g)
-            elif g.status not in ("inconclusive", "skipped"):
-                raise Reject(f"{g.at}: unknown status {g.status!r}")
+            self.evidence(g)
         implied = ("falsified" if "refuted" in statuses else
                    "proven" if all(s == "proven" for s in statuses) else "inconclusive")
         if self.cert.get("verdict") != implied:
@@ -740,14 +748,14 @@ class Check:
             if missing:
                 kind, u, source = missing[0]
                 raise Reject(f"no proven goal shows the {kind} condition on {u} ({source})")
+        self.limits = self.actuators()
         return implied
 
 
 _WORK = []
 
 
-def _share(work):
-    _WORK[:] = [work]
+def _share(work): _WORK[:] = [work]
 
 
 def _leaf_at(i):
@@ -779,7 +787,8 @@ def main(argv=None):
     except (KeyError, TypeError, ValueError, IndexError, AttributeError) as e:
         print(f"rejected: malformed certificate ({type(e).__name__}: {e})")
         return 1
-    print(f"accepted: {verdict} ({len(c.compiled)} goals, {c.leaves} leaves re-evaluated)")
+    print(f"accepted: {verdict} ({len(c.compiled)} goals, {c.leaves} leaves re-evaluated; "
+          f"actuators: {', '.join(c.limits) or 'none'})")
     return 0
 
 

@@ -26,6 +26,10 @@ class Undefined(ArithmeticError):
 
 def down(x): return math.nextafter(x, -INF)
 def up(x): return math.nextafter(x, INF)
+def neg(a): return (-a[1], -a[0])
+def vmin(a, b): return (min(a[0], b[0]), min(a[1], b[1]))
+def vmax(a, b): return (max(a[0], b[0]), max(a[1], b[1]))
+def mid(iv): return 0.5 * iv[0] + 0.5 * iv[1]
 
 
 def sum_exact(a, b, s):
@@ -64,9 +68,6 @@ def add(a, b):
     lo, hi = a[0] + b[0], a[1] + b[1]
     return (lo if sum_exact(a[0], b[0], lo) else down(lo),
             hi if sum_exact(a[1], b[1], hi) else up(hi))
-
-
-def neg(a): return (-a[1], -a[0])
 
 
 def _bound(x, y, upward):
@@ -223,10 +224,6 @@ def absv(a):
     return (0.0, max(-a[0], a[1]))
 
 
-def vmin(a, b): return (min(a[0], b[0]), min(a[1], b[1]))
-def vmax(a, b): return (max(a[0], b[0]), max(a[1], b[1]))
-
-
 FUNCS = {sp.sin: "sin", sp.cos: "cos", sp.tan: "tan", sp.exp: "exp", sp.log: "log",
          sp.atan: "atan", sp.asin: "asin", sp.acos: "acos", sp.Abs: "absv"}
 
@@ -285,10 +282,7 @@ class Compiled:
             env[s.name] = t
         lines.append("    return [" + ", ".join(ref(e) for e in reduced) + "]")
         src = "def f(x):\n" + "\n".join(lines) + "\n"
-        scope = {n: globals()[n] for n in
-                 ("add", "mul", "neg", "div", "powi", "sqrt", "sin", "cos", "tan", "exp",
-                  "log", "atan", "asin", "acos", "atan2", "absv", "vmin", "vmax")}
-        scope.update(consts)
+        scope = dict(globals(), **consts)
         exec(src, scope)
         self.f = scope["f"]
 
@@ -299,7 +293,3 @@ class Compiled:
             if not (lo <= hi) or math.isnan(lo) or math.isnan(hi):
                 raise Undefined("no enclosure")
         return out
-
-
-def mid(iv):
-    return 0.5 * iv[0] + 0.5 * iv[1]

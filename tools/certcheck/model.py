@@ -108,9 +108,7 @@ class Model:
         self.errors = ["Δ" + s for s in self.states]
         self.defs_text = dict(sec("energies"))
         self.defs_text.update((d.get("lyapunov") or {}).get("where") or {})
-        self.defs = {}
-        self.conds = []          # (kind, expr in base symbols, source)
-        self._source = ""
+        self.defs, self.conds, self._source = {}, [], ""  # conds: (kind, expr, source)
         # the plant model (true values allowed), then the laws in order
         self.dynamics = {}
         for s, f in sec("dynamics").items():
@@ -122,9 +120,12 @@ class Model:
             e = self.convert(formula.parse(f))
             self.laws[n] = e.xreplace({sym(k): v for k, v in self.laws.items()})
         law_map = {sym(k): v for k, v in self.laws.items()}
+        self.actuators = {}      # name: (command, lo, hi); `deg` limits in rad
         for n, a in sec("actuators").items():
             self._source = f"actuator `{n}`"
-            self.convert(formula.parse(a["law"]))
+            e = self.convert(formula.parse(a["law"])).xreplace(law_map)
+            k = sp.pi / 180 if a.get("unit") == "deg" else 1
+            self.actuators[n] = (e, *(R(x) * k for x in pair(a["limits"], f"limits of {n}")))
         self.closed = {s: f.xreplace(law_map) for s, f in self.dynamics.items()}
         lyap = d.get("lyapunov") or {}
         self._source = "V"

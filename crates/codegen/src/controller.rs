@@ -225,8 +225,8 @@ impl Controller {
             .map(|a| Actuator {
                 name: a.name.clone(),
                 unit: a.unit.clone(),
-                limits: a.limits,
-                safe: clamp(0.0, a.limits.0, a.limits.1),
+                limits: a.limits.nearest(),
+                safe: clamp(0.0, a.limits.lo.value(), a.limits.hi.value()),
             })
             .collect();
         if actuators.len() > MAX_ACTUATORS {

@@ -286,8 +286,9 @@ pub struct Actuator {
     pub law: ExprId,
     /// Unit.
     pub unit: String,
-    /// Position limits.
-    pub limits: (f64, f64),
+    /// Position limits, exact as declared (in the actuator's unit; `deg` limits converted to
+    /// rad with π to 50 decimals).
+    pub limits: Range,
 }
 
 /// A first-order guidance filter for one reference.

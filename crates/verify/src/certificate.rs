@@ -24,8 +24,9 @@ use sha2::{Digest, Sha256};
 /// The certificate format's version; bumped on any incompatible change. Version 2 added what
 /// an independent checker needs beside the spec: each coordinate's declared range as exact
 /// decimals, the parameters' exact values, the region (V) of an ultimate bound's claim and
-/// the candidate its sublevel proofs bound.
-pub const CERTIFICATE_VERSION: u64 = 2;
+/// the candidate its sublevel proofs bound. Version 3 added `actuators`: each command against
+/// its limits, with its proof or the point where it leaves them.
+pub const CERTIFICATE_VERSION: u64 = 3;
 
 /// An exact rational as text: its terminating decimal, or `p/q`.
 fn exact_text(v: &lawsmith_expr::BigRational) -> String {
@@ -163,6 +164,52 @@ fn bound_json(b: &BoundReport, prepared: &Prepared) -> (Value, usize) {
     (v, leaves)
 }
 
+/// A goal's statement, its status and its evidence (the split tree of a proof, or the
+/// counterexample) into `o`; returns the leaves written.
+fn goal_json(
+    o: &mut Map<String, Value>,
+    c: &Compiled,
+    status: &Status,
+    search: Option<&crate::search::Report>,
+) -> usize {
+    o.insert("label".into(), json!(c.goal.label));
+    o.insert("expr".into(), json!(c.text));
+    o.insert("test".into(), test_json(&c.goal.test));
+    o.insert("origin_exempt".into(), json!(c.goal.origin));
+    if let Some(r) = &c.region_text {
+        o.insert("region".into(), json!(r));
+    }
+    o.insert("dims".into(), json!(c.names));
+    let name = match status {
+        Status::Proven => "proven",
+        Status::Refuted(_) => "refuted",
+        Status::Inconclusive(_) => "inconclusive",
+        Status::Skipped => "skipped",
+    };
+    o.insert("status".into(), json!(name));
+    if let Some(s) = search {
+        o.insert("boxes".into(), json!(s.boxes));
+    }
+    if let Status::Inconclusive(why) = status {
+        o.insert("reason".into(), json!(why));
+    }
+    if let Status::Refuted(cx) = status {
+        let pt = |p: &[f64]| p.iter().map(|&x| num(x)).collect::<Vec<_>>();
+        let mut cj = json!({
+            "point": pt(&cx.point),
+            "value": num(cx.value),
+            "enclosure": pair(&cx.enclosure),
+        });
+        if let Some([a, b]) = &cx.bracket {
+            cj["bracket"] = json!([pt(a), pt(b)]);
+        }
+        o.insert("counterexample".into(), cj);
+    }
+    search
+        .and_then(|s| s.tree.as_ref())
+        .map_or(0, |tree| tree_json(o, tree))
+}
+
 /// Where a certificate came from and how it was searched.
 #[derive(Clone, Debug)]
 pub struct Origin<'a> {
@@ -196,49 +243,23 @@ pub fn certificate(report: &CheckReport, prepared: &Prepared, origin: &Origin) -
         let c = &g.compiled;
         let mut o = Map::new();
         o.insert("kind".into(), json!(kind_name(g.kind)));
-        o.insert("label".into(), json!(c.goal.label));
         o.insert("source".into(), json!(g.source));
-        o.insert("expr".into(), json!(c.text));
-        o.insert("test".into(), test_json(&c.goal.test));
-        o.insert("origin_exempt".into(), json!(c.goal.origin));
-        if let Some(r) = &c.region_text {
-            o.insert("region".into(), json!(r));
-        }
-        o.insert("dims".into(), json!(c.names));
-        let status = match &r.status {
-            Status::Proven => "proven",
-            Status::Refuted(_) => "refuted",
-            Status::Inconclusive(_) => "inconclusive",
-            Status::Skipped => "skipped",
-        };
-        o.insert("status".into(), json!(status));
-        if let Some(s) = &r.search {
-            o.insert("boxes".into(), json!(s.boxes));
-        }
-        if let Status::Inconclusive(why) = &r.status {
-            o.insert("reason".into(), json!(why));
-        }
-        if let Status::Refuted(cx) = &r.status {
-            let pt = |p: &[f64]| p.iter().map(|&x| num(x)).collect::<Vec<_>>();
-            let mut cj = json!({
-                "point": pt(&cx.point),
-                "value": num(cx.value),
-                "enclosure": pair(&cx.enclosure),
-            });
-            if let Some([a, b]) = &cx.bracket {
-                cj["bracket"] = json!([pt(a), pt(b)]);
-            }
-            o.insert("counterexample".into(), cj);
-        }
-        if let Some(tree) = r.search.as_ref().and_then(|s| s.tree.as_ref()) {
-            leaves_total += tree_json(&mut o, tree);
-        }
+        leaves_total += goal_json(&mut o, c, &r.status, r.search.as_ref());
         if let (GoalKind::Claim, Some(b)) = (g.kind, &report.bound) {
             let (v, n) = bound_json(b, prepared);
             leaves_total += n;
             o.insert("ultimate_bound".into(), v);
         }
         goals.push(Value::Object(o));
+    }
+    // each actuator's command against its limits: outside the verdict, which is the claim's
+    let mut actuators = Vec::new();
+    for (ag, s) in prepared.actuators.iter().zip(&report.saturation) {
+        let mut o = Map::new();
+        o.insert("actuator".into(), json!(ag.actuator));
+        o.insert("limits".into(), limits_json(ag));
+        leaves_total += goal_json(&mut o, &ag.compiled, &s.status, s.search.as_ref());
+        actuators.push(Value::Object(o));
     }
     json!({
         "certificate": "lawsmith proof certificate",
@@ -255,7 +276,16 @@ pub fn certificate(report: &CheckReport, prepared: &Prepared, origin: &Origin) -
         "counts": {"goals": goals.len(), "boxes": report.boxes, "leaves": leaves_total},
         "min_margin": report.min_margin.map(num),
         "goals": goals,
+        "actuators": actuators,
     })
+}
+
+/// An actuator's declared limits as exact decimals.
+fn limits_json(ag: &crate::prepare::ActuatorGoal) -> Value {
+    json!([
+        exact_text(ag.limits.lo.exact()),
+        exact_text(ag.limits.hi.exact())
+    ])
 }
 
 /// What a successful re-check covered.
@@ -269,6 +299,9 @@ pub struct Rechecked {
     pub leaves: usize,
     /// Counterexamples re-confirmed.
     pub counterexamples: usize,
+    /// Each actuator's command against its limits as re-checked: `saturation-free` (its
+    /// proof re-evaluated), `saturates` (its point re-confirmed), `undecided`, `not checked`.
+    pub actuators: Vec<(String, &'static str)>,
 }
 
 /// Why a certificate was rejected.
@@ -357,20 +390,13 @@ pub fn recheck(
         goals: 0,
         leaves: 0,
         counterexamples: 0,
+        actuators: Vec::new(),
     };
     let mut statuses = Vec::new();
     for (gi, (gj, pg)) in goals.iter().zip(&prepared.goals).enumerate() {
         let c = &pg.compiled;
         let at = format!("goal {} ({})", gi + 1, c.goal.label);
-        if gj.get("expr").and_then(Value::as_str) != Some(c.text.as_str())
-            || gj.get("test") != Some(&test_json(&c.goal.test))
-            || gj.get("dims") != Some(&json!(c.names))
-        {
-            return reject(format!(
-                "{at}: expression, test or coordinates differ from the spec's"
-            ));
-        }
-        let status = field(gj, "status", &at)?.as_str().unwrap_or("");
+        let status = statement(gj, c, &at)?;
         statuses.push(status.to_string());
         // an ultimate bound's claim goal is proved at the certificate's level
         let mut at_level = None;
@@ -382,41 +408,51 @@ pub fn recheck(
             }
         }
         let c = at_level.as_ref().unwrap_or(c);
-        match status {
-            "proven" => out.leaves += recheck_tree(gj, c, prepared.root(gi), &at)?,
-            "refuted" => {
-                let cx = field(gj, "counterexample", &at)?;
-                let bad = || Rejection(format!("{at}: malformed counterexample"));
-                let point = parse_point(field(cx, "point", &at)?).ok_or_else(bad)?;
-                let bracket = match cx.get("bracket").and_then(Value::as_array) {
-                    Some(ends) if ends.len() == 2 => Some([
-                        parse_point(&ends[0]).ok_or_else(bad)?,
-                        parse_point(&ends[1]).ok_or_else(bad)?,
-                    ]),
-                    Some(_) => return Err(bad()),
-                    None => None,
-                };
-                if point.len() != c.dims.len() {
-                    return reject(format!("{at}: the counterexample has the wrong dimension"));
-                }
-                let counter = Counter {
-                    point,
-                    value: f64::NAN,
-                    enclosure: Interval::point(0.0),
-                    bracket,
-                };
-                let mut s = Scratch::default();
-                if !reconfirm(c, &counter, &mut s) {
-                    return reject(format!(
-                        "{at}: the recorded counterexample does not refute the goal"
-                    ));
-                }
-                out.counterexamples += 1;
-            }
-            "inconclusive" | "skipped" => {}
-            other => return reject(format!("{at}: unknown status `{other}`")),
+        evidence(gj, c, prepared.root(gi), status, &at, &mut out)?;
+    }
+    // each actuator's command against its limits, as the spec declares them
+    let actuators = field(cert, "actuators", "certificate")?
+        .as_array()
+        .ok_or_else(|| Rejection("`actuators` is not a list".into()))?;
+    if actuators.len() != prepared.actuators.len() {
+        return reject(format!(
+            "the certificate has {} actuators, the spec {}",
+            actuators.len(),
+            prepared.actuators.len()
+        ));
+    }
+    for (k, (aj, ag)) in actuators.iter().zip(&prepared.actuators).enumerate() {
+        let c = &ag.compiled;
+        let at = format!("actuator `{}`", ag.actuator);
+        if aj.get("actuator").and_then(Value::as_str) != Some(ag.actuator.as_str()) {
+            return reject(format!("{at}: the certificate names another actuator here"));
         }
-        out.goals += 1;
+        let limits = limits_json(ag);
+        if aj.get("limits") != Some(&limits) {
+            return reject(format!("{at}: the limits differ from the spec's {limits}"));
+        }
+        let status = statement(aj, c, &at)?;
+        let mut tally = Rechecked {
+            actuators: Vec::new(),
+            ..out
+        };
+        let root = prepared.actuator_root(k);
+        if let Some(point) = evidence(aj, c, root, status, &at, &mut tally)? {
+            // outside the limits themselves, not only outside the test's f64 ends
+            if !ag.outside(c.at_point(&point, &mut Scratch::default())) {
+                return reject(format!(
+                    "{at}: the recorded point is not outside the declared limits"
+                ));
+            }
+        }
+        out.leaves = tally.leaves;
+        let word = match status {
+            "proven" => "saturation-free",
+            "refuted" => "saturates",
+            "inconclusive" => "undecided",
+            _ => "not checked",
+        };
+        out.actuators.push((ag.actuator.clone(), word));
     }
     let implied = if statuses.iter().any(|s| s == "refuted") {
         Verdict::Falsified
@@ -436,6 +472,71 @@ pub fn recheck(
     }
     out.verdict = implied;
     Ok(out)
+}
+
+/// A goal's statement in the certificate must be the spec's: its expression, test and
+/// coordinates. Returns its status.
+fn statement<'a>(gj: &'a Value, c: &Compiled, at: &str) -> Result<&'a str, Rejection> {
+    if gj.get("expr").and_then(Value::as_str) != Some(c.text.as_str())
+        || gj.get("test") != Some(&test_json(&c.goal.test))
+        || gj.get("dims") != Some(&json!(c.names))
+    {
+        return reject(format!(
+            "{at}: expression, test or coordinates differ from the spec's"
+        ));
+    }
+    Ok(field(gj, "status", at)?.as_str().unwrap_or(""))
+}
+
+/// Re-checks a goal's evidence for its status: every leaf of a proof's tree, or the
+/// counterexample (returned, when it is one point).
+fn evidence(
+    gj: &Value,
+    c: &Compiled,
+    root: Vec<Interval>,
+    status: &str,
+    at: &str,
+    out: &mut Rechecked,
+) -> Result<Option<Vec<f64>>, Rejection> {
+    out.goals += 1;
+    match status {
+        "proven" => {
+            out.leaves += recheck_tree(gj, c, root, at)?;
+            Ok(None)
+        }
+        "refuted" => {
+            let cx = field(gj, "counterexample", at)?;
+            let bad = || Rejection(format!("{at}: malformed counterexample"));
+            let point = parse_point(field(cx, "point", at)?).ok_or_else(bad)?;
+            let bracket = match cx.get("bracket").and_then(Value::as_array) {
+                Some(ends) if ends.len() == 2 => Some([
+                    parse_point(&ends[0]).ok_or_else(bad)?,
+                    parse_point(&ends[1]).ok_or_else(bad)?,
+                ]),
+                Some(_) => return Err(bad()),
+                None => None,
+            };
+            if point.len() != c.dims.len() {
+                return reject(format!("{at}: the counterexample has the wrong dimension"));
+            }
+            let one_point = bracket.is_none().then(|| point.clone());
+            let counter = Counter {
+                point,
+                value: f64::NAN,
+                enclosure: Interval::point(0.0),
+                bracket,
+            };
+            if !reconfirm(c, &counter, &mut Scratch::default()) {
+                return reject(format!(
+                    "{at}: the recorded counterexample does not refute the goal"
+                ));
+            }
+            out.counterexamples += 1;
+            Ok(one_point)
+        }
+        "inconclusive" | "skipped" => Ok(None),
+        other => reject(format!("{at}: unknown status `{other}`")),
+    }
 }
 
 /// Re-checks the ultimate-bound section of a proven claim: every sublevel proof's tree, and

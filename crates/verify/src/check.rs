@@ -108,12 +108,14 @@ pub struct Counterexample {
     pub sign_change: bool,
 }
 
-/// Share of the domain where an actuator command leaves its limits.
+/// An actuator's command against its limits over the domain: proved to stay within them
+/// (saturation-free), a point where it leaves them, or undecided; and the share of sampled
+/// domain points where it leaves them.
 #[derive(Clone, Debug)]
 pub struct Saturation {
     /// Actuator.
     pub actuator: String,
-    /// Declared limits.
+    /// Declared limits (nearest f64).
     pub limits: (f64, f64),
     /// Share of samples outside the limits.
     pub share: f64,
@@ -121,6 +123,31 @@ pub struct Saturation {
     pub seen: (f64, f64),
     /// Samples.
     pub samples: usize,
+    /// The goal `lo <= command <= hi`: proven (saturation-free over the domain), refuted (the
+    /// command leaves its limits at a point), inconclusive, or skipped (not asked, or the
+    /// laws are not defined everywhere).
+    pub status: Status,
+    /// Where it leaves its limits, in every symbol.
+    pub point: Option<Counterexample>,
+    /// Its expression in proof coordinates.
+    pub text: String,
+    /// The goal's search coordinates (problem indices).
+    pub dims: Vec<usize>,
+    /// Branch and bound.
+    pub search: Option<Report>,
+}
+
+impl Saturation {
+    /// The verdict's name in reports and JSON: `saturation-free`, `saturates`, `undecided`
+    /// or `not checked`.
+    pub fn verdict(&self) -> &'static str {
+        match self.status {
+            Status::Proven => "saturation-free",
+            Status::Refuted(_) => "saturates",
+            Status::Inconclusive(_) => "undecided",
+            Status::Skipped => "not checked",
+        }
+    }
 }
 
 /// Everything `check` found.
@@ -313,7 +340,13 @@ pub fn check(
         // + 0.0: a margin of −0 (V̇ = 0 where sampled) is 0
         .map(|s| s.min_margin + 0.0)
         .filter(|m| m.is_finite());
-    let saturation = saturation(&prepared, spec, settings.samples);
+    let decide = settings.actuators && well_posed != Some(false);
+    let saturation = saturation(&prepared, settings, decide, progress);
+    boxes += saturation
+        .iter()
+        .filter_map(|a| a.search.as_ref())
+        .map(|s| s.boxes)
+        .sum::<usize>();
     let report = CheckReport {
         name: spec.name.clone(),
         claim: spec.claim.clone(),
@@ -338,40 +371,54 @@ pub fn check(
     Ok((report, prepared))
 }
 
-/// Samples the whole domain (points meeting the constraints) and counts, per actuator, the
-/// points where the command leaves its limits.
-fn saturation(prepared: &Prepared, spec: &Spec, samples: usize) -> Vec<Saturation> {
+/// Per actuator: samples the whole domain (points meeting the constraints) and counts the
+/// points where the command leaves its limits; then, when `decide`, proves the command within
+/// its limits over the domain or finds a point where it leaves them (sampled, then branch and
+/// bound, as every goal).
+fn saturation(
+    prepared: &Prepared,
+    settings: &Settings,
+    decide: bool,
+    progress: &(dyn Fn(&str, usize, usize) + Sync),
+) -> Vec<Saturation> {
     let (problem, forms, full) = (&prepared.problem, &prepared.forms, &prepared.full);
     let names: Vec<String> = problem.variables.iter().map(|v| v.name.clone()).collect();
     let refs: Vec<&str> = names.iter().map(String::as_str).collect();
     let root = problem.declared_box();
     let mut out = Vec::new();
-    for (a, (name, e)) in spec.actuators.iter().zip(&forms.actuators) {
-        let Ok(tape) = Tape::compile(&problem.dag, &[*e], &refs) else {
-            continue;
-        };
+    for (k, (ag, (_, e))) in prepared.actuators.iter().zip(&forms.actuators).enumerate() {
+        let tape = Tape::compile(&problem.dag, &[*e], &refs).ok();
+        let limits = ag.limits.nearest();
         let (mut outside, mut n) = (0usize, 0usize);
         let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
         let mut scratch = Vec::new();
         let seq = Sequence::new(root.len());
-        for i in 1..=samples as u64 {
+        for i in (1..=settings.samples as u64).filter(|_| tape.is_some()) {
             let x = seq.point(i, &root);
             if !full.feasible(&x) {
                 continue;
             }
             let mut o = [0.0];
-            tape.eval_into(&x, &mut scratch, &mut o);
+            if let Some(t) = &tape {
+                t.eval_into(&x, &mut scratch, &mut o);
+            }
             let v = o[0];
             n += 1;
             lo = lo.min(v);
             hi = hi.max(v);
-            if !(a.limits.0..=a.limits.1).contains(&v) {
+            if !(limits.0..=limits.1).contains(&v) {
                 outside += 1;
             }
         }
+        let c = &ag.compiled;
+        let (status, search) = if decide {
+            decide_limits(prepared, k, settings, progress)
+        } else {
+            (Status::Skipped, None)
+        };
         out.push(Saturation {
-            actuator: name.clone(),
-            limits: a.limits,
+            actuator: ag.actuator.clone(),
+            limits,
             share: if n > 0 {
                 outside as f64 / n as f64
             } else {
@@ -379,7 +426,50 @@ fn saturation(prepared: &Prepared, spec: &Spec, samples: usize) -> Vec<Saturatio
             },
             seen: (lo, hi),
             samples: n,
+            point: match &status {
+                Status::Refuted(cx) => Some(prepared.saturation_point(k, cx)),
+                _ => None,
+            },
+            status,
+            text: c.text.clone(),
+            dims: c.dims.clone(),
+            search,
         });
     }
     out
+}
+
+/// Decides actuator `k`'s goal. A point is a counterexample only where the command's
+/// enclosure lies outside the declared limits themselves, not just outside the test's f64
+/// ends inside them.
+fn decide_limits(
+    prepared: &Prepared,
+    k: usize,
+    settings: &Settings,
+    progress: &(dyn Fn(&str, usize, usize) + Sync),
+) -> (Status, Option<Report>) {
+    let ag = &prepared.actuators[k];
+    let c = &ag.compiled;
+    let root = prepared.actuator_root(k);
+    let confirmed = |cx: Counter| {
+        if ag.outside(cx.enclosure) {
+            Status::Refuted(cx)
+        } else {
+            Status::Inconclusive(format!(
+                "`{}` reaches its limit within rounding at one point",
+                ag.actuator
+            ))
+        }
+    };
+    if let Some(cx) = falsify(c, &root, settings.samples).counter {
+        return (confirmed(cx), None);
+    }
+    let label = &c.goal.label;
+    let rep = search(c, &root, &settings.budget, &|b, o| progress(label, b, o));
+    let status = match &rep.outcome {
+        Outcome::Proven => Status::Proven,
+        Outcome::Refuted(cx) => confirmed(cx.clone()),
+        Outcome::Inconclusive(why) => Status::Inconclusive(why.clone()),
+    };
+    (status, Some(rep))
 }

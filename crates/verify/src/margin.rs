@@ -144,6 +144,10 @@ pub fn margin(
             required: required.to_vec(),
         };
         let label = format!("{quantity} x {t:.3}");
+        let settings = &Settings {
+            actuators: false,
+            ..settings.clone()
+        };
         let (report, _) = check(&mut spec, settings, &|l, b, o| {
             progress(&format!("{label}: {l}"), b, o)
         })?;

@@ -10,7 +10,7 @@ use crate::problem::{Problem, ProofForms};
 use crate::sample::Sequence;
 use crate::search::Counter;
 use lawsmith_expr::{Arith, Tape};
-use lawsmith_spec::{derive, Claim, Spec};
+use lawsmith_spec::{derive, Claim, Range, Spec};
 
 /// A full point of the domain: `dims` from `point`, every other coordinate from the first
 /// low-discrepancy point of the domain that meets every constraint (midpoints if none does).
@@ -71,6 +71,29 @@ pub struct PreparedGoal {
     pub compiled: Compiled,
 }
 
+/// An actuator's command within its limits, as a goal: `lo <= command <= hi` over the whole
+/// domain, its test the largest f64 interval inside the exact limits (so a proof holds of the
+/// declared limits; a point outside the test's ends but not outside the limits is no
+/// counterexample, see [`ActuatorGoal::outside`]).
+#[derive(Debug)]
+pub struct ActuatorGoal {
+    /// The actuator.
+    pub actuator: String,
+    /// Its limits as declared.
+    pub limits: Range,
+    /// The goal, compiled.
+    pub compiled: Compiled,
+}
+
+impl ActuatorGoal {
+    /// Does this enclosure of the command lie wholly outside the declared limits (the
+    /// smallest f64 interval holding them)?
+    pub fn outside(&self, f: Interval) -> bool {
+        let (lo, hi) = self.limits.outward();
+        !f.is_empty() && (f.hi() < lo || f.lo() > hi)
+    }
+}
+
 /// A spec turned into goals, ready to be sampled and searched (by [`check`]) or to have a
 /// certificate's leaves re-evaluated (by [`crate::recheck`]).
 #[derive(Debug)]
@@ -87,6 +110,8 @@ pub struct Prepared {
     pub quantity: String,
     /// How the claim's goal is decided.
     pub strategy: Strategy,
+    /// Per actuator, in the spec's order: its command within its limits.
+    pub actuators: Vec<ActuatorGoal>,
     pub(crate) full: FullTapes,
 }
 
@@ -128,6 +153,27 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
         });
     }
     let strategy = plan.strategy(&mut problem)?;
+    let mut actuators = Vec::new();
+    for (a, (_, e)) in spec.actuators.iter().zip(&forms.actuators) {
+        let (lo, hi) = a.limits.inward();
+        let goal = Goal {
+            label: format!(
+                "{} <= {} <= {}",
+                a.limits.lo.value(),
+                a.name,
+                a.limits.hi.value()
+            ),
+            expr: *e,
+            test: Test::Within { lo, hi },
+            origin: false,
+            region: None,
+        };
+        actuators.push(ActuatorGoal {
+            actuator: a.name.clone(),
+            limits: a.limits.clone(),
+            compiled: Compiled::new(&mut problem, goal).map_err(CheckError::new)?,
+        });
+    }
     let names: Vec<String> = problem.variables.iter().map(|v| v.name.clone()).collect();
     let name_refs: Vec<&str> = names.iter().map(String::as_str).collect();
     let full = FullTapes {
@@ -146,6 +192,7 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
         claim: spec.claim.clone(),
         quantity: plan.quantity,
         strategy,
+        actuators,
         full,
     })
 }
@@ -154,6 +201,11 @@ impl Prepared {
     /// The root box of a goal.
     pub fn root(&self, goal: usize) -> Vec<Interval> {
         root_of(&self.problem, &self.goals[goal].compiled.dims)
+    }
+
+    /// The root box of actuator `k`'s goal.
+    pub fn actuator_root(&self, k: usize) -> Vec<Interval> {
+        root_of(&self.problem, &self.actuators[k].compiled.dims)
     }
 
     /// The goal `V > level` of a level strategy (its test is set per proof).
@@ -185,14 +237,32 @@ impl Prepared {
 
     /// A counterexample of goal `goal` at `point` (over its dims) in every symbol.
     pub fn counterexample(&self, goal: usize, cx: &Counter) -> Counterexample {
-        let c = &self.goals[goal].compiled;
+        let g = &self.goals[goal];
+        self.counterexample_of(&g.compiled, Some(g.kind), cx)
+    }
+
+    /// A point where actuator `k`'s command leaves its limits, in every symbol.
+    pub fn saturation_point(&self, k: usize, cx: &Counter) -> Counterexample {
+        self.counterexample_of(&self.actuators[k].compiled, None, cx)
+    }
+
+    /// A counterexample of a compiled goal of this kind (None: an actuator's limits).
+    fn counterexample_of(
+        &self,
+        c: &Compiled,
+        kind: Option<GoalKind>,
+        cx: &Counter,
+    ) -> Counterexample {
         let x = complete(&self.problem, &self.full, &c.dims, &cx.point);
         // goals are stated as `f < 0`; show the quantity as the statement reads
-        let (quantity, sign) = match (self.goals[goal].kind, c.goal.test) {
-            (GoalKind::Positive, _) => ("V".to_string(), -1.0),
-            (GoalKind::Claim, _) => (self.quantity.clone(), 1.0),
-            (GoalKind::Condition, Test::Negative { .. }) => ("the expression".to_string(), -1.0),
-            (GoalKind::Condition, _) => ("the expression".to_string(), 1.0),
+        let (quantity, sign) = match (kind, c.goal.test) {
+            (Some(GoalKind::Positive), _) => ("V".to_string(), -1.0),
+            (Some(GoalKind::Claim), _) => (self.quantity.clone(), 1.0),
+            (Some(GoalKind::Condition), Test::Negative { .. }) => {
+                ("the expression".to_string(), -1.0)
+            }
+            (Some(GoalKind::Condition), _) => ("the expression".to_string(), 1.0),
+            (None, _) => ("the command".to_string(), 1.0),
         };
         let mut scratch = Vec::new();
         let mut o = [0.0];
@@ -215,8 +285,7 @@ impl Prepared {
                 cx.enclosure
             },
             // V̇ was simplified assuming the conditions: where one fails it means nothing
-            vdot: (self.goals[goal].kind != GoalKind::Condition && o[0].is_finite())
-                .then_some(o[0]),
+            vdot: (kind != Some(GoalKind::Condition) && o[0].is_finite()).then_some(o[0]),
             sign_change: cx.bracket.is_some(),
         }
     }

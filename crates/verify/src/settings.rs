@@ -17,6 +17,10 @@ pub struct Settings {
     /// Limits of the symbolic work (`--max-nodes`, `--max-term-products`), applied to the
     /// spec's DAG before the derivation.
     pub dag: DagLimits,
+    /// Decide, per actuator, whether its command stays within its limits over the domain
+    /// (a proof, or a point where it leaves them); `margin` turns it off, since it asks only
+    /// for bounds.
+    pub actuators: bool,
 }
 
 impl Default for Settings {
@@ -28,6 +32,7 @@ impl Default for Settings {
             budget: Budget::default(),
             bound: BoundSettings::default(),
             dag: DagLimits::default(),
+            actuators: true,
         }
     }
 }

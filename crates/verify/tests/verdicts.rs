@@ -58,9 +58,35 @@ fn expected(path: &Path) -> Verdict {
     }
 }
 
+/// The `# actuators: NAME VERDICT` lines of a check case: each command's expected verdict
+/// against its limits.
+fn expected_actuators(path: &Path) -> Vec<(String, String)> {
+    let text = std::fs::read_to_string(path).unwrap();
+    text.lines()
+        .take_while(|l| l.starts_with('#'))
+        .filter_map(|l| l.strip_prefix("# actuators: "))
+        .map(|l| {
+            let (name, verdict) = l.split_once(' ').unwrap();
+            (name.to_string(), verdict.to_string())
+        })
+        .collect()
+}
+
 fn check_one(path: &Path, dir: &str) {
     let (r, p, bytes) = run(path);
     assert_eq!(r.verdict, expected(path), "{}", report::text(&r, "", false));
+    let got: Vec<(String, String)> = r
+        .saturation
+        .iter()
+        .map(|s| (s.actuator.clone(), s.verdict().to_string()))
+        .collect();
+    for want in expected_actuators(path) {
+        assert!(
+            got.contains(&want),
+            "{}: {want:?} not in {got:?}",
+            path.display()
+        );
+    }
     if r.verdict == Verdict::Falsified {
         let cx = r.counterexample.as_ref().expect("a counterexample");
         assert!(cx.point.len() >= p.problem.variables.len());
@@ -68,6 +94,12 @@ fn check_one(path: &Path, dir: &str) {
     let cert = cert_of(&r, &p, &bytes);
     let ok = recheck_ok(&cert, &bytes).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
     assert_eq!(ok.verdict, r.verdict);
+    let rechecked: Vec<(String, String)> = ok
+        .actuators
+        .iter()
+        .map(|(a, w)| (a.clone(), w.to_string()))
+        .collect();
+    assert_eq!(rechecked, got, "{}", path.display());
     let name = format!("{dir}/{}", path.file_name().unwrap().to_string_lossy());
     insta::assert_snapshot!(report::text(&r, &name, false));
 }
@@ -204,6 +236,44 @@ fn edited_certificates_are_rejected() {
     let mut c = cert.clone();
     c["goals"][claim]["status"] = json!("inconclusive");
     edits.push(("a goal's status changed (the verdict then disagrees)", c));
+    // the actuators: thrust_cmd saturates at a recorded point
+    let act = cert["actuators"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .position(|a| a["actuator"] == "thrust_cmd" && a["status"] == "refuted")
+        .expect("thrust_cmd saturates (12% of the sampled domain commands beyond its limits)");
+    let mut c = cert.clone();
+    c["actuators"][act]["status"] = json!("proven");
+    edits.push(("a saturating actuator called saturation-free", c));
+    let mut c = cert.clone();
+    let pt = c["actuators"][act]["counterexample"]["point"].clone();
+    let dims = c["actuators"][act]["dims"].clone();
+    let mut moved = pt.clone();
+    // the domain's centre: the command there is the trim thrust, inside [0, 45] N
+    for (i, d) in dims.as_array().unwrap().iter().enumerate() {
+        if let Some(v) = cert["domain"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|v| v["name"] == *d)
+        {
+            let r = v["range"].as_array().unwrap();
+            moved[i] = json!((r[0].as_f64().unwrap() + r[1].as_f64().unwrap()) / 2.0);
+        }
+    }
+    assert_ne!(moved, pt);
+    c["actuators"][act]["counterexample"]["point"] = moved;
+    edits.push(("a saturation point moved inside the limits", c));
+    let mut c = cert.clone();
+    c["actuators"][act]["actuator"] = json!("elevator");
+    edits.push(("an actuator renamed", c));
+    let mut c = cert.clone();
+    c["actuators"][act]["limits"][1] = json!("60");
+    edits.push(("an actuator's limits widened", c));
+    let mut c = cert.clone();
+    c["actuators"].as_array_mut().unwrap().remove(act);
+    edits.push(("an actuator dropped", c));
     for (what, c) in edits {
         let e = recheck_ok(&c, &bytes).expect_err(what);
         println!("{what}: rejected: {e}");

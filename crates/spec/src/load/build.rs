@@ -248,7 +248,7 @@ impl Loader<'_> {
                     name: name.clone(),
                     law: id,
                     unit: unit.clone(),
-                    limits: l.nearest(),
+                    limits: l.clone(),
                 });
             }
         }

@@ -4,7 +4,7 @@
 pub mod margin;
 
 use crate::bound::{BoundOutcome, BoundReport};
-use crate::check::{CheckReport, GoalKind, GoalResult, Status};
+use crate::check::{CheckReport, Counterexample, GoalKind, GoalResult, Status};
 use crate::goal::Test;
 use serde_json::{json, Map, Value};
 use std::fmt::Write as _;
@@ -217,20 +217,50 @@ pub fn text(r: &CheckReport, path: &str, timings: bool) -> String {
     if !r.saturation.is_empty() {
         let _ = writeln!(
             s,
-            "\nsaturation (the proof assumes the unsaturated law; share of sampled domain points):"
+            "\nsaturation (each command against its limits over the whole domain; the proof \
+             assumes the unsaturated law):"
         );
         for a in &r.saturation {
+            let how = match &a.status {
+                Status::Proven => {
+                    let n = a.search.as_ref().map_or(0, |s| s.boxes);
+                    format!("proved in {n} box{}", if n == 1 { "" } else { "es" })
+                }
+                Status::Refuted(_) => "at the point below".into(),
+                Status::Inconclusive(why) => why.clone(),
+                Status::Skipped => "not decided (the laws are not defined everywhere)".into(),
+            };
             let _ = writeln!(
                 s,
-                "  {:<12} {:>6.2}% outside [{}, {}]   (commands seen {} .. {}, {} points)",
+                "  {:<12} {:<15} {how}\n  {:<12} {:<15} {:.2}% of {} sampled points outside [{}, {}] \
+                 (commands seen {} .. {})",
                 a.actuator,
+                a.verdict(),
+                "",
+                "",
                 100.0 * a.share,
+                a.samples,
                 sig(a.limits.0),
                 sig(a.limits.1),
                 sig(a.seen.0),
                 sig(a.seen.1),
-                a.samples
             );
+            if let Some(p) = &a.point {
+                let point: Vec<String> = p
+                    .point
+                    .iter()
+                    .map(|(n, v)| format!("{n} = {}", sig(*v)))
+                    .collect();
+                let _ = writeln!(
+                    s,
+                    "  {:<12} {:<15} {} = {} at {} (every digit in --format json)",
+                    "",
+                    "",
+                    a.actuator,
+                    sig(p.value),
+                    point.join(", ")
+                );
+            }
         }
     }
     if let Some(cx) = &r.counterexample {
@@ -403,36 +433,55 @@ fn test_text(t: &Test) -> String {
     }
 }
 
-/// The report as JSON: `{"verdict", "claim", "well_posed", "saturation": {actuator: share},
-/// "counterexample": {"point": {symbol: value}, "vdot": value, …} | null, "boxes",
-/// "min_margin", "seconds", …}`.
+/// A counterexample as JSON: the goal, every symbol's value, the errors, the quantity and its
+/// value, V̇ there.
+fn counterexample_json(cx: &Counterexample) -> Value {
+    let point: Map<String, Value> = cx
+        .point
+        .iter()
+        .map(|(n, v)| (n.clone(), json!(v)))
+        .collect();
+    let errors: Map<String, Value> = cx
+        .coordinates
+        .iter()
+        .filter(|(n, _)| n.starts_with('Δ'))
+        .map(|(n, v)| (n.trim_start_matches('Δ').to_string(), json!(v)))
+        .collect();
+    json!({
+        "goal": cx.goal,
+        "point": point,
+        "errors": errors,
+        "quantity": cx.quantity,
+        "value": cx.value,
+        "vdot": cx.vdot,
+        "sign_change": cx.sign_change,
+    })
+}
+
+/// The report as JSON: `{"verdict", "claim", "well_posed", "saturation": {actuator:
+/// {"verdict", "limits", "share", "point", …}}, "counterexample": {"point": {symbol: value},
+/// "vdot": value, …} | null, "boxes", "min_margin", "seconds", …}`.
 pub fn json(r: &CheckReport, path: &str) -> Value {
     let mut saturation = Map::new();
     for a in &r.saturation {
-        saturation.insert(a.actuator.clone(), json!(a.share));
+        saturation.insert(
+            a.actuator.clone(),
+            json!({
+                "verdict": a.verdict(),
+                "limits": [a.limits.0, a.limits.1],
+                "share": a.share,
+                "samples": a.samples,
+                "seen": [a.seen.0, a.seen.1],
+                "boxes": a.search.as_ref().map(|s| s.boxes),
+                "reason": match &a.status { Status::Inconclusive(why) => Some(why), _ => None },
+                "point": a.point.as_ref().map(counterexample_json),
+            }),
+        );
     }
-    let counterexample = r.counterexample.as_ref().map_or(Value::Null, |cx| {
-        let point: Map<String, Value> = cx
-            .point
-            .iter()
-            .map(|(n, v)| (n.clone(), json!(v)))
-            .collect();
-        let errors: Map<String, Value> = cx
-            .coordinates
-            .iter()
-            .filter(|(n, _)| n.starts_with('Δ'))
-            .map(|(n, v)| (n.trim_start_matches('Δ').to_string(), json!(v)))
-            .collect();
-        json!({
-            "goal": cx.goal,
-            "point": point,
-            "errors": errors,
-            "quantity": cx.quantity,
-            "value": cx.value,
-            "vdot": cx.vdot,
-            "sign_change": cx.sign_change,
-        })
-    });
+    let counterexample = r
+        .counterexample
+        .as_ref()
+        .map_or(Value::Null, counterexample_json);
     let goals: Vec<Value> = r
         .goals
         .iter()
