@@ -10,6 +10,9 @@
 //! every counterexample and requires V̇ ≥ 0 (or |argument| > 1), and (2) searches each mutant
 //! for a violation on its own, by sampling; any mutant it shows false must not be `proven`,
 //! and must be `falsified`.
+//!
+//! Limit mutants: an actuator that is saturation-free as written, its limit tightened below
+//! its largest command over the box (elementary), must never be reported saturation-free.
 
 use lawsmith_expr::{parse, Ast, AstKind};
 use lawsmith_verify::{check, Budget, GoalKind, Settings, Verdict};
@@ -265,4 +268,87 @@ fn no_false_mutant_is_proven_and_every_counterexample_is_real() {
         .filter(|c| c["well_posed"] == json!(false))
         .count();
     assert!(ill_posed >= 2, "the widened error boxes must be ill-posed");
+}
+
+/// A spec with one actuator's limits replaced by `[lo, hi]`.
+fn with_limits(yaml: &str, actuator: &str, lo: f64, hi: f64) -> String {
+    let (i, line) = yaml
+        .lines()
+        .enumerate()
+        .find(|(_, l)| {
+            l.trim_start().starts_with(&format!("{actuator}:")) && l.contains("limits: [")
+        })
+        .unwrap_or_else(|| panic!("no limits for {actuator}"));
+    let at = line.find("limits: [").unwrap();
+    let end = at + line[at..].find(']').unwrap();
+    let new = format!("{}limits: [{lo}, {hi}]{}", &line[..at], &line[end + 1..]);
+    replace_line(yaml, i, &new)
+}
+
+#[test]
+fn a_limit_tightened_until_the_command_must_saturate_is_never_saturation_free() {
+    // Each actuator below is saturation-free as written. Its largest command over the box is
+    // elementary: |u| = k*|x| <= 3*2 = 6 m/s for u = -k*x (k in [0.5, 3], x's error in
+    // [-2, 2]), |torque| = k_d*|omega| <= 0.5*4 = 2 N*m for the pendulum, each reached at two
+    // corners of the box only, where sampling never lands. A limit tightened below it by a
+    // part in 10^6, 10^3 or 10 must make the command leave its limits somewhere, so the
+    // verdict must never be `saturation-free`: `saturates` with a point that recheck confirms
+    // beyond the tightened limits, or `undecided`.
+    let cases = [
+        ("tests/data/check/saturation_free.yaml", "u_cmd", 6.0),
+        ("specs/pendulum_damping.yaml", "torque_cmd", 2.0),
+    ];
+    let settings = Settings {
+        budget: Budget {
+            max_boxes: 20_000,
+            ..Budget::default()
+        },
+        ..Settings::default()
+    };
+    let mut saturates = 0;
+    for (file, actuator, largest) in cases {
+        let yaml = std::fs::read_to_string(root().join(file)).unwrap();
+        for part in [1e-6, 1e-3, 0.1] {
+            let limit = largest * (1.0 - part);
+            for (lo, hi) in [(-largest - 1.0, limit), (-limit, largest + 1.0)] {
+                let text = with_limits(&yaml, actuator, lo, hi);
+                let mut spec = lawsmith_spec::load(&text).unwrap();
+                let (report, prepared) = check(&mut spec, &settings, &|_, _, _| {}).unwrap();
+                let s = report
+                    .saturation
+                    .iter()
+                    .find(|s| s.actuator == actuator)
+                    .unwrap();
+                println!("{file} {actuator} limits [{lo}, {hi}]: {}", s.verdict());
+                assert_ne!(s.verdict(), "saturation-free", "{file}: [{lo}, {hi}]");
+                if s.verdict() == "saturates" {
+                    saturates += 1;
+                    let cert = lawsmith_verify::certificate(
+                        &report,
+                        &prepared,
+                        &lawsmith_verify::Origin {
+                            file: "spec.yaml",
+                            sha256: lawsmith_verify::sha256_hex(text.as_bytes()),
+                            tool_version: "test",
+                            settings: json!({}),
+                        },
+                    );
+                    let mut again = lawsmith_spec::load(&text).unwrap();
+                    let p = lawsmith_verify::prepare(&mut again).unwrap();
+                    let ok = lawsmith_verify::recheck(
+                        &cert,
+                        &lawsmith_verify::sha256_hex(text.as_bytes()),
+                        &p,
+                    )
+                    .unwrap_or_else(|e| panic!("{file}: [{lo}, {hi}]: {}", e.0));
+                    assert!(ok.actuators.contains(&(actuator.to_string(), "saturates")));
+                }
+            }
+        }
+    }
+    // a tenth below the largest command, sampling alone finds points beyond the limit
+    assert!(
+        saturates >= 4,
+        "only {saturates} of 12 tightened limits shown saturating"
+    );
 }
