@@ -16,6 +16,10 @@
 
 #include <math.h>
 
+#if defined(__FAST_MATH__)
+#error "build without -ffast-math or -Ofast: the NaN and envelope guards of this law need IEEE 754 semantics"
+#endif
+
 static inline double energy_longitudinal_clamp(double x, double lo, double hi)
 {
     return x < lo ? lo : (x > hi ? hi : x);
@@ -57,6 +61,8 @@ void energy_longitudinal_step(const energy_longitudinal_inputs *in, const energy
     double x5 = in->vadot_r;
     double x6 = in->drag;
     double x7 = in->alpha;
+    const double r0 = x2;
+    const double r1 = x3;
     if (!(x2 >= 30.0 && x2 <= 600.0)) {
         domain = true;
         x2 = isnan(x2) ? 315.0 : energy_longitudinal_clamp(x2, 30.0, 600.0);
@@ -82,17 +88,21 @@ void energy_longitudinal_step(const energy_longitudinal_inputs *in, const energy
         x7 = isnan(x7) ? 0.07500000000000001 : energy_longitudinal_clamp(x7, -0.05, 0.2);
     }
     {
-        const double e0 = x0 - x2;
+        const double e0 = x0 - r0;
         if (!(e0 >= -5.0 && e0 <= 5.0)) {
             domain = true;
             x0 = x2 + (isnan(e0) ? 0.0 : energy_longitudinal_clamp(e0, -5.0, 5.0));
+        } else if (x2 != r0) {
+            x0 = x2 + e0;
         }
     }
     {
-        const double e1 = x1 - x3;
+        const double e1 = x1 - r1;
         if (!(e1 >= -2.0 && e1 <= 2.0)) {
             domain = true;
             x1 = x3 + (isnan(e1) ? 0.0 : energy_longitudinal_clamp(e1, -2.0, 2.0));
+        } else if (x3 != r1) {
+            x1 = x3 + e1;
         }
     }
     if (energy_longitudinal_gains_ok(gains)) {

@@ -51,8 +51,10 @@ typedef struct {
     uint32_t limits; /* limits hit: the ENERGY_LONGITUDINAL_LIMIT_* bits */
     bool domain; /* an input was NaN or outside the proved envelope, or the gains outside
                     their proved set: the law was evaluated at the nearest point of the
-                    envelope (a NaN input at its range's midpoint or at zero error),
-                    with the default gains */
+                    envelope (each state's error measured against its reference as
+                    given, then errors and references clamped to their ranges; a NaN
+                    input at its range's midpoint or at zero error), with the default
+                    gains */
 } energy_longitudinal_outputs;
 
 #define ENERGY_LONGITUDINAL_LIMIT_PITCH_CMD_LOW (UINT32_C(1) << 0)

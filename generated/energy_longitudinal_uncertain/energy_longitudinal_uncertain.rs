@@ -116,8 +116,10 @@ pub struct Outputs {
     /// Limits hit: the `LIMIT_*` bits.
     pub limits: u32,
     /// An input was NaN or outside the proved envelope, or the gains outside their
-    /// proved set: the law was evaluated at the nearest point of the envelope (a NaN
-    /// input at its range's midpoint or at zero error), with the default gains.
+    /// proved set: the law was evaluated at the nearest point of the envelope (each
+    /// state's error measured against its reference as given, then errors and
+    /// references clamped to their ranges; a NaN input at its range's midpoint or at
+    /// zero error), with the default gains.
     pub domain: bool,
 }
 ///`limits` bit: `pitch_cmd` was below -0.35 and is saturated to it.
@@ -147,6 +149,8 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
     let mut x5: f64 = inputs.vadot_r;
     let mut x6: f64 = inputs.drag;
     let mut x7: f64 = inputs.alpha;
+    let r0: f64 = x2;
+    let r1: f64 = x3;
     if !(x2 >= 30.0 && x2 <= 600.0) {
         domain = true;
         x2 = if x2.is_nan() { 315.0 } else { clamp_to(x2, 30.0, 600.0) };
@@ -171,15 +175,19 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
         domain = true;
         x7 = if x7.is_nan() { 0.07500000000000001 } else { clamp_to(x7, -0.05, 0.2) };
     }
-    let e0 = x0 - x2;
+    let e0 = x0 - r0;
     if !(e0 >= -8.0 && e0 <= 8.0) {
         domain = true;
         x0 = x2 + if e0.is_nan() { 0.0 } else { clamp_to(e0, -8.0, 8.0) };
+    } else if x2 != r0 {
+        x0 = x2 + e0;
     }
-    let e1 = x1 - x3;
+    let e1 = x1 - r1;
     if !(e1 >= -4.0 && e1 <= 4.0) {
         domain = true;
         x1 = x3 + if e1.is_nan() { 0.0 } else { clamp_to(e1, -4.0, 4.0) };
+    } else if x3 != r1 {
+        x1 = x3 + e1;
     }
     let g: Gains = if gains_valid(gains) {
         *gains

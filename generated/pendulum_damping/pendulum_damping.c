@@ -16,6 +16,10 @@
 
 #include <math.h>
 
+#if defined(__FAST_MATH__)
+#error "build without -ffast-math or -Ofast: the NaN and envelope guards of this law need IEEE 754 semantics"
+#endif
+
 static inline double pendulum_damping_clamp(double x, double lo, double hi)
 {
     return x < lo ? lo : (x > hi ? hi : x);

@@ -68,8 +68,10 @@ pub struct Outputs {
     /// Limits hit: the `LIMIT_*` bits.
     pub limits: u32,
     /// An input was NaN or outside the proved envelope, or the gains outside their
-    /// proved set: the law was evaluated at the nearest point of the envelope (a NaN
-    /// input at its range's midpoint or at zero error), with the default gains.
+    /// proved set: the law was evaluated at the nearest point of the envelope (each
+    /// state's error measured against its reference as given, then errors and
+    /// references clamped to their ranges; a NaN input at its range's midpoint or at
+    /// zero error), with the default gains.
     pub domain: bool,
 }
 ///`limits` bit: `torque_cmd` was below -2 and is saturated to it.

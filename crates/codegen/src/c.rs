@@ -172,7 +172,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         h,
         "    uint32_t limits; /* limits hit: the {up}_LIMIT_* bits */"
     );
-    let _ = writeln!(h, "    bool domain; /* an input was NaN or outside the proved envelope, or the gains outside\n                    their proved set: the law was evaluated at the nearest point of the\n                    envelope (a NaN input at its range's midpoint or at zero error),\n                    with the default gains */");
+    let _ = writeln!(h, "    bool domain; /* an input was NaN or outside the proved envelope, or the gains outside\n                    their proved set: the law was evaluated at the nearest point of the\n                    envelope (each state's error measured against its reference as\n                    given, then errors and references clamped to their ranges; a NaN\n                    input at its range's midpoint or at zero error), with the default\n                    gains */");
     let _ = writeln!(h, "}} {p}_outputs;\n");
     for (i, a) in c.actuators.iter().enumerate() {
         let n = a.name.to_uppercase();
@@ -214,6 +214,8 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     // ---- source ----
     let mut s = comment_block(prov, "C99 source");
     let _ = writeln!(s, "#include \"{p}.h\"\n\n#include <math.h>\n");
+    // -ffast-math (and -Ofast) let the compiler assume no NaN: the guards would vanish
+    let _ = writeln!(s, "#if defined(__FAST_MATH__)\n#error \"build without -ffast-math or -Ofast: the NaN and envelope guards of this law need IEEE 754 semantics\"\n#endif\n");
     let _ = writeln!(s, "static inline {ty} {p}_clamp({ty} x, {ty} lo, {ty} hi)\n{{\n    return x < lo ? lo : (x > hi ? hi : x);\n}}\n");
     let _ = writeln!(s, "{p}_gains {p}_default_gains(void)\n{{\n    {p}_gains g;");
     for g in &c.gains {
@@ -272,6 +274,12 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         let _ = writeln!(s, "    {ty} x{i} = in->{n};");
     }
     let ns = c.states.len();
+    // each state's reference as given, before it is clamped: the error is measured from it
+    for (i, st) in c.states.iter().enumerate() {
+        if let Some(r) = st.reference {
+            let _ = writeln!(s, "    const {ty} r{i} = x{};", ns + r);
+        }
+    }
     for (j, r) in c
         .references
         .iter()
@@ -291,7 +299,11 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         };
         let (lo, hi) = (e.lit(st.error.0), e.lit(st.error.1));
         let zero = e.lit(crate::ir::clamp(0.0, st.error.0, st.error.1));
-        let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - {base};\n        if (!(e{i} >= {lo} && e{i} <= {hi})) {{\n            domain = true;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }}\n    }}");
+        if st.reference.is_some() {
+            let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - r{i};\n        if (!(e{i} >= {lo} && e{i} <= {hi})) {{\n            domain = true;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }} else if ({base} != r{i}) {{\n            x{i} = {base} + e{i};\n        }}\n    }}");
+        } else {
+            let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - {base};\n        if (!(e{i} >= {lo} && e{i} <= {hi})) {{\n            domain = true;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }}\n    }}");
+        }
     }
     let _ = writeln!(s, "    if ({p}_gains_ok(gains)) {{\n        g = *gains;\n    }} else {{\n        domain = true;\n        g = {p}_default_gains();\n    }}");
     let _ = writeln!(s, "    /* the law (in the envelope) */");

@@ -3,10 +3,12 @@
 //! reference interpreter ([`Controller::step`], [`Controller::update`]) every emitter follows
 //! operation for operation.
 //!
-//! `step` evaluates the law at the nearest point of the proved envelope: each reference, rate
-//! and signal is clamped to its declared range, each state's error to its box (a NaN becomes
-//! the range midpoint, or zero error), and gains outside their ranges or constraints are
-//! replaced by the defaults; any of these raises the domain flag. The law is therefore only
+//! `step` evaluates the law at the nearest point of the proved envelope, in proof coordinates:
+//! each state's error is measured against its reference as given and clamped to its box, each
+//! reference, rate and signal is clamped to its declared range, and the state is then the
+//! clamped reference plus the clamped error (a NaN becomes the range midpoint, or zero error;
+//! a NaN reference therefore gives zero error at the midpoint). Gains outside their ranges or
+//! constraints are replaced by the defaults; any of these raises the domain flag. The law is therefore only
 //! ever evaluated where the proof holds, and its output is never NaN. Each command is then
 //! saturated to its limits, with one flag bit per limit hit.
 
@@ -409,6 +411,15 @@ impl Controller {
         let mut x = std::mem::take(&mut ws.x);
         x.clear();
         x.extend_from_slice(inputs);
+        // each state's error against its reference as given, before the reference is
+        // clamped: a reference outside its range moves to its edge with the error kept
+        let mut raw = std::mem::take(&mut ws.bases);
+        raw.clear();
+        raw.extend(
+            self.states
+                .iter()
+                .map(|s| s.reference.map_or(s.equilibrium, |r| x[ns + r])),
+        );
         let mut guard = |v: &mut f64, (lo, hi): (f64, f64)| {
             if !(*v >= lo && *v <= hi) {
                 domain = true;
@@ -433,7 +444,7 @@ impl Controller {
                 Some(r) => x[ns + r],
                 None => s.equilibrium,
             };
-            let e = x[i] - base;
+            let e = x[i] - raw[i];
             let (lo, hi) = s.error;
             if !(e >= lo && e <= hi) {
                 domain = true;
@@ -443,8 +454,11 @@ impl Controller {
                     clamp(e, lo, hi)
                 };
                 x[i] = base + e2;
+            } else if base != raw[i] {
+                x[i] = base + e;
             }
         }
+        ws.bases = raw;
         if self.gains_valid_in(gains, ws) {
             x.extend_from_slice(gains);
         } else {
@@ -533,6 +547,7 @@ impl Controller {
 #[derive(Clone, Debug, Default)]
 pub struct Workspace {
     slots: Vec<f64>,
+    bases: Vec<f64>,
     x: Vec<f64>,
     out: Vec<f64>,
 }

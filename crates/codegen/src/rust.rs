@@ -207,6 +207,13 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
         let (xi, f) = (x(i), field(n));
         guards.extend(quote!(let mut #xi: #ty = inputs.#f;));
     }
+    // each state's reference as given, before it is clamped: the error is measured from it
+    for (i, s) in c.states.iter().enumerate() {
+        if let Some(r) = s.reference {
+            let (raw, xr) = (format_ident!("r{}", i), x(ns + r));
+            guards.extend(quote!(let #raw: #ty = #xr;));
+        }
+    }
     let ranged = c.references.iter().chain(&c.rates).chain(&c.signals);
     for (j, r) in ranged.enumerate() {
         let xi = x(ns + j);
@@ -231,13 +238,26 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
         };
         let (lo, hi) = (e.lit(s.error.0), e.lit(s.error.1));
         let zero = e.lit(crate::ir::clamp(0.0, s.error.0, s.error.1));
-        guards.extend(quote! {
-            let #err = #xi - #base;
+        let guard = quote! {
             if !(#err >= #lo && #err <= #hi) {
                 domain = true;
                 #xi = #base + if #err.is_nan() { #zero } else { clamp_to(#err, #lo, #hi) };
             }
-        });
+        };
+        if s.reference.is_some() {
+            let raw = format_ident!("r{}", i);
+            guards.extend(quote! {
+                let #err = #xi - #raw;
+                #guard else if #base != #raw {
+                    #xi = #base + #err;
+                }
+            });
+        } else {
+            guards.extend(quote! {
+                let #err = #xi - #base;
+                #guard
+            });
+        }
     }
     let _ = nt;
     let _ = nr;
@@ -486,8 +506,10 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             /// Limits hit: the `LIMIT_*` bits.
             pub limits: u32,
             /// An input was NaN or outside the proved envelope, or the gains outside their
-            /// proved set: the law was evaluated at the nearest point of the envelope (a NaN
-            /// input at its range's midpoint or at zero error), with the default gains.
+            /// proved set: the law was evaluated at the nearest point of the envelope (each
+            /// state's error measured against its reference as given, then errors and
+            /// references clamped to their ranges; a NaN input at its range's midpoint or at
+            /// zero error), with the default gains.
             pub domain: bool,
         }
 

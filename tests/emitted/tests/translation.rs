@@ -488,3 +488,116 @@ fn f32_code_compiles_clean_and_stays_close() {
     }
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+#[test]
+fn outside_the_envelope_every_reader_evaluates_the_nearest_envelope_point() {
+    // The proof's coordinates are each state's error and the references, so the nearest
+    // envelope point clamps each of them on its own: an out-of-range reference with zero
+    // tracking error stays at zero error (common practice for a box in these coordinates).
+    let name = "energy_longitudinal";
+    let c = Controller::new(&load(name)).unwrap();
+    let names = c.input_names();
+    let gains: Vec<f64> = c.gains.iter().map(|g| g.default).collect();
+    // a trimmed cruise at 120 m and 22 m/s, inside the envelope
+    let cruise = [
+        ("h", 120.0),
+        ("va", 22.0),
+        ("h_r", 120.0),
+        ("va_r", 22.0),
+        ("hdot_r", 0.0),
+        ("vadot_r", 0.0),
+        ("drag", 8.0),
+        ("alpha", 0.05),
+    ];
+    let point = |set: &[(&str, f64)]| -> Vec<f64> {
+        names
+            .iter()
+            .map(|n| {
+                let find = |l: &[(&str, f64)]| l.iter().find(|(m, _)| m == n).map(|p| p.1);
+                find(set).or(find(&cruise)).unwrap()
+            })
+            .collect()
+    };
+    let cases = [
+        // h = h_r = 20 m, below the 30 m range: zero error at h_r = 30 m (not a 10 m error,
+        // clamped to the 5 m box, as if 5 m low)
+        (
+            point(&[("h", 20.0), ("h_r", 20.0)]),
+            point(&[("h", 30.0), ("h_r", 30.0)]),
+            point(&[("h", 25.0), ("h_r", 30.0)]),
+        ),
+        // va = va_r = 40 m/s, above the 30 m/s range: zero error at va_r = 30 m/s
+        (
+            point(&[("va", 40.0), ("va_r", 40.0)]),
+            point(&[("va", 30.0), ("va_r", 30.0)]),
+            point(&[("va", 32.0), ("va_r", 30.0)]),
+        ),
+        // a NaN altitude reference: zero error at the middle of its range, 315 m
+        (
+            point(&[("h_r", f64::NAN)]),
+            point(&[("h", 315.0), ("h_r", 315.0)]),
+            point(&[("h", 310.0), ("h_r", 315.0)]),
+        ),
+    ];
+    let dir = std::env::temp_dir().join(format!("lawsmith-nearest-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let mut input = vec![cases.len() as f64];
+    for (given, nearest, full_box) in &cases {
+        let got = c.step(given, &gains);
+        let want = c.step(nearest, &gains);
+        assert!(got.domain && !want.domain, "{given:?}");
+        assert_eq!(got.commands, want.commands, "{given:?}");
+        // the test tells the two readings apart: a full-box error commands something else
+        assert_ne!(c.step(full_box, &gains).commands, want.commands);
+        let (cmds, _, domain) = lawsmith_emitted::step(name, given, &gains).unwrap();
+        assert!(domain);
+        let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+        assert_eq!(bits(&cmds), bits(&want.commands), "Rust at {given:?}");
+        input.extend(given);
+        input.extend(&gains);
+    }
+    input.push(0.0);
+    let gen = root().join("generated").join(name);
+    for cc in compilers() {
+        let out = run_c(&build_c(&cc, &dir, &gen, &c, &[]), &input);
+        let per = c.actuators.len() + 2;
+        for (k, (_, nearest, _)) in cases.iter().enumerate() {
+            let want = c.step(nearest, &gains);
+            let row = &out[k * per..(k + 1) * per];
+            for (a, b) in row.iter().zip(&want.commands) {
+                assert!(rel(*a, *b) <= 1e-12, "{cc}: case {k}: {a} vs {b}");
+            }
+            assert!(row[per - 1] != 0.0, "{cc}: case {k}: no domain flag");
+        }
+    }
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn fast_math_builds_stop_at_the_guard() {
+    // -ffast-math and -Ofast let gcc and clang assume that no value is NaN (GCC manual,
+    // "Optimize Options": -ffinite-math-only), which removes the NaN guards; both define
+    // __FAST_MATH__ then, and the generated C refuses to build
+    let dir = std::env::temp_dir().join(format!("lawsmith-fastmath-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    for &name in lawsmith_emitted::SPECS {
+        let gen = root().join("generated").join(name);
+        for cc in compilers() {
+            for flag in ["-Ofast", "-ffast-math"] {
+                let out = Command::new(&cc)
+                    .args(["-std=c99", flag, "-c"])
+                    .arg(gen.join(format!("{name}.c")))
+                    .arg("-I")
+                    .arg(&gen)
+                    .arg("-o")
+                    .arg(dir.join(format!("{name}.o")))
+                    .output()
+                    .unwrap();
+                let err = String::from_utf8_lossy(&out.stderr);
+                assert!(!out.status.success(), "{cc} {flag} built {name}");
+                assert!(err.contains("without -ffast-math"), "{cc} {flag}: {err}");
+            }
+        }
+    }
+    std::fs::remove_dir_all(&dir).unwrap();
+}
