@@ -94,6 +94,7 @@ pub fn check_emit(data: &[u8]) {
         tool_version: String::new(),
         claim: report.claim.name(),
         verdict: report.verdict.name().to_string(),
+        figures: lawsmith_verify::report::proof_figures(&report, ""),
     };
     let _ = lawsmith_codegen::generate(
         &controller,

@@ -80,6 +80,10 @@ pub fn emit_one(
         tool_version: env!("CARGO_PKG_VERSION").to_string(),
         claim: lawsmith_verify::report::claim_summary(&report),
         verdict: report.verdict.name().to_string(),
+        figures: lawsmith_verify::report::proof_figures(
+            &report,
+            &sha256_hex(certificate.as_bytes()),
+        ),
     };
     let files = generate(&controller, &prov, lang, float).map_err(|e| {
         eprintln!("error[emit]: {}: {e}", path.display());
@@ -160,6 +164,9 @@ pub fn emit_cmd(
                             "claim": e.report.claim.name(),
                             "verdict": e.report.verdict.name(),
                             "ops_per_step": e.controller.op_count(),
+                            "boxes": e.report.boxes,
+                            "certificate_sha256": sha256_hex(e.certificate.as_bytes()),
+                            "saturation": e.report.saturation.iter().map(|a| (a.actuator.clone(), json!(a.verdict()))).collect::<serde_json::Map<_, _>>(),
                             "files": names,
                         }));
                     } else {

@@ -76,6 +76,42 @@ fn committed_generated_code_is_up_to_date() {
 }
 
 #[test]
+fn generated_headers_name_the_certificate_that_check_writes() {
+    let dir = std::env::temp_dir().join(format!("lawsmith-certsha-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let cert = dir.join("cert.json");
+    let c = cert.to_str().unwrap();
+    let out = lawsmith(&[
+        "check",
+        "specs/energy_longitudinal.yaml",
+        "--certificate",
+        c,
+    ]);
+    assert_eq!(out.status.code(), Some(0));
+    let sha = lawsmith_verify::sha256_hex(&std::fs::read(&cert).unwrap());
+    let gen = root().join("generated/energy_longitudinal");
+    for file in [
+        "energy_longitudinal.h",
+        "energy_longitudinal.c",
+        "energy_longitudinal.rs",
+    ] {
+        let text = std::fs::read_to_string(gen.join(file)).unwrap();
+        assert!(
+            text.contains(&format!("certificate SHA-256: {sha}")),
+            "{file} does not name the certificate {sha}"
+        );
+        // 12% of the sampled envelope commands negative thrust (README), so both saturate
+        assert!(
+            text.contains("unsaturated law): pitch_cmd saturates, thrust_cmd saturates"),
+            "{file}"
+        );
+    }
+    let out = lawsmith(&["recheck", c, "specs/energy_longitudinal.yaml"]);
+    assert_eq!(out.status.code(), Some(0));
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
 fn an_edited_spec_makes_the_generated_code_stale() {
     let dir = std::env::temp_dir().join(format!("lawsmith-stale-{}", std::process::id()));
     copy_dir(&root().join("specs"), &dir.join("specs"));

@@ -17,6 +17,9 @@ pub struct Provenance {
     pub claim: String,
     /// The verdict of `check` (`proven`, `falsified`, `inconclusive`).
     pub verdict: String,
+    /// Lines recording the proof's evidence (boxes, the certificate's SHA-256, each
+    /// actuator's saturation verdict), printed under the verdict.
+    pub figures: Vec<String>,
 }
 
 impl Provenance {
@@ -50,6 +53,7 @@ impl Provenance {
                 "WARNING: DO NOT FLY IT; ITS LYAPUNOV ARGUMENT DOES NOT HOLD AS DECLARED.".into(),
             );
         }
+        v.extend(self.figures.iter().cloned());
         v.extend([
             String::new(),
             "CAUTION: a proof covers only the declared model and envelope (the plant model,".into(),

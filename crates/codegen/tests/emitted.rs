@@ -15,6 +15,7 @@ fn emit(path: &std::path::Path) -> Vec<(String, String)> {
         tool_version: env!("CARGO_PKG_VERSION").into(),
         claim: report.claim.name(),
         verdict: report.verdict.name().into(),
+        figures: lawsmith_verify::report::proof_figures(&report, &"0".repeat(64)),
     };
     generate(&c, &prov, Lang::All, Float::F64).unwrap()
 }

@@ -449,6 +449,7 @@ fn f32_code_compiles_clean_and_stays_close() {
             tool_version: "test".into(),
             claim: "negative_definite".into(),
             verdict: "proven".into(),
+            figures: Vec::new(),
         };
         let files = lawsmith_codegen::generate(&c, &prov, Lang::All, Float::F32).unwrap();
         for (n, t) in &files {

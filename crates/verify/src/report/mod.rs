@@ -328,6 +328,32 @@ pub fn claim_summary(r: &CheckReport) -> String {
     }
 }
 
+/// What the header of generated code records of the proof, one line each: the boxes of
+/// branch and bound and the certificate's SHA-256 (`certificate_sha256`, of the certificate
+/// as `check --certificate` writes it), and each actuator's saturation verdict.
+pub fn proof_figures(r: &CheckReport, certificate_sha256: &str) -> Vec<String> {
+    let mut v = vec![
+        format!(
+            "proof evidence: {} boxes of branch and bound; certificate SHA-256: {certificate_sha256}",
+            r.boxes
+        ),
+        "(`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)"
+            .to_string(),
+    ];
+    if !r.saturation.is_empty() {
+        let each: Vec<String> = r
+            .saturation
+            .iter()
+            .map(|a| format!("{} {}", a.actuator, a.verdict()))
+            .collect();
+        v.push(format!(
+            "saturation over the envelope (the proof assumes the unsaturated law): {}",
+            each.join(", ")
+        ));
+    }
+    v
+}
+
 /// The ultimate-bound section of the text report.
 fn bound_text(s: &mut String, b: &BoundReport) {
     let _ = writeln!(s, "\nultimate bound:");
