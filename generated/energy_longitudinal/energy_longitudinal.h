@@ -74,8 +74,9 @@ bool energy_longitudinal_gains_valid(const energy_longitudinal_gains *g);
 /* One step of the control law: the actuator commands, saturated to their limits. */
 void energy_longitudinal_step(const energy_longitudinal_inputs *in, const energy_longitudinal_gains *gains, energy_longitudinal_outputs *out);
 
-/* The state of the guidance filters: each reference and its rate. Set it to the
-   initial references (rates zero) before the first update. */
+/* The state of the guidance filters: each reference and its rate. Start it with
+   energy_longitudinal_guidance_init. Each control period: energy_longitudinal_step with the references and rates of
+   this state among its inputs, then energy_longitudinal_update over the period. */
 typedef struct {
     double h_r; /* [m] */
     double hdot_r; /* limited to [-3, 3] */
@@ -88,6 +89,10 @@ typedef struct {
     double h_cmd;
     double va_cmd;
 } energy_longitudinal_commands;
+
+/* Starts the guidance filters at rest: each reference at its command in start
+   (clamped into its proved range, a NaN at the range's midpoint), each rate zero. */
+void energy_longitudinal_guidance_init(energy_longitudinal_guidance *state, const energy_longitudinal_commands *start);
 
 /* Advances every reference filter over dt seconds towards its command: the exact
    solution of r' = clamp(k*(c - r), lo, hi) for a constant command. A NaN command

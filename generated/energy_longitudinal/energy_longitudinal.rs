@@ -259,8 +259,9 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
         domain,
     }
 }
-/// The state of the guidance filters: each reference and its rate. Set it to the
-/// initial references (rates zero) before the first update.
+/// The state of the guidance filters: each reference and its rate. Start it with
+/// [`Guidance::start`]. Each control period: [`step`] with the references and
+/// rates of this state among its inputs, then [`update`] over the period.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Guidance {
     ///Reference `h_r` [m].
@@ -273,6 +274,20 @@ pub struct Guidance {
     pub vadot_r: f64,
 }
 impl Guidance {
+    /// The filters at rest: each reference at its command in `at` (clamped into
+    /// its proved range, a NaN at the range's midpoint), each rate zero.
+    pub fn start(at: &Commands) -> Guidance {
+        Guidance {
+            h_r: if at.h_cmd.is_nan() { 315.0 } else { clamp_to(at.h_cmd, 30.0, 600.0) },
+            hdot_r: 0.0,
+            va_r: if at.va_cmd.is_nan() {
+                22.5
+            } else {
+                clamp_to(at.va_cmd, 15.0, 30.0)
+            },
+            vadot_r: 0.0,
+        }
+    }
     /// The field names, in the order of [`Guidance::from_array`].
     pub const NAMES: [&'static str; 4] = ["h_r", "hdot_r", "va_r", "vadot_r"];
     /// The state from an array in the order of [`Guidance::NAMES`].

@@ -179,6 +179,14 @@ void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inpu
     out->domain = domain;
 }
 
+void energy_longitudinal_uncertain_guidance_init(energy_longitudinal_uncertain_guidance *state, const energy_longitudinal_uncertain_commands *start)
+{
+    state->h_r = isnan(start->h_cmd) ? 315.0 : energy_longitudinal_uncertain_clamp(start->h_cmd, 30.0, 600.0);
+    state->hdot_r = 0.0;
+    state->va_r = isnan(start->va_cmd) ? 22.5 : energy_longitudinal_uncertain_clamp(start->va_cmd, 15.0, 30.0);
+    state->vadot_r = 0.0;
+}
+
 void energy_longitudinal_uncertain_update(energy_longitudinal_uncertain_guidance *state, const energy_longitudinal_uncertain_commands *commands, const energy_longitudinal_uncertain_gains *gains, double dt)
 {
     energy_longitudinal_uncertain_gains g;

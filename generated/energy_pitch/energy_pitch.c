@@ -183,6 +183,14 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
     out->domain = domain;
 }
 
+void energy_pitch_guidance_init(energy_pitch_guidance *state, const energy_pitch_commands *start)
+{
+    state->h_r = isnan(start->h_cmd) ? 315.0 : energy_pitch_clamp(start->h_cmd, 30.0, 600.0);
+    state->hdot_r = 0.0;
+    state->va_r = isnan(start->va_cmd) ? 23.0 : energy_pitch_clamp(start->va_cmd, 16.0, 30.0);
+    state->vadot_r = 0.0;
+}
+
 void energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_commands *commands, const energy_pitch_gains *gains, double dt)
 {
     energy_pitch_gains g;

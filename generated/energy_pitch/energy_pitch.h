@@ -74,8 +74,9 @@ bool energy_pitch_gains_valid(const energy_pitch_gains *g);
 /* One step of the control law: the actuator commands, saturated to their limits. */
 void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *gains, energy_pitch_outputs *out);
 
-/* The state of the guidance filters: each reference and its rate. Set it to the
-   initial references (rates zero) before the first update. */
+/* The state of the guidance filters: each reference and its rate. Start it with
+   energy_pitch_guidance_init. Each control period: energy_pitch_step with the references and rates of
+   this state among its inputs, then energy_pitch_update over the period. */
 typedef struct {
     double h_r; /* [m] */
     double hdot_r; /* limited to [-2.5, 2.5] */
@@ -88,6 +89,10 @@ typedef struct {
     double h_cmd;
     double va_cmd;
 } energy_pitch_commands;
+
+/* Starts the guidance filters at rest: each reference at its command in start
+   (clamped into its proved range, a NaN at the range's midpoint), each rate zero. */
+void energy_pitch_guidance_init(energy_pitch_guidance *state, const energy_pitch_commands *start);
 
 /* Advances every reference filter over dt seconds towards its command: the exact
    solution of r' = clamp(k*(c - r), lo, hi) for a constant command. A NaN command

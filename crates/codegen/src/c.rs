@@ -188,7 +188,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     let _ = writeln!(h, "/* Do the gains lie in their proved ranges and meet the constraints? */\nbool {p}_gains_valid(const {p}_gains *g);\n");
     let _ = writeln!(h, "/* One step of the control law: the actuator commands, saturated to their limits. */\nvoid {p}_step(const {p}_inputs *in, const {p}_gains *gains, {p}_outputs *out);\n");
     if !c.filters.is_empty() {
-        let _ = writeln!(h, "/* The state of the guidance filters: each reference and its rate. Set it to the\n   initial references (rates zero) before the first update. */\ntypedef struct {{");
+        let _ = writeln!(h, "/* The state of the guidance filters: each reference and its rate. Start it with\n   {p}_guidance_init. Each control period: {p}_step with the references and rates of\n   this state among its inputs, then {p}_update over the period. */\ntypedef struct {{");
         for f in &c.filters {
             let r = &c.references[f.reference];
             let _ = writeln!(h, "    {ty} {}; /* [{}] */", r.name, r.unit);
@@ -207,6 +207,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             let _ = writeln!(h, "    {ty} {};", f.command);
         }
         let _ = writeln!(h, "}} {p}_commands;\n");
+        let _ = writeln!(h, "/* Starts the guidance filters at rest: each reference at its command in start\n   (clamped into its proved range, a NaN at the range's midpoint), each rate zero. */\nvoid {p}_guidance_init({p}_guidance *state, const {p}_commands *start);\n");
         let _ = writeln!(h, "/* Advances every reference filter over dt seconds towards its command: the exact\n   solution of r' = clamp(k*(c - r), lo, hi) for a constant command. A NaN command\n   holds its reference; gains outside their proved set are replaced by the defaults;\n   a dt that is not positive changes nothing. */\nvoid {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt);\n");
     }
     let _ = writeln!(h, "#ifdef __cplusplus\n}}\n#endif\n\n#endif /* {guard} */");
@@ -331,6 +332,17 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         "    out->limits = limits;\n    out->domain = domain;\n}}"
     );
     if !c.filters.is_empty() {
+        let _ = writeln!(
+            s,
+            "\nvoid {p}_guidance_init({p}_guidance *state, const {p}_commands *start)\n{{"
+        );
+        for f in &c.filters {
+            let r = &c.references[f.reference];
+            let (lo, hi) = (e.lit(r.range.0), e.lit(r.range.1));
+            let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
+            let _ = writeln!(s, "    state->{rn} = isnan(start->{cn}) ? {mid} : {p}_clamp(start->{cn}, {lo}, {hi});\n    state->{q} = {zero};", rn = r.name, cn = f.command, q = f.rate, zero = e.lit(0.0));
+        }
+        let _ = writeln!(s, "}}");
         let _ = writeln!(s, "\nvoid {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt)\n{{\n    {p}_gains g;\n    if (!(dt > {})) {{\n        return;\n    }}\n    g = {p}_gains_ok(gains) ? *gains : {p}_default_gains();", e.lit(0.0));
         for f in &c.filters {
             let rn = &c.references[f.reference].name;

@@ -383,15 +383,37 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
                 }
             });
         }
+        let starts: Vec<TokenStream> = c
+            .filters
+            .iter()
+            .map(|f| {
+                let r = &c.references[f.reference];
+                let (rf, qf, cf) = (field(&r.name), field(&f.rate), field(&f.command));
+                let (lo, hi) = (e.lit(r.range.0), e.lit(r.range.1));
+                let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
+                let zero = e.lit(0.0);
+                quote! {
+                    #rf: if at.#cf.is_nan() { #mid } else { clamp_to(at.#cf, #lo, #hi) },
+                    #qf: #zero,
+                }
+            })
+            .collect();
         guidance_items = quote! {
-            /// The state of the guidance filters: each reference and its rate. Set it to the
-            /// initial references (rates zero) before the first update.
+            /// The state of the guidance filters: each reference and its rate. Start it with
+            /// [`Guidance::start`]. Each control period: [`step`] with the references and
+            /// rates of this state among its inputs, then [`update`] over the period.
             #[derive(Clone, Copy, Debug, PartialEq)]
             pub struct Guidance {
                 #( #[doc = #gdocs] pub #gfields: #ty, )*
             }
 
             impl Guidance {
+                /// The filters at rest: each reference at its command in `at` (clamped into
+                /// its proved range, a NaN at the range's midpoint), each rate zero.
+                pub fn start(at: &Commands) -> Guidance {
+                    Guidance { #( #starts )* }
+                }
+
                 /// The field names, in the order of [`Guidance::from_array`].
                 pub const NAMES: [&'static str; #ng] = [#(#gnames),*];
 
