@@ -40,12 +40,12 @@ energy_pitch_gains energy_pitch_default_gains(void)
 
 static inline bool energy_pitch_gains_ok(const energy_pitch_gains *g)
 {
-    const double t4 = g->k_tot - g->k_bal;
+    const double c0_0 = g->k_tot - g->k_bal;
     return g->k_tot >= 0.05 && g->k_tot <= 0.4
         && g->k_bal >= 0.1 && g->k_bal <= 0.6
         && g->k_h >= 0.1 && g->k_h <= 1.0
         && g->k_v >= 0.1 && g->k_v <= 1.0
-        && t4 < 0.0;
+        && c0_0 < 0.0;
 }
 
 bool energy_pitch_gains_valid(const energy_pitch_gains *g)
@@ -117,40 +117,40 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
         g = energy_pitch_default_gains();
     }
     /* the law (in the envelope) */
-    const double t12 = 73.549875;
-    const double t13 = x4 * t12;
-    const double t14 = x3 * x5;
-    const double t15 = 7.5;
-    const double t16 = t14 * t15;
-    const double t17 = x2 - x0;
-    const double t18 = t12 * t17;
-    const double t19 = x3 * x3;
-    const double t20 = x1 * x1;
-    const double t21 = 3.75;
-    const double t22 = t19 - t20;
-    const double t23 = t21 * t22;
-    const double t24 = t18 + t23;
-    const double t25 = g.k_tot * t24;
-    const double t26 = t13 + t16;
-    const double t27 = t25 + t26;
-    const double t28 = t27 / x1;
-    const double t29 = x6 + t28;
-    const double t30 = 147.09975;
-    const double t31 = x4 * t30;
-    const double t32 = g.k_tot + g.k_bal;
-    const double t33 = t18 * t32;
-    const double t34 = g.k_tot - g.k_bal;
-    const double t35 = t23 * t34;
-    const double t36 = t31 + t33;
-    const double t37 = t35 + t36;
-    const double t38 = x1 * t30;
-    const double t39 = t37 / t38;
-    const double t40 = energy_pitch_clamp(t39, -1.0, 1.0);
-    const double t41 = asin(t40);
-    const double t42 = x7 + t41;
+    const double thrust_0 = 73.549875;
+    const double thrust_1 = x4 * thrust_0;
+    const double thrust_2 = x3 * x5;
+    const double thrust_3 = 7.5;
+    const double thrust_4 = thrust_2 * thrust_3;
+    const double thrust_5 = x2 - x0;
+    const double thrust_6 = thrust_0 * thrust_5;
+    const double thrust_7 = x3 * x3;
+    const double thrust_8 = x1 * x1;
+    const double thrust_9 = 3.75;
+    const double thrust_10 = thrust_7 - thrust_8;
+    const double thrust_11 = thrust_9 * thrust_10;
+    const double thrust_12 = thrust_6 + thrust_11;
+    const double thrust_13 = g.k_tot * thrust_12;
+    const double thrust_14 = thrust_1 + thrust_4;
+    const double thrust_15 = thrust_13 + thrust_14;
+    const double thrust_16 = thrust_15 / x1;
+    const double thrust_value = x6 + thrust_16;
+    const double theta_0 = 147.09975;
+    const double theta_1 = x4 * theta_0;
+    const double theta_2 = g.k_tot + g.k_bal;
+    const double theta_3 = thrust_6 * theta_2;
+    const double theta_4 = g.k_tot - g.k_bal;
+    const double theta_5 = thrust_11 * theta_4;
+    const double theta_6 = theta_1 + theta_3;
+    const double theta_7 = theta_5 + theta_6;
+    const double theta_8 = x1 * theta_0;
+    const double theta_9 = theta_7 / theta_8;
+    const double theta_10 = energy_pitch_clamp(theta_9, -1.0, 1.0);
+    const double theta_11 = asin(theta_10);
+    const double theta_value = x7 + theta_11;
     /* saturation */
     {
-        double c0 = t42;
+        double c0 = theta_value;
         if (!isfinite(c0)) {
             domain = true;
             c0 = 0.0;
@@ -165,7 +165,7 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
         out->pitch_cmd = c0;
     }
     {
-        double c1 = t29;
+        double c1 = thrust_value;
         if (!isfinite(c1)) {
             domain = true;
             c1 = 0.0;
@@ -202,86 +202,86 @@ void energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_comman
         const double r = state->h_r;
         const double c = isnan(commands->h_cmd) ? r : commands->h_cmd;
         const double k = g.k_h;
-        const double t4 = c - r;
-        const double t5 = 0.0;
-        const double t6 = 2.5;
-        const double t7 = t6 / k;
-        const double t8 = t4 - t7;
-        const double t9 = t8 / t6;
-        const double t10 = fmax(t9, t5);
-        const double t11 = dt * t6;
-        const double t12 = t4 - t11;
-        const double t13 = fmin(t4, t7);
-        const double t14 = dt - t10;
-        const double t15 = k * t14;
-        const double t16 = -t15;
-        const double t17 = exp(t16);
-        const double t18 = t13 * t17;
-        const double t19 = t10 - dt;
-        const double t20 = (t19 >= 0.0) ? t12 : t18;
-        const double t21 = -2.5;
-        const double t22 = t21 / k;
-        const double t23 = t4 - t22;
-        const double t24 = t23 / t21;
-        const double t25 = fmax(t24, t5);
-        const double t26 = dt * t21;
-        const double t27 = t4 - t26;
-        const double t28 = fmax(t4, t22);
-        const double t29 = dt - t25;
-        const double t30 = k * t29;
-        const double t31 = -t30;
-        const double t32 = exp(t31);
-        const double t33 = t28 * t32;
-        const double t34 = t25 - dt;
-        const double t35 = (t34 >= 0.0) ? t27 : t33;
-        const double t36 = (t4 >= 0.0) ? t20 : t35;
-        const double t37 = c - t36;
-        const double t38 = k * t36;
-        const double t39 = energy_pitch_clamp(t38, -2.5, 2.5);
-        state->h_r = t37;
-        state->hdot_r = t39;
+        const double r_0 = c - r;
+        const double r_1 = 0.0;
+        const double r_2 = 2.5;
+        const double r_3 = r_2 / k;
+        const double r_4 = r_0 - r_3;
+        const double r_5 = r_4 / r_2;
+        const double r_6 = fmax(r_5, r_1);
+        const double r_7 = dt * r_2;
+        const double r_8 = r_0 - r_7;
+        const double r_9 = fmin(r_0, r_3);
+        const double r_10 = dt - r_6;
+        const double r_11 = k * r_10;
+        const double r_12 = -r_11;
+        const double r_13 = exp(r_12);
+        const double r_14 = r_9 * r_13;
+        const double r_15 = r_6 - dt;
+        const double r_16 = (r_15 >= 0.0) ? r_8 : r_14;
+        const double r_17 = -2.5;
+        const double r_18 = r_17 / k;
+        const double r_19 = r_0 - r_18;
+        const double r_20 = r_19 / r_17;
+        const double r_21 = fmax(r_20, r_1);
+        const double r_22 = dt * r_17;
+        const double r_23 = r_0 - r_22;
+        const double r_24 = fmax(r_0, r_18);
+        const double r_25 = dt - r_21;
+        const double r_26 = k * r_25;
+        const double r_27 = -r_26;
+        const double r_28 = exp(r_27);
+        const double r_29 = r_24 * r_28;
+        const double r_30 = r_21 - dt;
+        const double r_31 = (r_30 >= 0.0) ? r_23 : r_29;
+        const double r_32 = (r_0 >= 0.0) ? r_16 : r_31;
+        const double r_33 = c - r_32;
+        const double r_34 = k * r_32;
+        const double r_35 = energy_pitch_clamp(r_34, -2.5, 2.5);
+        state->h_r = r_33;
+        state->hdot_r = r_35;
     }
     {
         const double r = state->va_r;
         const double c = isnan(commands->va_cmd) ? r : commands->va_cmd;
         const double k = g.k_v;
-        const double t4 = c - r;
-        const double t5 = 0.0;
-        const double t6 = 0.8;
-        const double t7 = t6 / k;
-        const double t8 = t4 - t7;
-        const double t9 = t8 / t6;
-        const double t10 = fmax(t9, t5);
-        const double t11 = dt * t6;
-        const double t12 = t4 - t11;
-        const double t13 = fmin(t4, t7);
-        const double t14 = dt - t10;
-        const double t15 = k * t14;
-        const double t16 = -t15;
-        const double t17 = exp(t16);
-        const double t18 = t13 * t17;
-        const double t19 = t10 - dt;
-        const double t20 = (t19 >= 0.0) ? t12 : t18;
-        const double t21 = -0.8;
-        const double t22 = t21 / k;
-        const double t23 = t4 - t22;
-        const double t24 = t23 / t21;
-        const double t25 = fmax(t24, t5);
-        const double t26 = dt * t21;
-        const double t27 = t4 - t26;
-        const double t28 = fmax(t4, t22);
-        const double t29 = dt - t25;
-        const double t30 = k * t29;
-        const double t31 = -t30;
-        const double t32 = exp(t31);
-        const double t33 = t28 * t32;
-        const double t34 = t25 - dt;
-        const double t35 = (t34 >= 0.0) ? t27 : t33;
-        const double t36 = (t4 >= 0.0) ? t20 : t35;
-        const double t37 = c - t36;
-        const double t38 = k * t36;
-        const double t39 = energy_pitch_clamp(t38, -0.8, 0.8);
-        state->va_r = t37;
-        state->vadot_r = t39;
+        const double r_0 = c - r;
+        const double r_1 = 0.0;
+        const double r_2 = 0.8;
+        const double r_3 = r_2 / k;
+        const double r_4 = r_0 - r_3;
+        const double r_5 = r_4 / r_2;
+        const double r_6 = fmax(r_5, r_1);
+        const double r_7 = dt * r_2;
+        const double r_8 = r_0 - r_7;
+        const double r_9 = fmin(r_0, r_3);
+        const double r_10 = dt - r_6;
+        const double r_11 = k * r_10;
+        const double r_12 = -r_11;
+        const double r_13 = exp(r_12);
+        const double r_14 = r_9 * r_13;
+        const double r_15 = r_6 - dt;
+        const double r_16 = (r_15 >= 0.0) ? r_8 : r_14;
+        const double r_17 = -0.8;
+        const double r_18 = r_17 / k;
+        const double r_19 = r_0 - r_18;
+        const double r_20 = r_19 / r_17;
+        const double r_21 = fmax(r_20, r_1);
+        const double r_22 = dt * r_17;
+        const double r_23 = r_0 - r_22;
+        const double r_24 = fmax(r_0, r_18);
+        const double r_25 = dt - r_21;
+        const double r_26 = k * r_25;
+        const double r_27 = -r_26;
+        const double r_28 = exp(r_27);
+        const double r_29 = r_24 * r_28;
+        const double r_30 = r_21 - dt;
+        const double r_31 = (r_30 >= 0.0) ? r_23 : r_29;
+        const double r_32 = (r_0 >= 0.0) ? r_16 : r_31;
+        const double r_33 = c - r_32;
+        const double r_34 = k * r_32;
+        const double r_35 = energy_pitch_clamp(r_34, -0.8, 0.8);
+        state->va_r = r_33;
+        state->vadot_r = r_35;
     }
 }

@@ -73,11 +73,11 @@ void pendulum_damping_step(const pendulum_damping_inputs *in, const pendulum_dam
         g = pendulum_damping_default_gains();
     }
     /* the law (in the envelope) */
-    const double t3 = x1 * g.k_d;
-    const double t4 = -t3;
+    const double torque_0 = x1 * g.k_d;
+    const double torque_value = -torque_0;
     /* saturation */
     {
-        double c0 = t4;
+        double c0 = torque_value;
         if (!isfinite(c0)) {
             domain = true;
             c0 = 0.0;

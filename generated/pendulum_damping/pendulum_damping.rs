@@ -109,10 +109,10 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
         domain = true;
         Gains::DEFAULT
     };
-    let t3: f64 = x1 * g.k_d;
-    let t4: f64 = -t3;
+    let torque_0: f64 = x1 * g.k_d;
+    let torque_value: f64 = -torque_0;
     let mut limits: u32 = 0u32;
-    let mut c0: f64 = t4;
+    let mut c0: f64 = torque_value;
     if !c0.is_finite() {
         domain = true;
         c0 = 0.0;

@@ -63,7 +63,7 @@ impl Emit {
         let name = |s: Slot| -> String {
             match p.ops[s as usize] {
                 Op::Input(i) => input(i),
-                _ => format!("t{s}"),
+                _ => p.names[s as usize].clone(),
             }
         };
         for (i, op) in p.ops.iter().enumerate() {
@@ -95,7 +95,7 @@ impl Emit {
                     name(*b)
                 ),
             };
-            let _ = writeln!(out, "{ind}const {ty} t{i} = {value};");
+            let _ = writeln!(out, "{ind}const {ty} {} = {value};", p.names[i]);
         }
         p.outputs.iter().map(|(_, s)| name(*s)).collect()
     }

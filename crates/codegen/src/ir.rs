@@ -66,6 +66,11 @@ pub struct Program {
     pub ops: Vec<Op>,
     /// Named outputs.
     pub outputs: Vec<(String, Slot)>,
+    /// The name each emitter gives each instruction's value (an input's is its input name):
+    /// `NAME_value` for the value of law `NAME`, `NAME_k` for the `k`-th other value first
+    /// computed for the law or output `NAME`. A change inside one law renames nothing in
+    /// another.
+    pub names: Vec<String>,
 }
 
 /// Why a program cannot be built.
@@ -108,6 +113,9 @@ pub struct Builder {
     /// Symbol name → slot (inputs, and values defined by earlier outputs).
     env: HashMap<String, Slot>,
     memo: HashMap<ExprId, Slot>,
+    /// Each definition or output, with the number of instructions before it: the values
+    /// first computed since the previous one belong to it.
+    marks: Vec<(usize, String, Slot, bool)>,
 }
 
 fn exact(c: &BigRational) -> f64 {
@@ -132,6 +140,7 @@ impl Builder {
             outputs: Vec::new(),
             env: HashMap::new(),
             memo: HashMap::new(),
+            marks: Vec::new(),
         };
         for (i, name) in inputs.iter().enumerate() {
             let s = b.push(Op::Input(i), Key::Input(i));
@@ -162,6 +171,7 @@ impl Builder {
 
     /// Gives a name to a slot, so later expressions that use the symbol read it.
     pub fn define(&mut self, n: &str, s: Slot) {
+        self.marks.push((self.ops.len(), n.to_string(), s, true));
         self.env.insert(n.to_string(), s);
         // the DAG memo keys on node ids; a new meaning of a symbol invalidates it
         self.memo.clear();
@@ -169,6 +179,7 @@ impl Builder {
 
     /// Adds a named output.
     pub fn output(&mut self, n: &str, s: Slot) {
+        self.marks.push((self.ops.len(), n.to_string(), s, false));
         self.outputs.push((n.to_string(), s));
     }
 
@@ -514,6 +525,38 @@ impl Builder {
         })
     }
 
+    /// The name of every instruction's value (see [`Program::names`]), counting only live
+    /// ones, so a value no output needs shifts no name.
+    fn names(&self, live: &[bool]) -> Vec<String> {
+        let mut owner = vec![None; self.ops.len()];
+        let mut start = 0;
+        for (k, (end, ..)) in self.marks.iter().enumerate() {
+            for o in owner.iter_mut().take(*end).skip(start) {
+                *o = Some(k);
+            }
+            start = start.max(*end);
+        }
+        let mut count = vec![0usize; self.marks.len()];
+        let mut names = Vec::with_capacity(self.ops.len());
+        for (i, op) in self.ops.iter().enumerate() {
+            names.push(match (op, owner[i]) {
+                (Op::Input(j), _) => self.inputs[*j].clone(),
+                (_, Some(k)) => {
+                    let (_, n, slot, law) = &self.marks[k];
+                    if *law && *slot as usize == i {
+                        format!("{n}_value")
+                    } else {
+                        let index = count[k];
+                        count[k] += usize::from(live[i]);
+                        format!("{n}_{index}")
+                    }
+                }
+                (_, None) => format!("t{i}"),
+            });
+        }
+        names
+    }
+
     /// The finished program, without instructions no output needs.
     pub fn finish(self) -> Program {
         let mut live = vec![false; self.ops.len()];
@@ -530,6 +573,7 @@ impl Builder {
                 live[i] = true;
             }
         }
+        let names = self.names(&live);
         let mut renumber = vec![0 as Slot; self.ops.len()];
         let mut ops = Vec::new();
         for (i, op) in self.ops.into_iter().enumerate() {
@@ -539,6 +583,11 @@ impl Builder {
             }
         }
         Program {
+            names: names
+                .into_iter()
+                .zip(&live)
+                .filter_map(|(n, &l)| l.then_some(n))
+                .collect(),
             inputs: self.inputs,
             ops,
             outputs: self

@@ -64,7 +64,7 @@ impl Emit {
             match p.ops[s as usize] {
                 Op::Input(i) => input(i),
                 _ => {
-                    let t = format_ident!("t{}", s);
+                    let t = format_ident!("{}", p.names[s as usize]);
                     quote!(#t)
                 }
             }
@@ -117,7 +117,7 @@ impl Emit {
                     quote!(if #c >= #zero { #a } else { #b })
                 }
             };
-            let t = format_ident!("t{}", i);
+            let t = format_ident!("{}", p.names[i]);
             body.extend(quote!(let #t: #ty = #value;));
         }
         let outs = p.outputs.iter().map(|(_, s)| name(*s)).collect();

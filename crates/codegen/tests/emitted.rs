@@ -39,3 +39,61 @@ fn two_emits_give_the_same_bytes() {
     let b = emit(&path);
     assert_eq!(a, b);
 }
+
+/// The generated files of a spec's text, under a fixed header.
+fn generated_from(text: &str) -> Vec<(String, String)> {
+    let spec = lawsmith_spec::load(text).unwrap();
+    let c = Controller::new(&spec).unwrap();
+    let prov = Provenance {
+        spec_file: "spec.yaml".into(),
+        spec_sha256: "0".repeat(64),
+        tool_version: "test".into(),
+        claim: "negative_definite".into(),
+        verdict: "proven".into(),
+        figures: Vec::new(),
+    };
+    generate(&c, &prov, Lang::All, Float::F64).unwrap()
+}
+
+/// The lines of `a` not in `b`, counted as a multiset.
+fn lines_only_in<'a>(a: &'a str, b: &str) -> Vec<&'a str> {
+    let mut rest: std::collections::HashMap<&str, usize> = std::collections::HashMap::new();
+    for l in b.lines() {
+        *rest.entry(l).or_default() += 1;
+    }
+    a.lines()
+        .filter(|l| match rest.get_mut(l) {
+            Some(n) if *n > 0 => {
+                *n -= 1;
+                false
+            }
+            _ => true,
+        })
+        .collect()
+}
+
+#[test]
+fn a_change_inside_one_law_changes_only_that_law_s_lines() {
+    // one term of the flight-path law of the reference spec changed (k_bal * eb doubled):
+    // every changed line of the generated Rust and C must be the flight-path law's own
+    // (its values are named gamma_*), or the operation count
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("../../specs/energy_longitudinal.yaml");
+    let text = std::fs::read_to_string(path).unwrap();
+    let edited = text.replace("+ k_bal * eb)", "+ 2 * k_bal * eb)");
+    assert_ne!(edited, text);
+    let before = generated_from(&text);
+    let after = generated_from(&edited);
+    let mut changed = 0;
+    for ((name, a), (_, b)) in before.iter().zip(&after) {
+        for l in lines_only_in(a, b).into_iter().chain(lines_only_in(b, a)) {
+            changed += 1;
+            assert!(
+                l.contains("gamma_") || l.contains("arithmetic operations per step"),
+                "{name}: a line outside the changed law changed: {l}"
+            );
+        }
+    }
+    // the edit is visible: the doubled term is one more multiplication in each of Rust and C
+    assert!(changed >= 4, "{changed} lines changed");
+}
