@@ -53,7 +53,7 @@ bool energy_longitudinal_uncertain_gains_valid(const energy_longitudinal_uncerta
 
 void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inputs *in, const energy_longitudinal_uncertain_gains *gains, energy_longitudinal_uncertain_outputs *out)
 {
-    bool domain = false;
+    uint32_t status = 0u;
     uint32_t limits = 0u;
     energy_longitudinal_uncertain_gains g;
     double x0 = in->h;
@@ -67,33 +67,33 @@ void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inpu
     const double r0 = x2;
     const double r1 = x3;
     if (!(x2 >= 30.0 && x2 <= 600.0)) {
-        domain = true;
+        status |= isfinite(x2) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x2 = isnan(x2) ? 315.0 : energy_longitudinal_uncertain_clamp(x2, 30.0, 600.0);
     }
     if (!(x3 >= 15.0 && x3 <= 30.0)) {
-        domain = true;
+        status |= isfinite(x3) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x3 = isnan(x3) ? 22.5 : energy_longitudinal_uncertain_clamp(x3, 15.0, 30.0);
     }
     if (!(x4 >= -3.0 && x4 <= 3.0)) {
-        domain = true;
+        status |= isfinite(x4) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x4 = isnan(x4) ? 0.0 : energy_longitudinal_uncertain_clamp(x4, -3.0, 3.0);
     }
     if (!(x5 >= -1.0 && x5 <= 1.0)) {
-        domain = true;
+        status |= isfinite(x5) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x5 = isnan(x5) ? 0.0 : energy_longitudinal_uncertain_clamp(x5, -1.0, 1.0);
     }
     if (!(x6 >= 4.0 && x6 <= 16.0)) {
-        domain = true;
+        status |= isfinite(x6) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x6 = isnan(x6) ? 10.0 : energy_longitudinal_uncertain_clamp(x6, 4.0, 16.0);
     }
     if (!(x7 >= -0.05 && x7 <= 0.2)) {
-        domain = true;
+        status |= isfinite(x7) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x7 = isnan(x7) ? 0.07500000000000001 : energy_longitudinal_uncertain_clamp(x7, -0.05, 0.2);
     }
     {
         const double e0 = x0 - r0;
         if (!(e0 >= -8.0 && e0 <= 8.0)) {
-            domain = true;
+            status |= isfinite(e0) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
             x0 = x2 + (isnan(e0) ? 0.0 : energy_longitudinal_uncertain_clamp(e0, -8.0, 8.0));
         } else if (x2 != r0) {
             x0 = x2 + e0;
@@ -102,7 +102,7 @@ void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inpu
     {
         const double e1 = x1 - r1;
         if (!(e1 >= -4.0 && e1 <= 4.0)) {
-            domain = true;
+            status |= isfinite(e1) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
             x1 = x3 + (isnan(e1) ? 0.0 : energy_longitudinal_uncertain_clamp(e1, -4.0, 4.0));
         } else if (x3 != r1) {
             x1 = x3 + e1;
@@ -111,7 +111,7 @@ void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inpu
     if (energy_longitudinal_uncertain_gains_ok(gains)) {
         g = *gains;
     } else {
-        domain = true;
+        status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_GAINS_REJECTED;
         g = energy_longitudinal_uncertain_default_gains();
     }
     /* the law (in the envelope) */
@@ -148,7 +148,7 @@ void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inpu
     {
         double c0 = pitch_cmd_0;
         if (!isfinite(c0)) {
-            domain = true;
+            status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_COMMAND;
             c0 = 0.0;
         }
         if (c0 < -0.35) {
@@ -163,7 +163,7 @@ void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inpu
     {
         double c1 = thrust_value;
         if (!isfinite(c1)) {
-            domain = true;
+            status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_COMMAND;
             c1 = 0.0;
         }
         if (c1 < 0.0) {
@@ -176,7 +176,8 @@ void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inpu
         out->thrust_cmd = c1;
     }
     out->limits = limits;
-    out->domain = domain;
+    out->domain = status != 0u;
+    out->status = status;
 }
 
 void energy_longitudinal_uncertain_guidance_init(energy_longitudinal_uncertain_guidance *state, const energy_longitudinal_uncertain_commands *start)

@@ -57,13 +57,18 @@ typedef struct {
                     envelope (each state's error measured against its reference as
                     given, then errors and references clamped to their ranges; a NaN
                     input at its range's midpoint or at zero error), with the default
-                    gains */
+                    gains; any bit of status */
+    uint32_t status; /* what was repaired: the ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_* bits */
 } energy_longitudinal_uncertain_outputs;
 
 #define ENERGY_LONGITUDINAL_UNCERTAIN_LIMIT_PITCH_CMD_LOW (UINT32_C(1) << 0)
 #define ENERGY_LONGITUDINAL_UNCERTAIN_LIMIT_PITCH_CMD_HIGH (UINT32_C(1) << 1)
 #define ENERGY_LONGITUDINAL_UNCERTAIN_LIMIT_THRUST_CMD_LOW (UINT32_C(1) << 2)
 #define ENERGY_LONGITUDINAL_UNCERTAIN_LIMIT_THRUST_CMD_HIGH (UINT32_C(1) << 3)
+#define ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT (UINT32_C(1) << 0) /* an input was NaN or infinite: a NaN evaluated at its range's midpoint (or zero error), an infinity at its range's edge */
+#define ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE (UINT32_C(1) << 1) /* a finite input was outside the proved envelope: evaluated at the nearest envelope point */
+#define ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_GAINS_REJECTED (UINT32_C(1) << 2) /* the gains were outside their proved set: the spec's defaults were used */
+#define ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_COMMAND (UINT32_C(1) << 3) /* a command was not finite (the proof rules this out): the safe value was sent */
 
 /* The spec's default gains; the generated code falls back to them. */
 energy_longitudinal_uncertain_gains energy_longitudinal_uncertain_default_gains(void);

@@ -122,9 +122,19 @@ pub struct Outputs {
     /// proved set: the law was evaluated at the nearest point of the envelope (each
     /// state's error measured against its reference as given, then errors and
     /// references clamped to their ranges; a NaN input at its range's midpoint or at
-    /// zero error), with the default gains.
+    /// zero error), with the default gains; any bit of `status`.
     pub domain: bool,
+    /// What was repaired: the `STATUS_*` bits.
+    pub status: u32,
 }
+///`status` bit: an input was NaN or infinite: a NaN evaluated at its range's midpoint (or zero error), an infinity at its range's edge.
+pub const STATUS_NONFINITE_INPUT: u32 = 1;
+///`status` bit: a finite input was outside the proved envelope: evaluated at the nearest envelope point.
+pub const STATUS_OUTSIDE_ENVELOPE: u32 = 2;
+///`status` bit: the gains were outside their proved set: the spec's defaults were used.
+pub const STATUS_GAINS_REJECTED: u32 = 4;
+///`status` bit: a command was not finite (the proof rules this out): the safe value was sent.
+pub const STATUS_NONFINITE_COMMAND: u32 = 8;
 ///`limits` bit: `pitch_cmd` was below -0.35 and is saturated to it.
 pub const LIMIT_PITCH_CMD_LOW: u32 = 1;
 ///`limits` bit: `pitch_cmd` was above 0.45 and is saturated to it.
@@ -143,7 +153,7 @@ pub fn gains_valid(g: &Gains) -> bool {
 }
 /// One step of the control law: the actuator commands, saturated to their limits.
 pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
-    let mut domain = false;
+    let mut status: u32 = 0u32;
     let mut x0: f64 = inputs.h;
     let mut x1: f64 = inputs.va;
     let mut x2: f64 = inputs.h_r;
@@ -155,39 +165,79 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
     let r0: f64 = x2;
     let r1: f64 = x3;
     if !(x2 >= 30.0 && x2 <= 600.0) {
-        domain = true;
+        status
+            |= if x2.is_finite() {
+                STATUS_OUTSIDE_ENVELOPE
+            } else {
+                STATUS_NONFINITE_INPUT
+            };
         x2 = if x2.is_nan() { 315.0 } else { clamp_to(x2, 30.0, 600.0) };
     }
     if !(x3 >= 15.0 && x3 <= 30.0) {
-        domain = true;
+        status
+            |= if x3.is_finite() {
+                STATUS_OUTSIDE_ENVELOPE
+            } else {
+                STATUS_NONFINITE_INPUT
+            };
         x3 = if x3.is_nan() { 22.5 } else { clamp_to(x3, 15.0, 30.0) };
     }
     if !(x4 >= -3.0 && x4 <= 3.0) {
-        domain = true;
+        status
+            |= if x4.is_finite() {
+                STATUS_OUTSIDE_ENVELOPE
+            } else {
+                STATUS_NONFINITE_INPUT
+            };
         x4 = if x4.is_nan() { 0.0 } else { clamp_to(x4, -3.0, 3.0) };
     }
     if !(x5 >= -1.0 && x5 <= 1.0) {
-        domain = true;
+        status
+            |= if x5.is_finite() {
+                STATUS_OUTSIDE_ENVELOPE
+            } else {
+                STATUS_NONFINITE_INPUT
+            };
         x5 = if x5.is_nan() { 0.0 } else { clamp_to(x5, -1.0, 1.0) };
     }
     if !(x6 >= 4.0 && x6 <= 16.0) {
-        domain = true;
+        status
+            |= if x6.is_finite() {
+                STATUS_OUTSIDE_ENVELOPE
+            } else {
+                STATUS_NONFINITE_INPUT
+            };
         x6 = if x6.is_nan() { 10.0 } else { clamp_to(x6, 4.0, 16.0) };
     }
     if !(x7 >= -0.05 && x7 <= 0.2) {
-        domain = true;
+        status
+            |= if x7.is_finite() {
+                STATUS_OUTSIDE_ENVELOPE
+            } else {
+                STATUS_NONFINITE_INPUT
+            };
         x7 = if x7.is_nan() { 0.07500000000000001 } else { clamp_to(x7, -0.05, 0.2) };
     }
     let e0 = x0 - r0;
     if !(e0 >= -8.0 && e0 <= 8.0) {
-        domain = true;
+        status
+            |= if e0.is_finite() {
+                STATUS_OUTSIDE_ENVELOPE
+            } else {
+                STATUS_NONFINITE_INPUT
+            };
         x0 = x2 + if e0.is_nan() { 0.0 } else { clamp_to(e0, -8.0, 8.0) };
     } else if x2 != r0 {
         x0 = x2 + e0;
     }
     let e1 = x1 - r1;
     if !(e1 >= -4.0 && e1 <= 4.0) {
-        domain = true;
+        status
+            |= if e1.is_finite() {
+                STATUS_OUTSIDE_ENVELOPE
+            } else {
+                STATUS_NONFINITE_INPUT
+            };
         x1 = x3 + if e1.is_nan() { 0.0 } else { clamp_to(e1, -4.0, 4.0) };
     } else if x3 != r1 {
         x1 = x3 + e1;
@@ -195,7 +245,7 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
     let g: Gains = if gains_valid(gains) {
         *gains
     } else {
-        domain = true;
+        status |= STATUS_GAINS_REJECTED;
         Gains::DEFAULT
     };
     let thrust_0: f64 = 73.549875;
@@ -230,7 +280,7 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
     let mut limits: u32 = 0u32;
     let mut c0: f64 = pitch_cmd_0;
     if !c0.is_finite() {
-        domain = true;
+        status |= STATUS_NONFINITE_COMMAND;
         c0 = 0.0;
     }
     if c0 < -0.35 {
@@ -242,7 +292,7 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
     }
     let mut c1: f64 = thrust_value;
     if !c1.is_finite() {
-        domain = true;
+        status |= STATUS_NONFINITE_COMMAND;
         c1 = 0.0;
     }
     if c1 < 0.0 {
@@ -256,7 +306,8 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
         pitch_cmd: c0,
         thrust_cmd: c1,
         limits,
-        domain,
+        domain: status != 0u32,
+        status,
     }
 }
 /// The state of the guidance filters: each reference and its rate. Start it with

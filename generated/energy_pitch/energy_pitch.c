@@ -55,7 +55,7 @@ bool energy_pitch_gains_valid(const energy_pitch_gains *g)
 
 void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *gains, energy_pitch_outputs *out)
 {
-    bool domain = false;
+    uint32_t status = 0u;
     uint32_t limits = 0u;
     energy_pitch_gains g;
     double x0 = in->h;
@@ -69,33 +69,33 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
     const double r0 = x2;
     const double r1 = x3;
     if (!(x2 >= 30.0 && x2 <= 600.0)) {
-        domain = true;
+        status |= isfinite(x2) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x2 = isnan(x2) ? 315.0 : energy_pitch_clamp(x2, 30.0, 600.0);
     }
     if (!(x3 >= 16.0 && x3 <= 30.0)) {
-        domain = true;
+        status |= isfinite(x3) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x3 = isnan(x3) ? 23.0 : energy_pitch_clamp(x3, 16.0, 30.0);
     }
     if (!(x4 >= -2.5 && x4 <= 2.5)) {
-        domain = true;
+        status |= isfinite(x4) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x4 = isnan(x4) ? 0.0 : energy_pitch_clamp(x4, -2.5, 2.5);
     }
     if (!(x5 >= -0.8 && x5 <= 0.8)) {
-        domain = true;
+        status |= isfinite(x5) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x5 = isnan(x5) ? 0.0 : energy_pitch_clamp(x5, -0.8, 0.8);
     }
     if (!(x6 >= 1.0 && x6 <= 25.0)) {
-        domain = true;
+        status |= isfinite(x6) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x6 = isnan(x6) ? 13.0 : energy_pitch_clamp(x6, 1.0, 25.0);
     }
     if (!(x7 >= -0.05 && x7 <= 0.2)) {
-        domain = true;
+        status |= isfinite(x7) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x7 = isnan(x7) ? 0.07500000000000001 : energy_pitch_clamp(x7, -0.05, 0.2);
     }
     {
         const double e0 = x0 - r0;
         if (!(e0 >= -4.0 && e0 <= 4.0)) {
-            domain = true;
+            status |= isfinite(e0) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
             x0 = x2 + (isnan(e0) ? 0.0 : energy_pitch_clamp(e0, -4.0, 4.0));
         } else if (x2 != r0) {
             x0 = x2 + e0;
@@ -104,7 +104,7 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
     {
         const double e1 = x1 - r1;
         if (!(e1 >= -1.5 && e1 <= 1.5)) {
-            domain = true;
+            status |= isfinite(e1) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
             x1 = x3 + (isnan(e1) ? 0.0 : energy_pitch_clamp(e1, -1.5, 1.5));
         } else if (x3 != r1) {
             x1 = x3 + e1;
@@ -113,7 +113,7 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
     if (energy_pitch_gains_ok(gains)) {
         g = *gains;
     } else {
-        domain = true;
+        status |= ENERGY_PITCH_STATUS_GAINS_REJECTED;
         g = energy_pitch_default_gains();
     }
     /* the law (in the envelope) */
@@ -152,7 +152,7 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
     {
         double c0 = theta_value;
         if (!isfinite(c0)) {
-            domain = true;
+            status |= ENERGY_PITCH_STATUS_NONFINITE_COMMAND;
             c0 = 0.0;
         }
         if (c0 < -0.35) {
@@ -167,7 +167,7 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
     {
         double c1 = thrust_value;
         if (!isfinite(c1)) {
-            domain = true;
+            status |= ENERGY_PITCH_STATUS_NONFINITE_COMMAND;
             c1 = 0.0;
         }
         if (c1 < 0.0) {
@@ -180,7 +180,8 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
         out->thrust_cmd = c1;
     }
     out->limits = limits;
-    out->domain = domain;
+    out->domain = status != 0u;
+    out->status = status;
 }
 
 void energy_pitch_guidance_init(energy_pitch_guidance *state, const energy_pitch_commands *start)

@@ -47,7 +47,7 @@ bool pendulum_damping_gains_valid(const pendulum_damping_gains *g)
 
 void pendulum_damping_step(const pendulum_damping_inputs *in, const pendulum_damping_gains *gains, pendulum_damping_outputs *out)
 {
-    bool domain = false;
+    uint32_t status = 0u;
     uint32_t limits = 0u;
     pendulum_damping_gains g;
     double x0 = in->phi;
@@ -55,21 +55,21 @@ void pendulum_damping_step(const pendulum_damping_inputs *in, const pendulum_dam
     {
         const double e0 = x0 - 0.0;
         if (!(e0 >= -1.2 && e0 <= 1.2)) {
-            domain = true;
+            status |= isfinite(e0) ? PENDULUM_DAMPING_STATUS_OUTSIDE_ENVELOPE : PENDULUM_DAMPING_STATUS_NONFINITE_INPUT;
             x0 = 0.0 + (isnan(e0) ? 0.0 : pendulum_damping_clamp(e0, -1.2, 1.2));
         }
     }
     {
         const double e1 = x1 - 0.0;
         if (!(e1 >= -4.0 && e1 <= 4.0)) {
-            domain = true;
+            status |= isfinite(e1) ? PENDULUM_DAMPING_STATUS_OUTSIDE_ENVELOPE : PENDULUM_DAMPING_STATUS_NONFINITE_INPUT;
             x1 = 0.0 + (isnan(e1) ? 0.0 : pendulum_damping_clamp(e1, -4.0, 4.0));
         }
     }
     if (pendulum_damping_gains_ok(gains)) {
         g = *gains;
     } else {
-        domain = true;
+        status |= PENDULUM_DAMPING_STATUS_GAINS_REJECTED;
         g = pendulum_damping_default_gains();
     }
     /* the law (in the envelope) */
@@ -79,7 +79,7 @@ void pendulum_damping_step(const pendulum_damping_inputs *in, const pendulum_dam
     {
         double c0 = torque_value;
         if (!isfinite(c0)) {
-            domain = true;
+            status |= PENDULUM_DAMPING_STATUS_NONFINITE_COMMAND;
             c0 = 0.0;
         }
         if (c0 < -2.0) {
@@ -92,5 +92,6 @@ void pendulum_damping_step(const pendulum_damping_inputs *in, const pendulum_dam
         out->torque_cmd = c0;
     }
     out->limits = limits;
-    out->domain = domain;
+    out->domain = status != 0u;
+    out->status = status;
 }

@@ -74,9 +74,19 @@ pub struct Outputs {
     /// proved set: the law was evaluated at the nearest point of the envelope (each
     /// state's error measured against its reference as given, then errors and
     /// references clamped to their ranges; a NaN input at its range's midpoint or at
-    /// zero error), with the default gains.
+    /// zero error), with the default gains; any bit of `status`.
     pub domain: bool,
+    /// What was repaired: the `STATUS_*` bits.
+    pub status: u32,
 }
+///`status` bit: an input was NaN or infinite: a NaN evaluated at its range's midpoint (or zero error), an infinity at its range's edge.
+pub const STATUS_NONFINITE_INPUT: u32 = 1;
+///`status` bit: a finite input was outside the proved envelope: evaluated at the nearest envelope point.
+pub const STATUS_OUTSIDE_ENVELOPE: u32 = 2;
+///`status` bit: the gains were outside their proved set: the spec's defaults were used.
+pub const STATUS_GAINS_REJECTED: u32 = 4;
+///`status` bit: a command was not finite (the proof rules this out): the safe value was sent.
+pub const STATUS_NONFINITE_COMMAND: u32 = 8;
 ///`limits` bit: `torque_cmd` was below -2 and is saturated to it.
 pub const LIMIT_TORQUE_CMD_LOW: u32 = 1;
 ///`limits` bit: `torque_cmd` was above 2 and is saturated to it.
@@ -90,23 +100,33 @@ pub fn gains_valid(g: &Gains) -> bool {
 }
 /// One step of the control law: the actuator commands, saturated to their limits.
 pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
-    let mut domain = false;
+    let mut status: u32 = 0u32;
     let mut x0: f64 = inputs.phi;
     let mut x1: f64 = inputs.omega;
     let e0 = x0 - 0.0;
     if !(e0 >= -1.2 && e0 <= 1.2) {
-        domain = true;
+        status
+            |= if e0.is_finite() {
+                STATUS_OUTSIDE_ENVELOPE
+            } else {
+                STATUS_NONFINITE_INPUT
+            };
         x0 = 0.0 + if e0.is_nan() { 0.0 } else { clamp_to(e0, -1.2, 1.2) };
     }
     let e1 = x1 - 0.0;
     if !(e1 >= -4.0 && e1 <= 4.0) {
-        domain = true;
+        status
+            |= if e1.is_finite() {
+                STATUS_OUTSIDE_ENVELOPE
+            } else {
+                STATUS_NONFINITE_INPUT
+            };
         x1 = 0.0 + if e1.is_nan() { 0.0 } else { clamp_to(e1, -4.0, 4.0) };
     }
     let g: Gains = if gains_valid(gains) {
         *gains
     } else {
-        domain = true;
+        status |= STATUS_GAINS_REJECTED;
         Gains::DEFAULT
     };
     let torque_0: f64 = x1 * g.k_d;
@@ -114,7 +134,7 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
     let mut limits: u32 = 0u32;
     let mut c0: f64 = torque_value;
     if !c0.is_finite() {
-        domain = true;
+        status |= STATUS_NONFINITE_COMMAND;
         c0 = 0.0;
     }
     if c0 < -2.0 {
@@ -127,6 +147,7 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
     Outputs {
         torque_cmd: c0,
         limits,
-        domain,
+        domain: status != 0u32,
+        status,
     }
 }

@@ -37,9 +37,9 @@ fn main() {
             .collect::<Vec<_>>()
             .join(", ")
     );
-    let _ = writeln!(out, "/// One `step` of spec `name`'s generated code: commands, limit bits, domain flag.\npub fn step(name: &str, inputs: &[f64], gains: &[f64]) -> Option<(Vec<f64>, u32, bool)> {{\n    match name {{");
+    let _ = writeln!(out, "/// One `step` of spec `name`'s generated code: commands, limit bits, domain flag, status bits.\npub fn step(name: &str, inputs: &[f64], gains: &[f64]) -> Option<(Vec<f64>, u32, bool, u32)> {{\n    match name {{");
     for (name, _, _) in &specs {
-        let _ = writeln!(out, "        {name:?} => {{\n            let o = {name}::step(&{name}::Inputs::from_array(inputs.try_into().ok()?), &{name}::Gains::from_array(gains.try_into().ok()?));\n            Some((o.commands().to_vec(), o.limits, o.domain))\n        }}");
+        let _ = writeln!(out, "        {name:?} => {{\n            let o = {name}::step(&{name}::Inputs::from_array(inputs.try_into().ok()?), &{name}::Gains::from_array(gains.try_into().ok()?));\n            Some((o.commands().to_vec(), o.limits, o.domain, o.status))\n        }}");
     }
     let _ = writeln!(out, "        _ => None,\n    }}\n}}");
     let _ = writeln!(out, "/// One guidance `update` of spec `name`: the state as [reference, rate, …].\npub fn update(name: &str, state: &mut [f64], commands: &[f64], gains: &[f64], dt: f64) -> Option<()> {{\n    match name {{");

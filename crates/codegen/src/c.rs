@@ -172,7 +172,11 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         h,
         "    uint32_t limits; /* limits hit: the {up}_LIMIT_* bits */"
     );
-    let _ = writeln!(h, "    bool domain; /* an input was NaN or outside the proved envelope, or the gains outside\n                    their proved set: the law was evaluated at the nearest point of the\n                    envelope (each state's error measured against its reference as\n                    given, then errors and references clamped to their ranges; a NaN\n                    input at its range's midpoint or at zero error), with the default\n                    gains */");
+    let _ = writeln!(h, "    bool domain; /* an input was NaN or outside the proved envelope, or the gains outside\n                    their proved set: the law was evaluated at the nearest point of the\n                    envelope (each state's error measured against its reference as\n                    given, then errors and references clamped to their ranges; a NaN\n                    input at its range's midpoint or at zero error), with the default\n                    gains; any bit of status */");
+    let _ = writeln!(
+        h,
+        "    uint32_t status; /* what was repaired: the {up}_STATUS_* bits */"
+    );
     let _ = writeln!(h, "}} {p}_outputs;\n");
     for (i, a) in c.actuators.iter().enumerate() {
         let n = a.name.to_uppercase();
@@ -181,6 +185,12 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             h,
             "#define {up}_LIMIT_{n}_HIGH (UINT32_C(1) << {})",
             2 * i + 1
+        );
+    }
+    for (i, (n, what)) in crate::controller::STATUS.iter().enumerate() {
+        let _ = writeln!(
+            h,
+            "#define {up}_STATUS_{n} (UINT32_C(1) << {i}) /* {what} */"
         );
     }
     let _ = writeln!(h);
@@ -269,7 +279,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     );
     let _ = writeln!(
         s,
-        "    bool domain = false;\n    uint32_t limits = 0u;\n    {p}_gains g;"
+        "    uint32_t status = 0u;\n    uint32_t limits = 0u;\n    {p}_gains g;"
     );
     for (i, n) in inputs.iter().enumerate() {
         let _ = writeln!(s, "    {ty} x{i} = in->{n};");
@@ -291,7 +301,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         let xi = format!("x{}", ns + j);
         let (lo, hi) = (e.lit(r.range.0), e.lit(r.range.1));
         let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
-        let _ = writeln!(s, "    if (!({xi} >= {lo} && {xi} <= {hi})) {{\n        domain = true;\n        {xi} = isnan({xi}) ? {mid} : {p}_clamp({xi}, {lo}, {hi});\n    }}");
+        let _ = writeln!(s, "    if (!({xi} >= {lo} && {xi} <= {hi})) {{\n        status |= isfinite({xi}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n        {xi} = isnan({xi}) ? {mid} : {p}_clamp({xi}, {lo}, {hi});\n    }}");
     }
     for (i, st) in c.states.iter().enumerate() {
         let base = match st.reference {
@@ -301,12 +311,12 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         let (lo, hi) = (e.lit(st.error.0), e.lit(st.error.1));
         let zero = e.lit(crate::ir::clamp(0.0, st.error.0, st.error.1));
         if st.reference.is_some() {
-            let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - r{i};\n        if (!(e{i} >= {lo} && e{i} <= {hi})) {{\n            domain = true;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }} else if ({base} != r{i}) {{\n            x{i} = {base} + e{i};\n        }}\n    }}");
+            let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - r{i};\n        if (!(e{i} >= {lo} && e{i} <= {hi})) {{\n            status |= isfinite(e{i}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }} else if ({base} != r{i}) {{\n            x{i} = {base} + e{i};\n        }}\n    }}");
         } else {
-            let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - {base};\n        if (!(e{i} >= {lo} && e{i} <= {hi})) {{\n            domain = true;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }}\n    }}");
+            let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - {base};\n        if (!(e{i} >= {lo} && e{i} <= {hi})) {{\n            status |= isfinite(e{i}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }}\n    }}");
         }
     }
-    let _ = writeln!(s, "    if ({p}_gains_ok(gains)) {{\n        g = *gains;\n    }} else {{\n        domain = true;\n        g = {p}_default_gains();\n    }}");
+    let _ = writeln!(s, "    if ({p}_gains_ok(gains)) {{\n        g = *gains;\n    }} else {{\n        status |= {up}_STATUS_GAINS_REJECTED;\n        g = {p}_default_gains();\n    }}");
     let _ = writeln!(s, "    /* the law (in the envelope) */");
     let louts = e.program(
         &c.law,
@@ -325,11 +335,11 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     for (i, (a, o)) in c.actuators.iter().zip(&louts).enumerate() {
         let n = a.name.to_uppercase();
         let (lo, hi) = (e.lit(a.limits.0), e.lit(a.limits.1));
-        let _ = writeln!(s, "    {{\n        {ty} c{i} = {o};\n        if (!isfinite(c{i})) {{\n            domain = true;\n            c{i} = {};\n        }}\n        if (c{i} < {lo}) {{\n            c{i} = {lo};\n            limits |= {up}_LIMIT_{n}_LOW;\n        }} else if (c{i} > {hi}) {{\n            c{i} = {hi};\n            limits |= {up}_LIMIT_{n}_HIGH;\n        }}\n        out->{} = c{i};\n    }}", e.lit(a.safe), a.name);
+        let _ = writeln!(s, "    {{\n        {ty} c{i} = {o};\n        if (!isfinite(c{i})) {{\n            status |= {up}_STATUS_NONFINITE_COMMAND;\n            c{i} = {};\n        }}\n        if (c{i} < {lo}) {{\n            c{i} = {lo};\n            limits |= {up}_LIMIT_{n}_LOW;\n        }} else if (c{i} > {hi}) {{\n            c{i} = {hi};\n            limits |= {up}_LIMIT_{n}_HIGH;\n        }}\n        out->{} = c{i};\n    }}", e.lit(a.safe), a.name);
     }
     let _ = writeln!(
         s,
-        "    out->limits = limits;\n    out->domain = domain;\n}}"
+        "    out->limits = limits;\n    out->domain = status != 0u;\n    out->status = status;\n}}"
     );
     if !c.filters.is_empty() {
         let _ = writeln!(

@@ -121,8 +121,42 @@ pub struct StepOutput {
     pub commands: Vec<f64>,
     /// Bit `2i` set: actuator `i` hit its lower limit; bit `2i+1`: its upper limit.
     pub limits: u32,
-    /// Some input was NaN or outside the proved envelope (or the gains outside their set).
+    /// Some input was NaN or outside the proved envelope (or the gains outside their set):
+    /// any bit of `status`.
     pub domain: bool,
+    /// What was repaired, the [`STATUS`] bits: a non-finite input, a finite input outside
+    /// the envelope, gains rejected, a non-finite command.
+    pub status: u32,
+}
+
+/// The `status` bits of one step, by name and meaning, in bit order: the emitters print
+/// them as constants, the interpreter sets them.
+pub const STATUS: [(&str, &str); 4] = [
+    (
+        "NONFINITE_INPUT",
+        "an input was NaN or infinite: a NaN evaluated at its range's midpoint (or zero error), an infinity at its range's edge",
+    ),
+    (
+        "OUTSIDE_ENVELOPE",
+        "a finite input was outside the proved envelope: evaluated at the nearest envelope point",
+    ),
+    (
+        "GAINS_REJECTED",
+        "the gains were outside their proved set: the spec's defaults were used",
+    ),
+    (
+        "NONFINITE_COMMAND",
+        "a command was not finite (the proof rules this out): the safe value was sent",
+    ),
+];
+
+/// The `status` bit of a repaired input: non-finite, or finite and outside.
+fn repaired(v: f64) -> u32 {
+    if v.is_finite() {
+        1 << 1
+    } else {
+        1 << 0
+    }
 }
 
 /// Why no controller can be generated.
@@ -144,7 +178,7 @@ impl From<IrError> for EmitError {
 }
 
 /// Names the generated structs use for themselves; an actuator may not take them.
-pub const OUTPUT_FIELDS: [&str; 2] = ["limits", "domain"];
+pub const OUTPUT_FIELDS: [&str; 3] = ["limits", "domain", "status"];
 
 /// Most actuators (two flag bits each in a 32-bit word).
 pub const MAX_ACTUATORS: usize = 16;
@@ -405,7 +439,7 @@ impl Controller {
 
     /// [`Controller::step`] with reusable buffers (for simulation loops).
     pub fn step_in(&self, inputs: &[f64], gains: &[f64], ws: &mut Workspace) -> StepOutput {
-        let mut domain = false;
+        let mut status = 0u32;
         let ns = self.states.len();
         let (nr, nt) = (self.references.len(), self.rates.len());
         let mut x = std::mem::take(&mut ws.x);
@@ -422,7 +456,7 @@ impl Controller {
         );
         let mut guard = |v: &mut f64, (lo, hi): (f64, f64)| {
             if !(*v >= lo && *v <= hi) {
-                domain = true;
+                status |= repaired(*v);
                 *v = if v.is_nan() {
                     midpoint((lo, hi))
                 } else {
@@ -447,7 +481,7 @@ impl Controller {
             let e = x[i] - raw[i];
             let (lo, hi) = s.error;
             if !(e >= lo && e <= hi) {
-                domain = true;
+                status |= repaired(e);
                 let e2 = if e.is_nan() {
                     clamp(0.0, lo, hi)
                 } else {
@@ -462,7 +496,7 @@ impl Controller {
         if self.gains_valid_in(gains, ws) {
             x.extend_from_slice(gains);
         } else {
-            domain = true;
+            status |= 1 << 2;
             x.extend(self.gains.iter().map(|g| g.default));
         }
         let mut raw = std::mem::take(&mut ws.out);
@@ -474,7 +508,7 @@ impl Controller {
         for (i, (a, &c)) in self.actuators.iter().zip(&raw).enumerate() {
             let mut c = c;
             if !c.is_finite() {
-                domain = true;
+                status |= 1 << 3;
                 c = a.safe;
             }
             if c < a.limits.0 {
@@ -490,7 +524,8 @@ impl Controller {
         StepOutput {
             commands,
             limits,
-            domain,
+            domain: status != 0,
+            status,
         }
     }
 
@@ -662,9 +697,19 @@ mod tests {
         let edge = c.step(&x, &gains);
         assert!(far.domain && !edge.domain);
         assert_eq!(far.commands, edge.commands);
+        // each repair has its own status bit
+        assert_eq!((inside.status, far.status, edge.status), (0, 1 << 1, 0));
         // NaN drag: evaluated at the middle of its range; gains outside: the defaults
         x[at("drag")] = f64::NAN;
+        assert_eq!(c.step(&x, &gains).status, 1 << 0);
         let nan = c.step(&x, &[9.0, 0.35, 0.3, 0.5]);
         assert!(nan.domain && nan.commands.iter().all(|v| v.is_finite()));
+        assert_eq!(nan.status, 1 << 0 | 1 << 2);
+        x[at("drag")] = 8.0;
+        assert_eq!(c.step(&x, &[9.0, 0.35, 0.3, 0.5]).status, 1 << 2);
+        // an infinite altitude: non-finite, evaluated at the error box's edge
+        x[at("h")] = f64::INFINITY;
+        let inf = c.step(&x, &gains);
+        assert_eq!((inf.status, &inf.commands), (1 << 0, &edge.commands));
     }
 }

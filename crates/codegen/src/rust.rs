@@ -175,6 +175,15 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
 
     // flags
     let mut flag_items = TokenStream::new();
+    for (i, (n, what)) in crate::controller::STATUS.iter().enumerate() {
+        let name = format_ident!("STATUS_{}", n);
+        let bit = proc_macro2::Literal::u32_unsuffixed(1u32 << i);
+        let doc = format!("`status` bit: {what}.");
+        flag_items.extend(quote! {
+            #[doc = #doc]
+            pub const #name: u32 = #bit;
+        });
+    }
     for (i, a) in c.actuators.iter().enumerate() {
         let lo = format_ident!("LIMIT_{}_LOW", a.name.to_uppercase());
         let hi = format_ident!("LIMIT_{}_HIGH", a.name.to_uppercase());
@@ -221,7 +230,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
         let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
         guards.extend(quote! {
             if !(#xi >= #lo && #xi <= #hi) {
-                domain = true;
+                status |= if #xi.is_finite() { STATUS_OUTSIDE_ENVELOPE } else { STATUS_NONFINITE_INPUT };
                 #xi = if #xi.is_nan() { #mid } else { clamp_to(#xi, #lo, #hi) };
             }
         });
@@ -240,7 +249,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
         let zero = e.lit(crate::ir::clamp(0.0, s.error.0, s.error.1));
         let guard = quote! {
             if !(#err >= #lo && #err <= #hi) {
-                domain = true;
+                status |= if #err.is_finite() { STATUS_OUTSIDE_ENVELOPE } else { STATUS_NONFINITE_INPUT };
                 #xi = #base + if #err.is_nan() { #zero } else { clamp_to(#err, #lo, #hi) };
             }
         };
@@ -313,7 +322,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
         saturate.extend(quote! {
             let mut #ci: #ty = #out;
             if !#ci.is_finite() {
-                domain = true;
+                status |= STATUS_NONFINITE_COMMAND;
                 #ci = #safe;
             }
             if #ci < #lo {
@@ -531,8 +540,10 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             /// proved set: the law was evaluated at the nearest point of the envelope (each
             /// state's error measured against its reference as given, then errors and
             /// references clamped to their ranges; a NaN input at its range's midpoint or at
-            /// zero error), with the default gains.
+            /// zero error), with the default gains; any bit of `status`.
             pub domain: bool,
+            /// What was repaired: the `STATUS_*` bits.
+            pub status: u32,
         }
 
         #flag_items
@@ -555,18 +566,18 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
 
         /// One step of the control law: the actuator commands, saturated to their limits.
         pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
-            let mut domain = false;
+            let mut status: u32 = #zero_u;
             #guards
             let g: Gains = if gains_valid(gains) {
                 *gains
             } else {
-                domain = true;
+                status |= STATUS_GAINS_REJECTED;
                 Gains::DEFAULT
             };
             #lbody
             let mut limits: u32 = #zero_u;
             #saturate
-            Outputs { #( #act_fields: #cmd_names, )* limits, domain }
+            Outputs { #( #act_fields: #cmd_names, )* limits, domain: status != #zero_u, status }
         }
 
         #guidance_items

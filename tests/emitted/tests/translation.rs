@@ -119,7 +119,7 @@ fn harness(c: &Controller) -> String {
     for a in &c.actuators {
         let _ = writeln!(s, "        wr(out.{});", a.name);
     }
-    let _ = writeln!(s, "        wr((double)out.limits);\n        wr(out.domain ? 1.0 : 0.0);\n    }}\n    m = (long)rd();");
+    let _ = writeln!(s, "        wr((double)out.limits);\n        wr(out.domain ? 1.0 : 0.0);\n        wr((double)out.status);\n    }}\n    m = (long)rd();");
     if !c.filters.is_empty() {
         let _ = writeln!(s, "    for (i = 0; i < m; i++) {{\n        {p}_guidance st;\n        {p}_commands cm;\n        {p}_gains g;\n        double dt;");
         for f in &c.filters {
@@ -275,8 +275,15 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
         let mut expected = Vec::new();
         for case in &cases {
             let want = c.step(&case.inputs, &case.gains);
-            let (cmds, limits, domain) = lawsmith_emitted::step(name, &case.inputs, &case.gains)
-                .expect("a generated module");
+            let (cmds, limits, domain, status) =
+                lawsmith_emitted::step(name, &case.inputs, &case.gains)
+                    .expect("a generated module");
+            assert_eq!(
+                status, want.status,
+                "{name}: status bits at {:?}",
+                case.inputs
+            );
+            assert_eq!(domain, status != 0, "{name}: domain is any status bit");
             assert_eq!(
                 limits, want.limits,
                 "{name}: limit bits at {:?}",
@@ -357,15 +364,16 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
         for cc in compilers() {
             let exe = build_c(&cc, &dir, &gen, &c, &[]);
             let out = run_c(&exe, &input);
-            let per = c.actuators.len() + 2;
+            let per = c.actuators.len() + 3;
             let mut worst: f64 = 0.0;
             for (k, want) in expected.iter().enumerate() {
                 let row = &out[k * per..(k + 1) * per];
                 for (a, b) in row.iter().zip(&want.commands) {
                     worst = worst.max(rel(*a, *b));
                 }
-                assert_eq!(row[per - 2] as u32, want.limits, "{name}/{cc}: limit bits");
-                assert_eq!(row[per - 1] != 0.0, want.domain, "{name}/{cc}: domain flag");
+                assert_eq!(row[per - 3] as u32, want.limits, "{name}/{cc}: limit bits");
+                assert_eq!(row[per - 2] != 0.0, want.domain, "{name}/{cc}: domain flag");
+                assert_eq!(row[per - 1] as u32, want.status, "{name}/{cc}: status bits");
             }
             let mut gworst: f64 = 0.0;
             let goff = expected.len() * per;
@@ -468,7 +476,7 @@ fn f32_code_compiles_clean_and_stays_close() {
         }
         input.push(0.0);
         let out = run_c(&exe, &input);
-        let per = c.actuators.len() + 2;
+        let per = c.actuators.len() + 3;
         let mut worst: f64 = 0.0;
         for (k, (x, g)) in cases.iter().enumerate() {
             let want = c.step(x, g);
@@ -550,8 +558,9 @@ fn outside_the_envelope_every_reader_evaluates_the_nearest_envelope_point() {
         assert_eq!(got.commands, want.commands, "{given:?}");
         // the test tells the two readings apart: a full-box error commands something else
         assert_ne!(c.step(full_box, &gains).commands, want.commands);
-        let (cmds, _, domain) = lawsmith_emitted::step(name, given, &gains).unwrap();
+        let (cmds, _, domain, status) = lawsmith_emitted::step(name, given, &gains).unwrap();
         assert!(domain);
+        assert_eq!(status, got.status);
         let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
         assert_eq!(bits(&cmds), bits(&want.commands), "Rust at {given:?}");
         input.extend(given);
@@ -561,14 +570,19 @@ fn outside_the_envelope_every_reader_evaluates_the_nearest_envelope_point() {
     let gen = root().join("generated").join(name);
     for cc in compilers() {
         let out = run_c(&build_c(&cc, &dir, &gen, &c, &[]), &input);
-        let per = c.actuators.len() + 2;
-        for (k, (_, nearest, _)) in cases.iter().enumerate() {
+        let per = c.actuators.len() + 3;
+        for (k, (given, nearest, _)) in cases.iter().enumerate() {
             let want = c.step(nearest, &gains);
             let row = &out[k * per..(k + 1) * per];
             for (a, b) in row.iter().zip(&want.commands) {
                 assert!(rel(*a, *b) <= 1e-12, "{cc}: case {k}: {a} vs {b}");
             }
-            assert!(row[per - 1] != 0.0, "{cc}: case {k}: no domain flag");
+            assert!(row[per - 2] != 0.0, "{cc}: case {k}: no domain flag");
+            assert_eq!(
+                row[per - 1] as u32,
+                c.step(given, &gains).status,
+                "{cc}: case {k}"
+            );
         }
     }
     std::fs::remove_dir_all(&dir).unwrap();
