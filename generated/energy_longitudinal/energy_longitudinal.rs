@@ -135,6 +135,8 @@ pub const STATUS_OUTSIDE_ENVELOPE: u32 = 2;
 pub const STATUS_GAINS_REJECTED: u32 = 4;
 ///`status` bit: a command was not finite (the proof rules this out): the safe value was sent.
 pub const STATUS_NONFINITE_COMMAND: u32 = 8;
+///`status` bit: a reference of the guidance state was not finite: its filter restarted at rest at its command.
+pub const STATUS_GUIDANCE_REPAIRED: u32 = 16;
 ///`limits` bit: `pitch_cmd` was below -0.35 and is saturated to it.
 pub const LIMIT_PITCH_CMD_LOW: u32 = 1;
 ///`limits` bit: `pitch_cmd` was above 0.45 and is saturated to it.
@@ -375,14 +377,30 @@ impl Commands {
 /// Advances every reference filter over `dt` seconds towards its command: the
 /// exact solution of `ṙ = clamp(k·(c − r), lo, hi)` for a constant command. A NaN
 /// command holds its reference; gains outside their proved set are replaced by the
-/// defaults; a `dt` that is not positive changes nothing.
-pub fn update(state: &mut Guidance, commands: &Commands, gains: &Gains, dt: f64) {
+/// defaults; a `dt` that is not positive changes nothing. A reference that is not
+/// finite restarts at rest at its command (as [`Guidance::start`]). Returns the
+/// `STATUS_*` bits of what it repaired: `GUIDANCE_REPAIRED`, `GAINS_REJECTED`.
+pub fn update(state: &mut Guidance, commands: &Commands, gains: &Gains, dt: f64) -> u32 {
+    let mut status: u32 = 0;
     if !(dt > 0.0) {
-        return;
+        return status;
     }
-    let g: Gains = if gains_valid(gains) { *gains } else { Gains::DEFAULT };
+    let g: Gains = if gains_valid(gains) {
+        *gains
+    } else {
+        status |= STATUS_GAINS_REJECTED;
+        Gains::DEFAULT
+    };
     {
-        let r: f64 = state.h_r;
+        let mut r: f64 = state.h_r;
+        if !r.is_finite() {
+            status |= STATUS_GUIDANCE_REPAIRED;
+            r = if commands.h_cmd.is_nan() {
+                315.0
+            } else {
+                clamp_to(commands.h_cmd, 30.0, 600.0)
+            };
+        }
         let c: f64 = if commands.h_cmd.is_nan() { r } else { commands.h_cmd };
         let k: f64 = g.k_h;
         let r_0: f64 = c - r;
@@ -425,7 +443,15 @@ pub fn update(state: &mut Guidance, commands: &Commands, gains: &Gains, dt: f64)
         state.hdot_r = r_35;
     }
     {
-        let r: f64 = state.va_r;
+        let mut r: f64 = state.va_r;
+        if !r.is_finite() {
+            status |= STATUS_GUIDANCE_REPAIRED;
+            r = if commands.va_cmd.is_nan() {
+                22.5
+            } else {
+                clamp_to(commands.va_cmd, 15.0, 30.0)
+            };
+        }
         let c: f64 = if commands.va_cmd.is_nan() { r } else { commands.va_cmd };
         let k: f64 = g.k_v;
         let r_0: f64 = c - r;
@@ -467,4 +493,5 @@ pub fn update(state: &mut Guidance, commands: &Commands, gains: &Gains, dt: f64)
         state.va_r = r_33;
         state.vadot_r = r_35;
     }
+    status
 }

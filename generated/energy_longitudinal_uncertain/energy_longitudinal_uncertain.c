@@ -188,15 +188,25 @@ void energy_longitudinal_uncertain_guidance_init(energy_longitudinal_uncertain_g
     state->vadot_r = 0.0;
 }
 
-void energy_longitudinal_uncertain_update(energy_longitudinal_uncertain_guidance *state, const energy_longitudinal_uncertain_commands *commands, const energy_longitudinal_uncertain_gains *gains, double dt)
+uint32_t energy_longitudinal_uncertain_update(energy_longitudinal_uncertain_guidance *state, const energy_longitudinal_uncertain_commands *commands, const energy_longitudinal_uncertain_gains *gains, double dt)
 {
     energy_longitudinal_uncertain_gains g;
+    uint32_t status = 0u;
     if (!(dt > 0.0)) {
-        return;
+        return status;
     }
-    g = energy_longitudinal_uncertain_gains_ok(gains) ? *gains : energy_longitudinal_uncertain_default_gains();
+    if (energy_longitudinal_uncertain_gains_ok(gains)) {
+        g = *gains;
+    } else {
+        status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_GAINS_REJECTED;
+        g = energy_longitudinal_uncertain_default_gains();
+    }
     {
-        const double r = state->h_r;
+        double r = state->h_r;
+        if (!isfinite(r)) {
+            status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_GUIDANCE_REPAIRED;
+            r = isnan(commands->h_cmd) ? 315.0 : energy_longitudinal_uncertain_clamp(commands->h_cmd, 30.0, 600.0);
+        }
         const double c = isnan(commands->h_cmd) ? r : commands->h_cmd;
         const double k = g.k_h;
         const double r_0 = c - r;
@@ -239,7 +249,11 @@ void energy_longitudinal_uncertain_update(energy_longitudinal_uncertain_guidance
         state->hdot_r = r_35;
     }
     {
-        const double r = state->va_r;
+        double r = state->va_r;
+        if (!isfinite(r)) {
+            status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_GUIDANCE_REPAIRED;
+            r = isnan(commands->va_cmd) ? 22.5 : energy_longitudinal_uncertain_clamp(commands->va_cmd, 15.0, 30.0);
+        }
         const double c = isnan(commands->va_cmd) ? r : commands->va_cmd;
         const double k = g.k_v;
         const double r_0 = c - r;
@@ -281,4 +295,5 @@ void energy_longitudinal_uncertain_update(energy_longitudinal_uncertain_guidance
         state->va_r = r_33;
         state->vadot_r = r_35;
     }
+    return status;
 }

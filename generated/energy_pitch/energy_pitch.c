@@ -192,15 +192,25 @@ void energy_pitch_guidance_init(energy_pitch_guidance *state, const energy_pitch
     state->vadot_r = 0.0;
 }
 
-void energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_commands *commands, const energy_pitch_gains *gains, double dt)
+uint32_t energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_commands *commands, const energy_pitch_gains *gains, double dt)
 {
     energy_pitch_gains g;
+    uint32_t status = 0u;
     if (!(dt > 0.0)) {
-        return;
+        return status;
     }
-    g = energy_pitch_gains_ok(gains) ? *gains : energy_pitch_default_gains();
+    if (energy_pitch_gains_ok(gains)) {
+        g = *gains;
+    } else {
+        status |= ENERGY_PITCH_STATUS_GAINS_REJECTED;
+        g = energy_pitch_default_gains();
+    }
     {
-        const double r = state->h_r;
+        double r = state->h_r;
+        if (!isfinite(r)) {
+            status |= ENERGY_PITCH_STATUS_GUIDANCE_REPAIRED;
+            r = isnan(commands->h_cmd) ? 315.0 : energy_pitch_clamp(commands->h_cmd, 30.0, 600.0);
+        }
         const double c = isnan(commands->h_cmd) ? r : commands->h_cmd;
         const double k = g.k_h;
         const double r_0 = c - r;
@@ -243,7 +253,11 @@ void energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_comman
         state->hdot_r = r_35;
     }
     {
-        const double r = state->va_r;
+        double r = state->va_r;
+        if (!isfinite(r)) {
+            status |= ENERGY_PITCH_STATUS_GUIDANCE_REPAIRED;
+            r = isnan(commands->va_cmd) ? 23.0 : energy_pitch_clamp(commands->va_cmd, 16.0, 30.0);
+        }
         const double c = isnan(commands->va_cmd) ? r : commands->va_cmd;
         const double k = g.k_v;
         const double r_0 = c - r;
@@ -285,4 +299,5 @@ void energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_comman
         state->va_r = r_33;
         state->vadot_r = r_35;
     }
+    return status;
 }

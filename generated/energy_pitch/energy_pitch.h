@@ -69,6 +69,7 @@ typedef struct {
 #define ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE (UINT32_C(1) << 1) /* a finite input was outside the proved envelope: evaluated at the nearest envelope point */
 #define ENERGY_PITCH_STATUS_GAINS_REJECTED (UINT32_C(1) << 2) /* the gains were outside their proved set: the spec's defaults were used */
 #define ENERGY_PITCH_STATUS_NONFINITE_COMMAND (UINT32_C(1) << 3) /* a command was not finite (the proof rules this out): the safe value was sent */
+#define ENERGY_PITCH_STATUS_GUIDANCE_REPAIRED (UINT32_C(1) << 4) /* a reference of the guidance state was not finite: its filter restarted at rest at its command */
 
 /* The spec's default gains; the generated code falls back to them. */
 energy_pitch_gains energy_pitch_default_gains(void);
@@ -102,8 +103,10 @@ void energy_pitch_guidance_init(energy_pitch_guidance *state, const energy_pitch
 /* Advances every reference filter over dt seconds towards its command: the exact
    solution of r' = clamp(k*(c - r), lo, hi) for a constant command. A NaN command
    holds its reference; gains outside their proved set are replaced by the defaults;
-   a dt that is not positive changes nothing. */
-void energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_commands *commands, const energy_pitch_gains *gains, double dt);
+   a dt that is not positive changes nothing. A reference that is not finite restarts
+   at rest at its command (as energy_pitch_guidance_init). Returns the ENERGY_PITCH_STATUS_* bits of what
+   it repaired: GUIDANCE_REPAIRED, GAINS_REJECTED. */
+uint32_t energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_commands *commands, const energy_pitch_gains *gains, double dt);
 
 #ifdef __cplusplus
 }

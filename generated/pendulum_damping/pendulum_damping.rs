@@ -87,6 +87,8 @@ pub const STATUS_OUTSIDE_ENVELOPE: u32 = 2;
 pub const STATUS_GAINS_REJECTED: u32 = 4;
 ///`status` bit: a command was not finite (the proof rules this out): the safe value was sent.
 pub const STATUS_NONFINITE_COMMAND: u32 = 8;
+///`status` bit: a reference of the guidance state was not finite: its filter restarted at rest at its command.
+pub const STATUS_GUIDANCE_REPAIRED: u32 = 16;
 ///`limits` bit: `torque_cmd` was below -2 and is saturated to it.
 pub const LIMIT_TORQUE_CMD_LOW: u32 = 1;
 ///`limits` bit: `torque_cmd` was above 2 and is saturated to it.

@@ -42,10 +42,10 @@ fn main() {
         let _ = writeln!(out, "        {name:?} => {{\n            let o = {name}::step(&{name}::Inputs::from_array(inputs.try_into().ok()?), &{name}::Gains::from_array(gains.try_into().ok()?));\n            Some((o.commands().to_vec(), o.limits, o.domain, o.status))\n        }}");
     }
     let _ = writeln!(out, "        _ => None,\n    }}\n}}");
-    let _ = writeln!(out, "/// One guidance `update` of spec `name`: the state as [reference, rate, …].\npub fn update(name: &str, state: &mut [f64], commands: &[f64], gains: &[f64], dt: f64) -> Option<()> {{\n    match name {{");
+    let _ = writeln!(out, "/// One guidance `update` of spec `name`: the state as [reference, rate, …]; the status bits.\npub fn update(name: &str, state: &mut [f64], commands: &[f64], gains: &[f64], dt: f64) -> Option<u32> {{\n    match name {{");
     for (name, _, has) in &specs {
         if *has {
-            let _ = writeln!(out, "        {name:?} => {{\n            let mut s = {name}::Guidance::from_array((&*state).try_into().ok()?);\n            {name}::update(&mut s, &{name}::Commands::from_array(commands.try_into().ok()?), &{name}::Gains::from_array(gains.try_into().ok()?), dt);\n            state.copy_from_slice(&s.to_array());\n            Some(())\n        }}");
+            let _ = writeln!(out, "        {name:?} => {{\n            let mut s = {name}::Guidance::from_array((&*state).try_into().ok()?);\n            let status = {name}::update(&mut s, &{name}::Commands::from_array(commands.try_into().ok()?), &{name}::Gains::from_array(gains.try_into().ok()?), dt);\n            state.copy_from_slice(&s.to_array());\n            Some(status)\n        }}");
         }
     }
     let _ = writeln!(out, "        _ => None,\n    }}\n}}");

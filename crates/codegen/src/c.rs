@@ -218,7 +218,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         }
         let _ = writeln!(h, "}} {p}_commands;\n");
         let _ = writeln!(h, "/* Starts the guidance filters at rest: each reference at its command in start\n   (clamped into its proved range, a NaN at the range's midpoint), each rate zero. */\nvoid {p}_guidance_init({p}_guidance *state, const {p}_commands *start);\n");
-        let _ = writeln!(h, "/* Advances every reference filter over dt seconds towards its command: the exact\n   solution of r' = clamp(k*(c - r), lo, hi) for a constant command. A NaN command\n   holds its reference; gains outside their proved set are replaced by the defaults;\n   a dt that is not positive changes nothing. */\nvoid {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt);\n");
+        let _ = writeln!(h, "/* Advances every reference filter over dt seconds towards its command: the exact\n   solution of r' = clamp(k*(c - r), lo, hi) for a constant command. A NaN command\n   holds its reference; gains outside their proved set are replaced by the defaults;\n   a dt that is not positive changes nothing. A reference that is not finite restarts\n   at rest at its command (as {p}_guidance_init). Returns the {up}_STATUS_* bits of what\n   it repaired: GUIDANCE_REPAIRED, GAINS_REJECTED. */\nuint32_t {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt);\n");
     }
     let _ = writeln!(h, "#ifdef __cplusplus\n}}\n#endif\n\n#endif /* {guard} */");
 
@@ -353,11 +353,14 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             let _ = writeln!(s, "    state->{rn} = isnan(start->{cn}) ? {mid} : {p}_clamp(start->{cn}, {lo}, {hi});\n    state->{q} = {zero};", rn = r.name, cn = f.command, q = f.rate, zero = e.lit(0.0));
         }
         let _ = writeln!(s, "}}");
-        let _ = writeln!(s, "\nvoid {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt)\n{{\n    {p}_gains g;\n    if (!(dt > {})) {{\n        return;\n    }}\n    g = {p}_gains_ok(gains) ? *gains : {p}_default_gains();", e.lit(0.0));
+        let _ = writeln!(s, "\nuint32_t {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt)\n{{\n    {p}_gains g;\n    uint32_t status = 0u;\n    if (!(dt > {})) {{\n        return status;\n    }}\n    if ({p}_gains_ok(gains)) {{\n        g = *gains;\n    }} else {{\n        status |= {up}_STATUS_GAINS_REJECTED;\n        g = {p}_default_gains();\n    }}", e.lit(0.0));
         for f in &c.filters {
             let rn = &c.references[f.reference].name;
             let kn = &c.gains[f.gain].name;
-            let _ = writeln!(s, "    {{\n        const {ty} r = state->{rn};\n        const {ty} c = isnan(commands->{cn}) ? r : commands->{cn};\n        const {ty} k = g.{kn};", cn = f.command);
+            let range = c.references[f.reference].range;
+            let (lo, hi) = (e.lit(range.0), e.lit(range.1));
+            let mid = e.lit(0.5 * range.0 + 0.5 * range.1);
+            let _ = writeln!(s, "    {{\n        {ty} r = state->{rn};\n        if (!isfinite(r)) {{\n            status |= {up}_STATUS_GUIDANCE_REPAIRED;\n            r = isnan(commands->{cn}) ? {mid} : {p}_clamp(commands->{cn}, {lo}, {hi});\n        }}\n        const {ty} c = isnan(commands->{cn}) ? r : commands->{cn};\n        const {ty} k = g.{kn};", cn = f.command);
             let outs = e.program(
                 &f.program,
                 p,
@@ -371,7 +374,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
                 outs[0], f.rate, outs[1]
             );
         }
-        let _ = writeln!(s, "}}");
+        let _ = writeln!(s, "    return status;\n}}");
     }
     (h, s)
 }

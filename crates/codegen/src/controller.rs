@@ -129,9 +129,10 @@ pub struct StepOutput {
     pub status: u32,
 }
 
-/// The `status` bits of one step, by name and meaning, in bit order: the emitters print
-/// them as constants, the interpreter sets them.
-pub const STATUS: [(&str, &str); 4] = [
+/// The `status` bits, by name and meaning, in bit order: the emitters print them as
+/// constants, the interpreter sets them (the first four in `step`, the last and
+/// `GAINS_REJECTED` in `update`).
+pub const STATUS: [(&str, &str); 5] = [
     (
         "NONFINITE_INPUT",
         "an input was NaN or infinite: a NaN evaluated at its range's midpoint (or zero error), an infinity at its range's edge",
@@ -148,7 +149,14 @@ pub const STATUS: [(&str, &str); 4] = [
         "NONFINITE_COMMAND",
         "a command was not finite (the proof rules this out): the safe value was sent",
     ),
+    (
+        "GUIDANCE_REPAIRED",
+        "a reference of the guidance state was not finite: its filter restarted at rest at its command",
+    ),
 ];
+
+/// The `status` bit of a guidance state repaired by `update`.
+pub const STATUS_GUIDANCE_REPAIRED: u32 = 1 << 4;
 
 /// The `status` bit of a repaired input: non-finite, or finite and outside.
 fn repaired(v: f64) -> u32 {
@@ -531,8 +539,10 @@ impl Controller {
 
     /// One guidance update of every filter, as the generated `update` computes it:
     /// `refs[j]`/`rates[j]` are filter `j`'s reference and rate, advanced over `dt` towards
-    /// `commands[j]`. A NaN command holds the reference; gains outside their sets are
-    /// replaced by the defaults; a `dt` that is not positive changes nothing.
+    /// `commands[j]`. A NaN command holds the reference; a reference that is not finite
+    /// restarts at rest at its command ([`Controller::start`]); gains outside their sets are
+    /// replaced by the defaults; a `dt` that is not positive changes nothing. Returns the
+    /// `status` bits of what it repaired (`GUIDANCE_REPAIRED`, `GAINS_REJECTED`).
     pub fn update(
         &self,
         refs: &mut [f64],
@@ -540,8 +550,8 @@ impl Controller {
         commands: &[f64],
         gains: &[f64],
         dt: f64,
-    ) {
-        self.update_in(refs, rates, commands, gains, dt, &mut Workspace::default());
+    ) -> u32 {
+        self.update_in(refs, rates, commands, gains, dt, &mut Workspace::default())
     }
 
     /// [`Controller::update`] with reusable buffers.
@@ -553,12 +563,17 @@ impl Controller {
         gains: &[f64],
         dt: f64,
         ws: &mut Workspace,
-    ) {
+    ) -> u32 {
         if dt.is_nan() || dt <= 0.0 {
-            return;
+            return 0;
         }
         let valid = self.gains_valid_in(gains, ws);
+        let mut status = if valid { 0 } else { 1 << 2 };
         for (j, f) in self.filters.iter().enumerate() {
+            if !refs[j].is_finite() {
+                status |= STATUS_GUIDANCE_REPAIRED;
+                refs[j] = self.start(j, commands[j]);
+            }
             let k = if valid {
                 gains[f.gain]
             } else {
@@ -574,6 +589,18 @@ impl Controller {
                 .run_into(&[refs[j], c, k, dt], &mut ws.slots, &mut out);
             refs[j] = out[0];
             rates[j] = out[1];
+        }
+        status
+    }
+
+    /// Filter `j`'s reference at rest at `command`: clamped into the reference's range, a
+    /// NaN at the range's midpoint (as the emitted init and the repair in `update` set it).
+    pub fn start(&self, j: usize, command: f64) -> f64 {
+        let range = self.references[self.filters[j].reference].range;
+        if command.is_nan() {
+            midpoint(range)
+        } else {
+            clamp(command, range.0, range.1)
         }
     }
 }

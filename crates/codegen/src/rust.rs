@@ -381,9 +381,16 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
                 _ => quote!(dt),
             });
             let (o_r, o_q) = (&outs[0], &outs[1]);
+            let range = c.references[f.reference].range;
+            let (lo, hi) = (e.lit(range.0), e.lit(range.1));
+            let mid = e.lit(0.5 * range.0 + 0.5 * range.1);
             blocks.extend(quote! {
                 {
-                    let r: #ty = state.#rf;
+                    let mut r: #ty = state.#rf;
+                    if !r.is_finite() {
+                        status |= STATUS_GUIDANCE_REPAIRED;
+                        r = if commands.#cf.is_nan() { #mid } else { clamp_to(commands.#cf, #lo, #hi) };
+                    }
                     let c: #ty = if commands.#cf.is_nan() { r } else { commands.#cf };
                     let k: #ty = g.#kf;
                     #body
@@ -456,13 +463,22 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             /// Advances every reference filter over `dt` seconds towards its command: the
             /// exact solution of `ṙ = clamp(k·(c − r), lo, hi)` for a constant command. A NaN
             /// command holds its reference; gains outside their proved set are replaced by the
-            /// defaults; a `dt` that is not positive changes nothing.
-            pub fn update(state: &mut Guidance, commands: &Commands, gains: &Gains, dt: #ty) {
+            /// defaults; a `dt` that is not positive changes nothing. A reference that is not
+            /// finite restarts at rest at its command (as [`Guidance::start`]). Returns the
+            /// `STATUS_*` bits of what it repaired: `GUIDANCE_REPAIRED`, `GAINS_REJECTED`.
+            pub fn update(state: &mut Guidance, commands: &Commands, gains: &Gains, dt: #ty) -> u32 {
+                let mut status: u32 = 0;
                 if !(dt > 0.0) {
-                    return;
+                    return status;
                 }
-                let g: Gains = if gains_valid(gains) { *gains } else { Gains::DEFAULT };
+                let g: Gains = if gains_valid(gains) {
+                    *gains
+                } else {
+                    status |= STATUS_GAINS_REJECTED;
+                    Gains::DEFAULT
+                };
                 #blocks
+                status
             }
         };
     }

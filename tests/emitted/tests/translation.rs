@@ -121,7 +121,7 @@ fn harness(c: &Controller) -> String {
     }
     let _ = writeln!(s, "        wr((double)out.limits);\n        wr(out.domain ? 1.0 : 0.0);\n        wr((double)out.status);\n    }}\n    m = (long)rd();");
     if !c.filters.is_empty() {
-        let _ = writeln!(s, "    for (i = 0; i < m; i++) {{\n        {p}_guidance st;\n        {p}_commands cm;\n        {p}_gains g;\n        double dt;");
+        let _ = writeln!(s, "    for (i = 0; i < m; i++) {{\n        {p}_guidance st;\n        {p}_commands cm;\n        {p}_gains g;\n        double dt;\n        uint32_t u;");
         for f in &c.filters {
             let _ = writeln!(
                 s,
@@ -137,7 +137,7 @@ fn harness(c: &Controller) -> String {
         }
         let _ = writeln!(
             s,
-            "        dt = rd();\n        {p}_update(&st, &cm, &g, dt);"
+            "        dt = rd();\n        u = {p}_update(&st, &cm, &g, dt);"
         );
         for f in &c.filters {
             let _ = writeln!(
@@ -146,7 +146,7 @@ fn harness(c: &Controller) -> String {
                 c.references[f.reference].name, f.rate
             );
         }
-        let _ = writeln!(s, "    }}");
+        let _ = writeln!(s, "        wr((double)u);\n    }}");
     }
     s.push_str("    return 0;\n}\n");
     s
@@ -228,14 +228,19 @@ fn guidance_points(c: &Controller, rng: &mut Rng, n: usize) -> Vec<GuidancePoint
             let mut cm = Vec::new();
             for f in &c.filters {
                 let r = &c.references[f.reference];
-                st.push(uniform(rng, r.range));
+                // now and then a reference that is not finite, which update must repair
+                st.push(match i % 97 {
+                    13 => f64::NAN,
+                    29 => f64::INFINITY,
+                    _ => uniform(rng, r.range),
+                });
                 st.push(uniform(rng, f.rate_limit));
                 // commands near and far, sometimes NaN
                 let far = (r.range.1 - r.range.0) * (rng.unit() - 0.5) * 2.0;
                 cm.push(if i % 50 == 7 {
                     f64::NAN
                 } else {
-                    st[st.len() - 2] + far * rng.unit().powi(3)
+                    r.range.0.max(st[st.len() - 2].min(r.range.1)) + far * rng.unit().powi(3)
                 });
             }
             let dt = [0.02, 0.01, 0.1, 1.0, 0.0, -0.02][i % 6];
@@ -328,10 +333,11 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
             expected.push(want);
         }
         let mut gexpected = Vec::new();
+        let mut repaired = 0;
         for (st, cm, g, dt) in &gpoints {
             let mut refs: Vec<f64> = st.iter().step_by(2).copied().collect();
             let mut rates: Vec<f64> = st.iter().skip(1).step_by(2).copied().collect();
-            c.update(&mut refs, &mut rates, cm, g, *dt);
+            let status = c.update(&mut refs, &mut rates, cm, g, *dt);
             let mine: Vec<f64> = refs
                 .iter()
                 .zip(&rates)
@@ -339,14 +345,31 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
                 .collect();
             if !c.filters.is_empty() {
                 let mut s = st.clone();
-                lawsmith_emitted::update(name, &mut s, cm, g, *dt).unwrap();
+                let rust_status = lawsmith_emitted::update(name, &mut s, cm, g, *dt).unwrap();
+                assert_eq!(rust_status, status, "{name}: Rust update status at {st:?}");
                 for (a, b) in s.iter().zip(&mine) {
                     assert_eq!(a.to_bits(), b.to_bits(), "{name}: Rust update differs");
-                    assert!(b.is_finite(), "{name}: non-finite guidance state");
+                    // a dt that is not positive changes nothing, a broken state included
+                    assert!(
+                        b.is_finite() || *dt <= 0.0,
+                        "{name}: non-finite guidance state"
+                    );
+                }
+                if st.iter().step_by(2).any(|r| !r.is_finite()) && *dt > 0.0 {
+                    assert!(
+                        status & 1 << 4 != 0,
+                        "{name}: repair not reported at {st:?}"
+                    );
+                    repaired += 1;
                 }
             }
-            gexpected.push(mine);
+            gexpected.push((mine, status));
         }
+
+        assert!(
+            c.filters.is_empty() || repaired > 100,
+            "{name}: {repaired} repairs"
+        );
 
         // the generated C, through each compiler
         let mut input = vec![cases.len() as f64];
@@ -377,12 +400,14 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
             }
             let mut gworst: f64 = 0.0;
             let goff = expected.len() * per;
-            let gper = 2 * c.filters.len();
-            if gper > 0 {
-                for (k, want) in gexpected.iter().enumerate() {
-                    for (a, b) in out[goff + k * gper..goff + (k + 1) * gper].iter().zip(want) {
+            let gper = 2 * c.filters.len() + 1;
+            if gper > 1 {
+                for (k, (want, status)) in gexpected.iter().enumerate() {
+                    let row = &out[goff + k * gper..goff + (k + 1) * gper];
+                    for (a, b) in row.iter().zip(want) {
                         gworst = gworst.max(rel(*a, *b));
                     }
+                    assert_eq!(row[gper - 1] as u32, *status, "{name}/{cc}: update status");
                 }
             }
             println!(
