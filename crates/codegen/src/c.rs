@@ -36,6 +36,12 @@ impl Emit {
         }
     }
 
+    /// A range's ends as literals, rounded inward for this float type.
+    fn ends(&self, range: (f64, f64)) -> (String, String) {
+        let (lo, hi) = self.float.inward(range);
+        (self.lit(lo), self.lit(hi))
+    }
+
     /// A literal safe after a binary operator: negative ones in parentheses.
     fn operand(&self, x: f64) -> String {
         let s = self.lit(x);
@@ -299,7 +305,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         .enumerate()
     {
         let xi = format!("x{}", ns + j);
-        let (lo, hi) = (e.lit(r.range.0), e.lit(r.range.1));
+        let (lo, hi) = e.ends(r.range);
         let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
         let _ = writeln!(s, "    if (!({xi} >= {lo} && {xi} <= {hi})) {{\n        status |= isfinite({xi}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n        {xi} = isnan({xi}) ? {mid} : {p}_clamp({xi}, {lo}, {hi});\n    }}");
     }
@@ -308,7 +314,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             Some(r) => format!("x{}", ns + r),
             None => e.operand(st.equilibrium),
         };
-        let (lo, hi) = (e.lit(st.error.0), e.lit(st.error.1));
+        let (lo, hi) = e.ends(st.error);
         let zero = e.lit(crate::ir::clamp(0.0, st.error.0, st.error.1));
         if st.reference.is_some() {
             let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - r{i};\n        if (!(e{i} >= {lo} && e{i} <= {hi})) {{\n            status |= isfinite(e{i}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }} else if ({base} != r{i}) {{\n            x{i} = {base} + e{i};\n        }}\n    }}");
@@ -334,7 +340,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     let _ = writeln!(s, "    /* saturation */");
     for (i, (a, o)) in c.actuators.iter().zip(&louts).enumerate() {
         let n = a.name.to_uppercase();
-        let (lo, hi) = (e.lit(a.limits.0), e.lit(a.limits.1));
+        let (lo, hi) = e.ends(a.limits);
         let _ = writeln!(s, "    {{\n        {ty} c{i} = {o};\n        if (!isfinite(c{i})) {{\n            status |= {up}_STATUS_NONFINITE_COMMAND;\n            c{i} = {};\n        }}\n        if (c{i} < {lo}) {{\n            c{i} = {lo};\n            limits |= {up}_LIMIT_{n}_LOW;\n        }} else if (c{i} > {hi}) {{\n            c{i} = {hi};\n            limits |= {up}_LIMIT_{n}_HIGH;\n        }}\n        out->{} = c{i};\n    }}", e.lit(a.safe), a.name);
     }
     let _ = writeln!(
@@ -348,7 +354,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         );
         for f in &c.filters {
             let r = &c.references[f.reference];
-            let (lo, hi) = (e.lit(r.range.0), e.lit(r.range.1));
+            let (lo, hi) = e.ends(r.range);
             let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
             let _ = writeln!(s, "    state->{rn} = isnan(start->{cn}) ? {mid} : {p}_clamp(start->{cn}, {lo}, {hi});\n    state->{q} = {zero};", rn = r.name, cn = f.command, q = f.rate, zero = e.lit(0.0));
         }
@@ -358,7 +364,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             let rn = &c.references[f.reference].name;
             let kn = &c.gains[f.gain].name;
             let range = c.references[f.reference].range;
-            let (lo, hi) = (e.lit(range.0), e.lit(range.1));
+            let (lo, hi) = e.ends(range);
             let mid = e.lit(0.5 * range.0 + 0.5 * range.1);
             let _ = writeln!(s, "    {{\n        {ty} r = state->{rn};\n        if (!isfinite(r)) {{\n            status |= {up}_STATUS_GUIDANCE_REPAIRED;\n            r = isnan(commands->{cn}) ? {mid} : {p}_clamp(commands->{cn}, {lo}, {hi});\n        }}\n        const {ty} c = isnan(commands->{cn}) ? r : commands->{cn};\n        const {ty} k = g.{kn};", cn = f.command);
             let outs = e.program(

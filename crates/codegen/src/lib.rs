@@ -46,6 +46,29 @@ pub enum Float {
     F64,
 }
 
+impl Float {
+    /// The ends of a declared range as this type's code compares against them: rounded
+    /// inward, so every value the code accepts lies in the range (the f32 nearest to 0.2 is
+    /// 2.98e-9 above it, and would accept points outside the proved box). An f64 range end
+    /// is already the nearest double to the decimal written, inside the proof's box, whose
+    /// ends are rounded outward.
+    pub fn inward(self, (lo, hi): (f64, f64)) -> (f64, f64) {
+        match self {
+            Float::F64 => (lo, hi),
+            Float::F32 => {
+                let (mut l, mut h) = (lo as f32, hi as f32);
+                if f64::from(l) < lo {
+                    l = l.next_up();
+                }
+                if f64::from(h) > hi {
+                    h = h.next_down();
+                }
+                (f64::from(l), f64::from(h))
+            }
+        }
+    }
+}
+
 /// The name of a function in C's `<math.h>` and in the `libm` crate, which share their
 /// names, for this float type (`sin`, `sinf`). One table for both emitters.
 pub(crate) fn math_name(f: lawsmith_expr::Func, float: Float) -> String {

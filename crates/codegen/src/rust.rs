@@ -26,6 +26,12 @@ impl Emit {
         }
     }
 
+    /// A range's ends as literals, rounded inward for this float type.
+    fn ends(&self, range: (f64, f64)) -> (TokenStream, TokenStream) {
+        let (lo, hi) = self.float.inward(range);
+        (self.lit(lo), self.lit(hi))
+    }
+
     fn lit(&self, x: f64) -> TokenStream {
         let text = match self.float {
             Float::F32 => {
@@ -226,7 +232,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
     let ranged = c.references.iter().chain(&c.rates).chain(&c.signals);
     for (j, r) in ranged.enumerate() {
         let xi = x(ns + j);
-        let (lo, hi) = (e.lit(r.range.0), e.lit(r.range.1));
+        let (lo, hi) = e.ends(r.range);
         let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
         guards.extend(quote! {
             if !(#xi >= #lo && #xi <= #hi) {
@@ -245,7 +251,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             }
             None => e.lit(s.equilibrium),
         };
-        let (lo, hi) = (e.lit(s.error.0), e.lit(s.error.1));
+        let (lo, hi) = e.ends(s.error);
         let zero = e.lit(crate::ir::clamp(0.0, s.error.0, s.error.1));
         let guard = quote! {
             if !(#err >= #lo && #err <= #hi) {
@@ -314,7 +320,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
     let mut cmd_names = Vec::new();
     for (i, (a, out)) in c.actuators.iter().zip(&louts).enumerate() {
         let ci = format_ident!("c{}", i);
-        let (lo, hi, safe) = (e.lit(a.limits.0), e.lit(a.limits.1), e.lit(a.safe));
+        let ((lo, hi), safe) = (e.ends(a.limits), e.lit(a.safe));
         let (fl, fh) = (
             format_ident!("LIMIT_{}_LOW", a.name.to_uppercase()),
             format_ident!("LIMIT_{}_HIGH", a.name.to_uppercase()),
@@ -382,7 +388,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             });
             let (o_r, o_q) = (&outs[0], &outs[1]);
             let range = c.references[f.reference].range;
-            let (lo, hi) = (e.lit(range.0), e.lit(range.1));
+            let (lo, hi) = e.ends(range);
             let mid = e.lit(0.5 * range.0 + 0.5 * range.1);
             blocks.extend(quote! {
                 {
@@ -405,7 +411,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             .map(|f| {
                 let r = &c.references[f.reference];
                 let (rf, qf, cf) = (field(&r.name), field(&f.rate), field(&f.command));
-                let (lo, hi) = (e.lit(r.range.0), e.lit(r.range.1));
+                let (lo, hi) = e.ends(r.range);
                 let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
                 let zero = e.lit(0.0);
                 quote! {

@@ -641,3 +641,77 @@ fn fast_math_builds_stop_at_the_guard() {
     }
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+#[test]
+fn f32_code_accepts_no_point_outside_the_declared_ranges() {
+    // IEEE 754 binary32 (common practice): the float nearest to a decimal end may lie beyond
+    // it (0.2f is 2.98e-9 above 0.2), so the range checks must use ends rounded inward. At
+    // each end of every ranged input, the float nearest to the end and its two neighbours
+    // must raise the domain flag exactly when they lie outside the declared range.
+    let dir = std::env::temp_dir().join(format!("lawsmith-f32ends-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let name = "energy_longitudinal";
+    let c = Controller::new(&load(name)).unwrap();
+    let prov = Provenance {
+        spec_file: format!("specs/{name}.yaml"),
+        spec_sha256: "0".repeat(64),
+        tool_version: "test".into(),
+        claim: "negative_definite".into(),
+        verdict: "proven".into(),
+        figures: Vec::new(),
+    };
+    for (n, t) in lawsmith_codegen::generate(&c, &prov, Lang::C, Float::F32).unwrap() {
+        std::fs::write(dir.join(n), t).unwrap();
+    }
+    let exe = build_c(&compilers()[0], &dir, &dir, &c, &[]);
+    let ns = c.states.len();
+    let ranged: Vec<(f64, f64)> = c
+        .references
+        .iter()
+        .chain(&c.rates)
+        .chain(&c.signals)
+        .map(|r| r.range)
+        .collect();
+    // the middle of every range, zero error
+    let mut centre = vec![0.0; ns];
+    centre.extend(ranged.iter().map(|&(lo, hi)| 0.5 * lo + 0.5 * hi));
+    for (i, s) in c.states.iter().enumerate() {
+        centre[i] = s.reference.map_or(s.equilibrium, |r| centre[ns + r]);
+    }
+    let gains: Vec<f64> = c.gains.iter().map(|g| g.default).collect();
+    let mut cases = Vec::new();
+    for (j, &(lo, hi)) in ranged.iter().enumerate() {
+        for end in [lo, hi] {
+            let near = end as f32;
+            for v in [near.next_down(), near, near.next_up()] {
+                let mut x = centre.clone();
+                x[ns + j] = f64::from(v);
+                // a reference moves its state along, so only the reference is off-centre
+                for (i, s) in c.states.iter().enumerate() {
+                    if s.reference == Some(j) {
+                        x[i] = f64::from(v);
+                    }
+                }
+                let outside = f64::from(v) < lo || f64::from(v) > hi;
+                cases.push((x, outside));
+            }
+        }
+    }
+    let mut input = vec![cases.len() as f64];
+    for (x, _) in &cases {
+        input.extend(x);
+        input.extend(&gains);
+    }
+    input.push(0.0);
+    let out = run_c(&exe, &input);
+    let per = c.actuators.len() + 3;
+    let mut outside = 0;
+    for (k, (x, want)) in cases.iter().enumerate() {
+        let domain = out[k * per + per - 2] != 0.0;
+        assert_eq!(domain, *want, "f32 C at {x:?}");
+        outside += usize::from(*want);
+    }
+    // some nearest floats do lie outside (0.2, -0.05 for alpha at least)
+    assert!(outside > cases.len() / 3, "{outside} of {}", cases.len());
+    std::fs::remove_dir_all(&dir).unwrap();
+}
