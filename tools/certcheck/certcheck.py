@@ -241,10 +241,11 @@ class Goal:
         return (lo, hi) if lo <= hi else out
 
     def closable(self):
-        """f and its gradient in the errors vanish at zero error, and f is smooth."""
+        """f and its gradient in the errors vanish at zero error (one-double boxes at their value); f smooth."""
         if self._closable is None:
-            e, xs = self.expr, [sym(self.dims[k]) for k in self.errors]
-            zero = {x: 0 for x in xs}
+            e, xs, bx = self.expr, [sym(self.dims[k]) for k in self.errors], self.check.box
+            zero = {x: 0 for x in xs} | {sym(n): sp.Rational(bx[n][0]) for n in self.dims
+                                         if bx[n][0] == bx[n][1] and sym(n) not in xs}
             self._closable = bool(xs) and not e.has(sp.Abs, sp.Min, sp.Max, sp.atan2) and all(
                 same(f.xreplace(zero), 0) for f in [e] + [sp.diff(e, x) for x in xs])
             if self._closable:

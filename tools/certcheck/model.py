@@ -61,8 +61,7 @@ def pair(v, what):
 FUNCS = {
     "sin": sp.sin, "cos": sp.cos, "tan": sp.tan, "asin": sp.asin, "acos": sp.acos,
     "atan": sp.atan, "atan2": sp.atan2, "sqrt": sp.sqrt, "exp": sp.exp, "ln": sp.log,
-    "abs": sp.Abs, "min": sp.Min, "max": sp.Max,
-    "clamp": lambda x, lo, hi: sp.Min(sp.Max(x, lo), hi),
+    "abs": sp.Abs, "min": sp.Min, "max": sp.Max, "clamp": lambda x, lo, hi: sp.Min(sp.Max(x, lo), hi),
 }
 
 

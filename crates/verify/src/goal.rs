@@ -258,8 +258,18 @@ impl Compiled {
         let dag = &mut problem.dag;
         if goal.origin && zero_in_domain && smooth(dag, f) && !errors.is_empty() {
             let zero = dag.int(0);
-            let at_zero: HashMap<String, ExprId> =
+            let mut at_zero: HashMap<String, ExprId> =
                 errors.iter().map(|&k| (names[k].clone(), zero)).collect();
+            // a coordinate whose whole range is one double (a set-point's zero rate) takes
+            // that value in every box: f and its gradient need vanish only there
+            for (k, &d) in dims.iter().enumerate() {
+                let v = &problem.variables[d];
+                if !errors.contains(&k) && v.lo == v.hi {
+                    if let Some(r) = lawsmith_expr::BigRational::from_float(v.lo) {
+                        at_zero.insert(names[k].clone(), dag.num(r));
+                    }
+                }
+            }
             let vanishes = |dag: &mut Dag, e: ExprId| {
                 let s = dag.substitute(e, &at_zero);
                 let s = simplify_plain(dag, s);
