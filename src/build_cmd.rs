@@ -272,7 +272,7 @@ pub fn build_cmd(
         "spec",
         "claim",
         "verdict",
-        "worst margin",
+        "worst sampled margin",
         "ops/step",
         "generated",
     ];

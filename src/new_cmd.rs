@@ -65,7 +65,8 @@ lyapunov:
 laws:
   thrust: drag + mass * (vdot_r - k_v * ev)
 
-# What the firmware sends, saturated to its limits.
+# What the firmware sends, saturated to its limits (an optional `safe:` value inside them is
+# sent if the law's value is ever not finite; zero clamped into the limits otherwise).
 actuators:
   thrust_cmd: { law: thrust, unit: N, limits: [0, 20] }
 

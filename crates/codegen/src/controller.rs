@@ -270,7 +270,9 @@ impl Controller {
                 name: a.name.clone(),
                 unit: a.unit.clone(),
                 limits: a.limits.nearest(),
-                safe: clamp(0.0, a.limits.lo.value(), a.limits.hi.value()),
+                safe: a
+                    .safe
+                    .unwrap_or_else(|| clamp(0.0, a.limits.lo.value(), a.limits.hi.value())),
             })
             .collect();
         if actuators.len() > MAX_ACTUATORS {

@@ -97,3 +97,22 @@ fn a_change_inside_one_law_changes_only_that_law_s_lines() {
     // the edit is visible: the doubled term is one more multiplication in each of Rust and C
     assert!(changed >= 4, "{changed} lines changed");
 }
+
+#[test]
+fn a_declared_safe_command_is_what_a_non_finite_command_becomes() {
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("../../tests/data/check/saturation_free.yaml");
+    let text = std::fs::read_to_string(path).unwrap();
+    let with_safe = text.replace("limits: [-6.5, 6.5] }", "limits: [-6.5, 6.5], safe: 1.25 }");
+    assert_ne!(with_safe, text);
+    for (yaml, safe) in [(&text, "0.0"), (&with_safe, "1.25")] {
+        let c = Controller::new(&lawsmith_spec::load(yaml).unwrap()).unwrap();
+        assert_eq!(c.actuators[0].safe, safe.parse::<f64>().unwrap());
+        let files = generated_from(yaml);
+        let src = &files.iter().find(|(n, _)| n.ends_with(".c")).unwrap().1;
+        let want = format!("c0 = {safe};");
+        assert!(src.contains(&want), "no `{want}` in\n{src}");
+        let rs = &files.iter().find(|(n, _)| n.ends_with(".rs")).unwrap().1;
+        assert!(rs.contains(&format!("c0 = {safe};")), "{rs}");
+    }
+}

@@ -289,6 +289,9 @@ pub struct Actuator {
     /// Position limits, exact as declared (in the actuator's unit; `deg` limits converted to
     /// rad with π to 50 decimals).
     pub limits: Range,
+    /// The command the generated code sends when the law's value is not finite (declared
+    /// `safe`, in the same unit as the limits; zero clamped into the limits when absent).
+    pub safe: Option<f64>,
 }
 
 /// A first-order guidance filter for one reference.

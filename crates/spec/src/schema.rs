@@ -287,6 +287,11 @@ pub struct RawActuator {
     pub unit: SpannedStr,
     #[schemars(with = "[f64; 2]")]
     pub limits: RawRange,
+    /// The command sent when the law's value is not finite (in the actuator's unit, inside
+    /// its limits); zero clamped into the limits when absent.
+    #[serde(default)]
+    #[schemars(with = "Option<f64>")]
+    pub safe: Option<Spanned<f64>>,
 }
 
 #[derive(Debug, Deserialize, JsonSchema)]

@@ -3,7 +3,7 @@
 
 use super::dims::second;
 use super::resolve::Ctx;
-use super::{unknown, Loader, ParsedConstraint};
+use super::{range_of, unknown, Loader, ParsedConstraint};
 use crate::diag::Diagnostic;
 use crate::model::*;
 use crate::schema::*;
@@ -15,7 +15,15 @@ use std::collections::HashMap;
 pub(super) type Named = (String, (Ast, usize), String);
 
 /// An actuator's formula: name, tree, offset, text, unit, limits.
-pub(super) type ActuatorAst = (String, Ast, usize, String, String, Option<Range>);
+pub(super) type ActuatorAst = (
+    String,
+    Ast,
+    usize,
+    String,
+    String,
+    Option<Range>,
+    Option<f64>,
+);
 
 impl Loader<'_> {
     pub(super) fn structure(&mut self, raw: &RawSpec) -> (Vec<Named>, Vec<Named>) {
@@ -140,6 +148,31 @@ impl Loader<'_> {
             } else {
                 a.unit.value.clone()
             };
+            let safe = a.safe.as_ref().and_then(|v| {
+                let value = if degrees {
+                    degrees_to_radians(self.literal(v)?.exact())
+                } else {
+                    v.value
+                };
+                let inside = limits
+                    .as_ref()
+                    .is_none_or(|l| (l.lo.value()..=l.hi.value()).contains(&value));
+                if !inside || !value.is_finite() {
+                    self.err(
+                        Diagnostic::new(
+                            "safe-out-of-limits",
+                            format!(
+                                "the safe command {} of actuator `{}` is outside its limits",
+                                v.value, n.value
+                            ),
+                            range_of(self.src, v),
+                        )
+                        .label("outside the limits"),
+                    );
+                    return None;
+                }
+                Some(value)
+            });
             if let Some((ast, base)) = self.parse_formula(&a.law) {
                 self.expect_dim(
                     &ast,
@@ -155,6 +188,7 @@ impl Loader<'_> {
                     a.law.value.clone(),
                     unit,
                     limits,
+                    safe,
                 ));
             }
         }
@@ -234,7 +268,7 @@ impl Loader<'_> {
     ) -> (Vec<Actuator>, Vec<Constraint>) {
         let dyn_map: HashMap<String, ExprId> = dynamics.iter().cloned().collect();
         let mut actuators = Vec::new();
-        for (name, ast, base, text, unit, limits) in act_asts {
+        for (name, ast, base, text, unit, limits, safe) in act_asts {
             let ctx = Ctx {
                 base: *base,
                 text: text.clone(),
@@ -249,6 +283,7 @@ impl Loader<'_> {
                     law: id,
                     unit: unit.clone(),
                     limits: l.clone(),
+                    safe: *safe,
                 });
             }
         }

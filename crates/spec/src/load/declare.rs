@@ -394,7 +394,7 @@ impl Loader<'_> {
 
     /// The exact decimal a (finite) number was written as: its text in the file, read
     /// exactly. An integer in another notation (`0x10`) is its f64, exact below 2^53.
-    fn literal(&mut self, n: &Spanned<f64>) -> Option<Decimal> {
+    pub(super) fn literal(&mut self, n: &Spanned<f64>) -> Option<Decimal> {
         let span = range_of(self.src, n);
         let text = self.src.get(span.clone()).unwrap_or("");
         match Decimal::parse(text) {
