@@ -111,6 +111,19 @@ pub fn generate(
     lang: Lang,
     float: Float,
 ) -> Result<Vec<(String, String)>, EmitError> {
+    // a range narrower than the type's spacing holds none of its numbers: no input could
+    // ever be accepted, so there is no code to write
+    let ranges = c.references.iter().chain(&c.rates).chain(&c.signals);
+    let errors = c.states.iter().map(|s| (&s.name, s.error));
+    for (name, range) in ranges.map(|r| (&r.name, r.range)).chain(errors) {
+        let (lo, hi) = float.inward(range);
+        if lo > hi {
+            return Err(EmitError(format!(
+                "the range [{}, {}] of `{name}` holds no single-precision number; widen it or emit f64",
+                range.0, range.1
+            )));
+        }
+    }
     let mut out = Vec::new();
     if matches!(lang, Lang::Rust | Lang::All) {
         let text = rust::emit(c, prov, float).map_err(EmitError)?;

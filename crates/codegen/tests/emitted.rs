@@ -40,18 +40,23 @@ fn two_emits_give_the_same_bytes() {
     assert_eq!(a, b);
 }
 
-/// The generated files of a spec's text, under a fixed header.
-fn generated_from(text: &str) -> Vec<(String, String)> {
-    let spec = lawsmith_spec::load(text).unwrap();
-    let c = Controller::new(&spec).unwrap();
-    let prov = Provenance {
+/// A fixed header for generated code under test.
+fn test_provenance() -> Provenance {
+    Provenance {
         spec_file: "spec.yaml".into(),
         spec_sha256: "0".repeat(64),
         tool_version: "test".into(),
         claim: "negative_definite".into(),
         verdict: "proven".into(),
         figures: Vec::new(),
-    };
+    }
+}
+
+/// The generated files of a spec's text, under a fixed header.
+fn generated_from(text: &str) -> Vec<(String, String)> {
+    let spec = lawsmith_spec::load(text).unwrap();
+    let c = Controller::new(&spec).unwrap();
+    let prov = test_provenance();
     generate(&c, &prov, Lang::All, Float::F64).unwrap()
 }
 
@@ -115,4 +120,23 @@ fn a_declared_safe_command_is_what_a_non_finite_command_becomes() {
         let rs = &files.iter().find(|(n, _)| n.ends_with(".rs")).unwrap().1;
         assert!(rs.contains(&format!("c0 = {safe};")), "{rs}");
     }
+}
+
+#[test]
+fn a_range_holding_no_float_is_refused_in_single_precision() {
+    // 0.2 lies strictly between two binary32 numbers (IEEE 754, common practice), so a
+    // signal range [0.2, 0.2] holds none: f32 code could accept no input at all
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("../../specs/energy_longitudinal.yaml");
+    let text = std::fs::read_to_string(path)
+        .unwrap()
+        .replace("range: [-0.05, 0.2] }", "range: [0.2, 0.2] }");
+    let c = Controller::new(&lawsmith_spec::load(&text).unwrap()).unwrap();
+    let prov = test_provenance();
+    assert!(generate(&c, &prov, Lang::All, Float::F64).is_ok());
+    let e = generate(&c, &prov, Lang::All, Float::F32).unwrap_err();
+    assert!(
+        e.0.contains("`alpha` holds no single-precision number"),
+        "{e}"
+    );
 }

@@ -106,7 +106,7 @@ enum Step {
     Leaf(Evidence),
     Counter(Counter),
     Split(usize, f64),
-    Stuck(usize),
+    Stuck(usize, f64),
 }
 
 /// Boxes evaluated in one parallel batch. Large enough to amortise the fork/join, small
@@ -219,13 +219,13 @@ pub fn search(
                         finished = Some(Outcome::Refuted(c));
                     }
                 }
-                Step::Stuck(dim) => {
+                Step::Stuck(dim, bound) => {
                     if finished.is_none() {
                         finished = Some(Outcome::Inconclusive(format!(
                             "a box became too narrow to split along `{}` without being decided",
                             goal.names.get(dim).map_or("-", String::as_str)
                         )));
-                        report.worst = vec![(nodes[id as usize].bx.clone(), f64::NAN)];
+                        report.worst = vec![(nodes[id as usize].bx.clone(), bound)];
                     }
                 }
                 Step::Split(dim, bound) => {
@@ -439,8 +439,13 @@ fn step(goal: &Compiled, bx: &[Interval], scale: &[f64], s: &mut Scratch) -> Ste
             }
         }
     }
+    let rank = match test {
+        Test::Negative { .. } => f.hi(),
+        Test::Within { lo, hi } => (lo - f.lo()).max(f.hi() - hi),
+        Test::NonZero => f.lo().abs().min(f.hi().abs()),
+    };
     if bx.is_empty() {
-        return Step::Stuck(0);
+        return Step::Stuck(0, rank);
     }
     let dim = choose(
         bx,
@@ -452,13 +457,8 @@ fn step(goal: &Compiled, bx: &[Interval], scale: &[f64], s: &mut Scratch) -> Ste
     );
     let m = bx[dim].mid();
     if !(m > bx[dim].lo() && m < bx[dim].hi()) {
-        return Step::Stuck(dim);
+        return Step::Stuck(dim, rank);
     }
-    let rank = match test {
-        Test::Negative { .. } => f.hi(),
-        Test::Within { lo, hi } => (lo - f.lo()).max(f.hi() - hi),
-        Test::NonZero => f.lo().abs().min(f.hi().abs()),
-    };
     Step::Split(dim, rank)
 }
 

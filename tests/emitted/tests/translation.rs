@@ -469,6 +469,19 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
     std::fs::remove_dir_all(&dir).unwrap();
 }
 
+/// The f32 code of spec `name` under a test header.
+fn f32_files(c: &Controller, name: &str, lang: Lang) -> Vec<(String, String)> {
+    let prov = Provenance {
+        spec_file: format!("specs/{name}.yaml"),
+        spec_sha256: "0".repeat(64),
+        tool_version: "test".into(),
+        claim: "negative_definite".into(),
+        verdict: "proven".into(),
+        figures: Vec::new(),
+    };
+    lawsmith_codegen::generate(c, &prov, lang, Float::F32).unwrap()
+}
+
 #[test]
 fn f32_code_compiles_clean_and_stays_close() {
     let dir = std::env::temp_dir().join(format!("lawsmith-f32-{}", std::process::id()));
@@ -476,15 +489,7 @@ fn f32_code_compiles_clean_and_stays_close() {
     let mut rng = Rng(7);
     for &name in lawsmith_emitted::SPECS {
         let c = Controller::new(&load(name)).unwrap();
-        let prov = Provenance {
-            spec_file: format!("specs/{name}.yaml"),
-            spec_sha256: "0".repeat(64),
-            tool_version: "test".into(),
-            claim: "negative_definite".into(),
-            verdict: "proven".into(),
-            figures: Vec::new(),
-        };
-        let files = lawsmith_codegen::generate(&c, &prov, Lang::All, Float::F32).unwrap();
+        let files = f32_files(&c, name, Lang::All);
         for (n, t) in &files {
             std::fs::write(dir.join(n), t).unwrap();
         }
@@ -652,15 +657,7 @@ fn f32_code_accepts_no_point_outside_the_declared_ranges() {
     std::fs::create_dir_all(&dir).unwrap();
     let name = "energy_longitudinal";
     let c = Controller::new(&load(name)).unwrap();
-    let prov = Provenance {
-        spec_file: format!("specs/{name}.yaml"),
-        spec_sha256: "0".repeat(64),
-        tool_version: "test".into(),
-        claim: "negative_definite".into(),
-        verdict: "proven".into(),
-        figures: Vec::new(),
-    };
-    for (n, t) in lawsmith_codegen::generate(&c, &prov, Lang::C, Float::F32).unwrap() {
+    for (n, t) in f32_files(&c, name, Lang::C) {
         std::fs::write(dir.join(n), t).unwrap();
     }
     let exe = build_c(&compilers()[0], &dir, &dir, &c, &[]);
