@@ -25,7 +25,7 @@
 
 static inline double energy_longitudinal_uncertain_clamp(double x, double lo, double hi)
 {
-    return x < lo ? lo : (x > hi ? hi : x);
+    return (x < lo) ? lo : ((x > hi) ? hi : x);
 }
 
 energy_longitudinal_uncertain_gains energy_longitudinal_uncertain_default_gains(void)
@@ -40,10 +40,10 @@ energy_longitudinal_uncertain_gains energy_longitudinal_uncertain_default_gains(
 
 static inline bool energy_longitudinal_uncertain_gains_ok(const energy_longitudinal_uncertain_gains *g)
 {
-    return g->k_tot >= 0.4 && g->k_tot <= 0.8
-        && g->k_bal >= 0.4 && g->k_bal <= 0.8
-        && g->k_h >= 0.1 && g->k_h <= 1.0
-        && g->k_v >= 0.1 && g->k_v <= 1.0;
+    return (g->k_tot >= 0.4) && (g->k_tot <= 0.8)
+        && (g->k_bal >= 0.4) && (g->k_bal <= 0.8)
+        && (g->k_h >= 0.1) && (g->k_h <= 1.0)
+        && (g->k_v >= 0.1) && (g->k_v <= 1.0);
 }
 
 bool energy_longitudinal_uncertain_gains_valid(const energy_longitudinal_uncertain_gains *g)
@@ -66,46 +66,50 @@ void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inpu
     double x7 = in->alpha;
     const double r0 = x2;
     const double r1 = x3;
-    if (!(x2 >= 30.0 && x2 <= 600.0)) {
+    if (!((x2 >= 30.0) && (x2 <= 600.0))) {
         status |= isfinite(x2) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x2 = isnan(x2) ? 315.0 : energy_longitudinal_uncertain_clamp(x2, 30.0, 600.0);
     }
-    if (!(x3 >= 15.0 && x3 <= 30.0)) {
+    if (!((x3 >= 15.0) && (x3 <= 30.0))) {
         status |= isfinite(x3) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x3 = isnan(x3) ? 22.5 : energy_longitudinal_uncertain_clamp(x3, 15.0, 30.0);
     }
-    if (!(x4 >= -3.0 && x4 <= 3.0)) {
+    if (!((x4 >= -3.0) && (x4 <= 3.0))) {
         status |= isfinite(x4) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x4 = isnan(x4) ? 0.0 : energy_longitudinal_uncertain_clamp(x4, -3.0, 3.0);
     }
-    if (!(x5 >= -1.0 && x5 <= 1.0)) {
+    if (!((x5 >= -1.0) && (x5 <= 1.0))) {
         status |= isfinite(x5) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x5 = isnan(x5) ? 0.0 : energy_longitudinal_uncertain_clamp(x5, -1.0, 1.0);
     }
-    if (!(x6 >= 4.0 && x6 <= 16.0)) {
+    if (!((x6 >= 4.0) && (x6 <= 16.0))) {
         status |= isfinite(x6) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x6 = isnan(x6) ? 10.0 : energy_longitudinal_uncertain_clamp(x6, 4.0, 16.0);
     }
-    if (!(x7 >= -0.05 && x7 <= 0.2)) {
+    if (!((x7 >= -0.05) && (x7 <= 0.2))) {
         status |= isfinite(x7) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
         x7 = isnan(x7) ? 0.07500000000000001 : energy_longitudinal_uncertain_clamp(x7, -0.05, 0.2);
     }
     {
         const double e0 = x0 - r0;
-        if (!(e0 >= -8.0 && e0 <= 8.0)) {
+        if (!((e0 >= -8.0) && (e0 <= 8.0))) {
             status |= isfinite(e0) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
             x0 = x2 + (isnan(e0) ? 0.0 : energy_longitudinal_uncertain_clamp(e0, -8.0, 8.0));
         } else if (x2 != r0) {
             x0 = x2 + e0;
+        } else {
+            /* inside the envelope: the state as measured */
         }
     }
     {
         const double e1 = x1 - r1;
-        if (!(e1 >= -4.0 && e1 <= 4.0)) {
+        if (!((e1 >= -4.0) && (e1 <= 4.0))) {
             status |= isfinite(e1) ? ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_OUTSIDE_ENVELOPE : ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_NONFINITE_INPUT;
             x1 = x3 + (isnan(e1) ? 0.0 : energy_longitudinal_uncertain_clamp(e1, -4.0, 4.0));
         } else if (x3 != r1) {
             x1 = x3 + e1;
+        } else {
+            /* inside the envelope: the state as measured */
         }
     }
     if (energy_longitudinal_uncertain_gains_ok(gains)) {
@@ -157,6 +161,8 @@ void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inpu
         } else if (c0 > 0.45) {
             c0 = 0.45;
             limits |= ENERGY_LONGITUDINAL_UNCERTAIN_LIMIT_PITCH_CMD_HIGH;
+        } else {
+            /* within its limits */
         }
         out->pitch_cmd = c0;
     }
@@ -172,6 +178,8 @@ void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inpu
         } else if (c1 > 45.0) {
             c1 = 45.0;
             limits |= ENERGY_LONGITUDINAL_UNCERTAIN_LIMIT_THRUST_CMD_HIGH;
+        } else {
+            /* within its limits */
         }
         out->thrust_cmd = c1;
     }
@@ -190,110 +198,109 @@ void energy_longitudinal_uncertain_guidance_init(energy_longitudinal_uncertain_g
 
 uint32_t energy_longitudinal_uncertain_update(energy_longitudinal_uncertain_guidance *state, const energy_longitudinal_uncertain_commands *commands, const energy_longitudinal_uncertain_gains *gains, double dt)
 {
-    energy_longitudinal_uncertain_gains g;
     uint32_t status = 0u;
-    if (!(dt > 0.0)) {
-        return status;
-    }
-    if (energy_longitudinal_uncertain_gains_ok(gains)) {
-        g = *gains;
-    } else {
-        status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_GAINS_REJECTED;
-        g = energy_longitudinal_uncertain_default_gains();
-    }
-    {
-        double r = state->h_r;
-        if (!isfinite(r)) {
-            status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_GUIDANCE_REPAIRED;
-            r = isnan(commands->h_cmd) ? 315.0 : energy_longitudinal_uncertain_clamp(commands->h_cmd, 30.0, 600.0);
+    if (dt > 0.0) {
+        energy_longitudinal_uncertain_gains g;
+        if (energy_longitudinal_uncertain_gains_ok(gains)) {
+            g = *gains;
+        } else {
+            status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_GAINS_REJECTED;
+            g = energy_longitudinal_uncertain_default_gains();
         }
-        const double c = isnan(commands->h_cmd) ? r : commands->h_cmd;
-        const double k = g.k_h;
-        const double r_0 = c - r;
-        const double r_1 = 0.0;
-        const double r_2 = 3.0;
-        const double r_3 = r_2 / k;
-        const double r_4 = r_0 - r_3;
-        const double r_5 = r_4 / r_2;
-        const double r_6 = fmax(r_5, r_1);
-        const double r_7 = dt * r_2;
-        const double r_8 = r_0 - r_7;
-        const double r_9 = fmin(r_0, r_3);
-        const double r_10 = dt - r_6;
-        const double r_11 = k * r_10;
-        const double r_12 = -r_11;
-        const double r_13 = exp(r_12);
-        const double r_14 = r_9 * r_13;
-        const double r_15 = r_6 - dt;
-        const double r_16 = (r_15 >= 0.0) ? r_8 : r_14;
-        const double r_17 = -3.0;
-        const double r_18 = r_17 / k;
-        const double r_19 = r_0 - r_18;
-        const double r_20 = r_19 / r_17;
-        const double r_21 = fmax(r_20, r_1);
-        const double r_22 = dt * r_17;
-        const double r_23 = r_0 - r_22;
-        const double r_24 = fmax(r_0, r_18);
-        const double r_25 = dt - r_21;
-        const double r_26 = k * r_25;
-        const double r_27 = -r_26;
-        const double r_28 = exp(r_27);
-        const double r_29 = r_24 * r_28;
-        const double r_30 = r_21 - dt;
-        const double r_31 = (r_30 >= 0.0) ? r_23 : r_29;
-        const double r_32 = (r_0 >= 0.0) ? r_16 : r_31;
-        const double r_33 = c - r_32;
-        const double r_34 = k * r_32;
-        const double r_35 = energy_longitudinal_uncertain_clamp(r_34, -3.0, 3.0);
-        state->h_r = r_33;
-        state->hdot_r = r_35;
-    }
-    {
-        double r = state->va_r;
-        if (!isfinite(r)) {
-            status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_GUIDANCE_REPAIRED;
-            r = isnan(commands->va_cmd) ? 22.5 : energy_longitudinal_uncertain_clamp(commands->va_cmd, 15.0, 30.0);
+        {
+            double r = state->h_r;
+            if (!isfinite(r)) {
+                status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_GUIDANCE_REPAIRED;
+                r = isnan(commands->h_cmd) ? 315.0 : energy_longitudinal_uncertain_clamp(commands->h_cmd, 30.0, 600.0);
+            }
+            const double c = isnan(commands->h_cmd) ? r : commands->h_cmd;
+            const double k = g.k_h;
+            const double r_0 = c - r;
+            const double r_1 = 0.0;
+            const double r_2 = 3.0;
+            const double r_3 = r_2 / k;
+            const double r_4 = r_0 - r_3;
+            const double r_5 = r_4 / r_2;
+            const double r_6 = fmax(r_5, r_1);
+            const double r_7 = dt * r_2;
+            const double r_8 = r_0 - r_7;
+            const double r_9 = fmin(r_0, r_3);
+            const double r_10 = dt - r_6;
+            const double r_11 = k * r_10;
+            const double r_12 = -r_11;
+            const double r_13 = exp(r_12);
+            const double r_14 = r_9 * r_13;
+            const double r_15 = r_6 - dt;
+            const double r_16 = (r_15 >= 0.0) ? r_8 : r_14;
+            const double r_17 = -3.0;
+            const double r_18 = r_17 / k;
+            const double r_19 = r_0 - r_18;
+            const double r_20 = r_19 / r_17;
+            const double r_21 = fmax(r_20, r_1);
+            const double r_22 = dt * r_17;
+            const double r_23 = r_0 - r_22;
+            const double r_24 = fmax(r_0, r_18);
+            const double r_25 = dt - r_21;
+            const double r_26 = k * r_25;
+            const double r_27 = -r_26;
+            const double r_28 = exp(r_27);
+            const double r_29 = r_24 * r_28;
+            const double r_30 = r_21 - dt;
+            const double r_31 = (r_30 >= 0.0) ? r_23 : r_29;
+            const double r_32 = (r_0 >= 0.0) ? r_16 : r_31;
+            const double r_33 = c - r_32;
+            const double r_34 = k * r_32;
+            const double r_35 = energy_longitudinal_uncertain_clamp(r_34, -3.0, 3.0);
+            state->h_r = r_33;
+            state->hdot_r = r_35;
         }
-        const double c = isnan(commands->va_cmd) ? r : commands->va_cmd;
-        const double k = g.k_v;
-        const double r_0 = c - r;
-        const double r_1 = 0.0;
-        const double r_2 = 1.0;
-        const double r_3 = r_2 / k;
-        const double r_4 = r_0 - r_3;
-        const double r_5 = r_4 / r_2;
-        const double r_6 = fmax(r_5, r_1);
-        const double r_7 = dt * r_2;
-        const double r_8 = r_0 - r_7;
-        const double r_9 = fmin(r_0, r_3);
-        const double r_10 = dt - r_6;
-        const double r_11 = k * r_10;
-        const double r_12 = -r_11;
-        const double r_13 = exp(r_12);
-        const double r_14 = r_9 * r_13;
-        const double r_15 = r_6 - dt;
-        const double r_16 = (r_15 >= 0.0) ? r_8 : r_14;
-        const double r_17 = -1.0;
-        const double r_18 = r_17 / k;
-        const double r_19 = r_0 - r_18;
-        const double r_20 = r_19 / r_17;
-        const double r_21 = fmax(r_20, r_1);
-        const double r_22 = dt * r_17;
-        const double r_23 = r_0 - r_22;
-        const double r_24 = fmax(r_0, r_18);
-        const double r_25 = dt - r_21;
-        const double r_26 = k * r_25;
-        const double r_27 = -r_26;
-        const double r_28 = exp(r_27);
-        const double r_29 = r_24 * r_28;
-        const double r_30 = r_21 - dt;
-        const double r_31 = (r_30 >= 0.0) ? r_23 : r_29;
-        const double r_32 = (r_0 >= 0.0) ? r_16 : r_31;
-        const double r_33 = c - r_32;
-        const double r_34 = k * r_32;
-        const double r_35 = energy_longitudinal_uncertain_clamp(r_34, -1.0, 1.0);
-        state->va_r = r_33;
-        state->vadot_r = r_35;
+        {
+            double r = state->va_r;
+            if (!isfinite(r)) {
+                status |= ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_GUIDANCE_REPAIRED;
+                r = isnan(commands->va_cmd) ? 22.5 : energy_longitudinal_uncertain_clamp(commands->va_cmd, 15.0, 30.0);
+            }
+            const double c = isnan(commands->va_cmd) ? r : commands->va_cmd;
+            const double k = g.k_v;
+            const double r_0 = c - r;
+            const double r_1 = 0.0;
+            const double r_2 = 1.0;
+            const double r_3 = r_2 / k;
+            const double r_4 = r_0 - r_3;
+            const double r_5 = r_4 / r_2;
+            const double r_6 = fmax(r_5, r_1);
+            const double r_7 = dt * r_2;
+            const double r_8 = r_0 - r_7;
+            const double r_9 = fmin(r_0, r_3);
+            const double r_10 = dt - r_6;
+            const double r_11 = k * r_10;
+            const double r_12 = -r_11;
+            const double r_13 = exp(r_12);
+            const double r_14 = r_9 * r_13;
+            const double r_15 = r_6 - dt;
+            const double r_16 = (r_15 >= 0.0) ? r_8 : r_14;
+            const double r_17 = -1.0;
+            const double r_18 = r_17 / k;
+            const double r_19 = r_0 - r_18;
+            const double r_20 = r_19 / r_17;
+            const double r_21 = fmax(r_20, r_1);
+            const double r_22 = dt * r_17;
+            const double r_23 = r_0 - r_22;
+            const double r_24 = fmax(r_0, r_18);
+            const double r_25 = dt - r_21;
+            const double r_26 = k * r_25;
+            const double r_27 = -r_26;
+            const double r_28 = exp(r_27);
+            const double r_29 = r_24 * r_28;
+            const double r_30 = r_21 - dt;
+            const double r_31 = (r_30 >= 0.0) ? r_23 : r_29;
+            const double r_32 = (r_0 >= 0.0) ? r_16 : r_31;
+            const double r_33 = c - r_32;
+            const double r_34 = k * r_32;
+            const double r_35 = energy_longitudinal_uncertain_clamp(r_34, -1.0, 1.0);
+            state->va_r = r_33;
+            state->vadot_r = r_35;
+        }
     }
     return status;
 }

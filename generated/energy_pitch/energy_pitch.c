@@ -25,7 +25,7 @@
 
 static inline double energy_pitch_clamp(double x, double lo, double hi)
 {
-    return x < lo ? lo : (x > hi ? hi : x);
+    return (x < lo) ? lo : ((x > hi) ? hi : x);
 }
 
 energy_pitch_gains energy_pitch_default_gains(void)
@@ -41,11 +41,11 @@ energy_pitch_gains energy_pitch_default_gains(void)
 static inline bool energy_pitch_gains_ok(const energy_pitch_gains *g)
 {
     const double c0_0 = g->k_tot - g->k_bal;
-    return g->k_tot >= 0.05 && g->k_tot <= 0.4
-        && g->k_bal >= 0.1 && g->k_bal <= 0.6
-        && g->k_h >= 0.1 && g->k_h <= 1.0
-        && g->k_v >= 0.1 && g->k_v <= 1.0
-        && c0_0 < 0.0;
+    return (g->k_tot >= 0.05) && (g->k_tot <= 0.4)
+        && (g->k_bal >= 0.1) && (g->k_bal <= 0.6)
+        && (g->k_h >= 0.1) && (g->k_h <= 1.0)
+        && (g->k_v >= 0.1) && (g->k_v <= 1.0)
+        && (c0_0 < 0.0);
 }
 
 bool energy_pitch_gains_valid(const energy_pitch_gains *g)
@@ -68,46 +68,50 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
     double x7 = in->alpha;
     const double r0 = x2;
     const double r1 = x3;
-    if (!(x2 >= 30.0 && x2 <= 600.0)) {
+    if (!((x2 >= 30.0) && (x2 <= 600.0))) {
         status |= isfinite(x2) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x2 = isnan(x2) ? 315.0 : energy_pitch_clamp(x2, 30.0, 600.0);
     }
-    if (!(x3 >= 16.0 && x3 <= 30.0)) {
+    if (!((x3 >= 16.0) && (x3 <= 30.0))) {
         status |= isfinite(x3) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x3 = isnan(x3) ? 23.0 : energy_pitch_clamp(x3, 16.0, 30.0);
     }
-    if (!(x4 >= -2.5 && x4 <= 2.5)) {
+    if (!((x4 >= -2.5) && (x4 <= 2.5))) {
         status |= isfinite(x4) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x4 = isnan(x4) ? 0.0 : energy_pitch_clamp(x4, -2.5, 2.5);
     }
-    if (!(x5 >= -0.8 && x5 <= 0.8)) {
+    if (!((x5 >= -0.8) && (x5 <= 0.8))) {
         status |= isfinite(x5) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x5 = isnan(x5) ? 0.0 : energy_pitch_clamp(x5, -0.8, 0.8);
     }
-    if (!(x6 >= 1.0 && x6 <= 25.0)) {
+    if (!((x6 >= 1.0) && (x6 <= 25.0))) {
         status |= isfinite(x6) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x6 = isnan(x6) ? 13.0 : energy_pitch_clamp(x6, 1.0, 25.0);
     }
-    if (!(x7 >= -0.05 && x7 <= 0.2)) {
+    if (!((x7 >= -0.05) && (x7 <= 0.2))) {
         status |= isfinite(x7) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
         x7 = isnan(x7) ? 0.07500000000000001 : energy_pitch_clamp(x7, -0.05, 0.2);
     }
     {
         const double e0 = x0 - r0;
-        if (!(e0 >= -4.0 && e0 <= 4.0)) {
+        if (!((e0 >= -4.0) && (e0 <= 4.0))) {
             status |= isfinite(e0) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
             x0 = x2 + (isnan(e0) ? 0.0 : energy_pitch_clamp(e0, -4.0, 4.0));
         } else if (x2 != r0) {
             x0 = x2 + e0;
+        } else {
+            /* inside the envelope: the state as measured */
         }
     }
     {
         const double e1 = x1 - r1;
-        if (!(e1 >= -1.5 && e1 <= 1.5)) {
+        if (!((e1 >= -1.5) && (e1 <= 1.5))) {
             status |= isfinite(e1) ? ENERGY_PITCH_STATUS_OUTSIDE_ENVELOPE : ENERGY_PITCH_STATUS_NONFINITE_INPUT;
             x1 = x3 + (isnan(e1) ? 0.0 : energy_pitch_clamp(e1, -1.5, 1.5));
         } else if (x3 != r1) {
             x1 = x3 + e1;
+        } else {
+            /* inside the envelope: the state as measured */
         }
     }
     if (energy_pitch_gains_ok(gains)) {
@@ -161,6 +165,8 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
         } else if (c0 > 0.45) {
             c0 = 0.45;
             limits |= ENERGY_PITCH_LIMIT_PITCH_CMD_HIGH;
+        } else {
+            /* within its limits */
         }
         out->pitch_cmd = c0;
     }
@@ -176,6 +182,8 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
         } else if (c1 > 45.0) {
             c1 = 45.0;
             limits |= ENERGY_PITCH_LIMIT_THRUST_CMD_HIGH;
+        } else {
+            /* within its limits */
         }
         out->thrust_cmd = c1;
     }
@@ -194,110 +202,109 @@ void energy_pitch_guidance_init(energy_pitch_guidance *state, const energy_pitch
 
 uint32_t energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_commands *commands, const energy_pitch_gains *gains, double dt)
 {
-    energy_pitch_gains g;
     uint32_t status = 0u;
-    if (!(dt > 0.0)) {
-        return status;
-    }
-    if (energy_pitch_gains_ok(gains)) {
-        g = *gains;
-    } else {
-        status |= ENERGY_PITCH_STATUS_GAINS_REJECTED;
-        g = energy_pitch_default_gains();
-    }
-    {
-        double r = state->h_r;
-        if (!isfinite(r)) {
-            status |= ENERGY_PITCH_STATUS_GUIDANCE_REPAIRED;
-            r = isnan(commands->h_cmd) ? 315.0 : energy_pitch_clamp(commands->h_cmd, 30.0, 600.0);
+    if (dt > 0.0) {
+        energy_pitch_gains g;
+        if (energy_pitch_gains_ok(gains)) {
+            g = *gains;
+        } else {
+            status |= ENERGY_PITCH_STATUS_GAINS_REJECTED;
+            g = energy_pitch_default_gains();
         }
-        const double c = isnan(commands->h_cmd) ? r : commands->h_cmd;
-        const double k = g.k_h;
-        const double r_0 = c - r;
-        const double r_1 = 0.0;
-        const double r_2 = 2.5;
-        const double r_3 = r_2 / k;
-        const double r_4 = r_0 - r_3;
-        const double r_5 = r_4 / r_2;
-        const double r_6 = fmax(r_5, r_1);
-        const double r_7 = dt * r_2;
-        const double r_8 = r_0 - r_7;
-        const double r_9 = fmin(r_0, r_3);
-        const double r_10 = dt - r_6;
-        const double r_11 = k * r_10;
-        const double r_12 = -r_11;
-        const double r_13 = exp(r_12);
-        const double r_14 = r_9 * r_13;
-        const double r_15 = r_6 - dt;
-        const double r_16 = (r_15 >= 0.0) ? r_8 : r_14;
-        const double r_17 = -2.5;
-        const double r_18 = r_17 / k;
-        const double r_19 = r_0 - r_18;
-        const double r_20 = r_19 / r_17;
-        const double r_21 = fmax(r_20, r_1);
-        const double r_22 = dt * r_17;
-        const double r_23 = r_0 - r_22;
-        const double r_24 = fmax(r_0, r_18);
-        const double r_25 = dt - r_21;
-        const double r_26 = k * r_25;
-        const double r_27 = -r_26;
-        const double r_28 = exp(r_27);
-        const double r_29 = r_24 * r_28;
-        const double r_30 = r_21 - dt;
-        const double r_31 = (r_30 >= 0.0) ? r_23 : r_29;
-        const double r_32 = (r_0 >= 0.0) ? r_16 : r_31;
-        const double r_33 = c - r_32;
-        const double r_34 = k * r_32;
-        const double r_35 = energy_pitch_clamp(r_34, -2.5, 2.5);
-        state->h_r = r_33;
-        state->hdot_r = r_35;
-    }
-    {
-        double r = state->va_r;
-        if (!isfinite(r)) {
-            status |= ENERGY_PITCH_STATUS_GUIDANCE_REPAIRED;
-            r = isnan(commands->va_cmd) ? 23.0 : energy_pitch_clamp(commands->va_cmd, 16.0, 30.0);
+        {
+            double r = state->h_r;
+            if (!isfinite(r)) {
+                status |= ENERGY_PITCH_STATUS_GUIDANCE_REPAIRED;
+                r = isnan(commands->h_cmd) ? 315.0 : energy_pitch_clamp(commands->h_cmd, 30.0, 600.0);
+            }
+            const double c = isnan(commands->h_cmd) ? r : commands->h_cmd;
+            const double k = g.k_h;
+            const double r_0 = c - r;
+            const double r_1 = 0.0;
+            const double r_2 = 2.5;
+            const double r_3 = r_2 / k;
+            const double r_4 = r_0 - r_3;
+            const double r_5 = r_4 / r_2;
+            const double r_6 = fmax(r_5, r_1);
+            const double r_7 = dt * r_2;
+            const double r_8 = r_0 - r_7;
+            const double r_9 = fmin(r_0, r_3);
+            const double r_10 = dt - r_6;
+            const double r_11 = k * r_10;
+            const double r_12 = -r_11;
+            const double r_13 = exp(r_12);
+            const double r_14 = r_9 * r_13;
+            const double r_15 = r_6 - dt;
+            const double r_16 = (r_15 >= 0.0) ? r_8 : r_14;
+            const double r_17 = -2.5;
+            const double r_18 = r_17 / k;
+            const double r_19 = r_0 - r_18;
+            const double r_20 = r_19 / r_17;
+            const double r_21 = fmax(r_20, r_1);
+            const double r_22 = dt * r_17;
+            const double r_23 = r_0 - r_22;
+            const double r_24 = fmax(r_0, r_18);
+            const double r_25 = dt - r_21;
+            const double r_26 = k * r_25;
+            const double r_27 = -r_26;
+            const double r_28 = exp(r_27);
+            const double r_29 = r_24 * r_28;
+            const double r_30 = r_21 - dt;
+            const double r_31 = (r_30 >= 0.0) ? r_23 : r_29;
+            const double r_32 = (r_0 >= 0.0) ? r_16 : r_31;
+            const double r_33 = c - r_32;
+            const double r_34 = k * r_32;
+            const double r_35 = energy_pitch_clamp(r_34, -2.5, 2.5);
+            state->h_r = r_33;
+            state->hdot_r = r_35;
         }
-        const double c = isnan(commands->va_cmd) ? r : commands->va_cmd;
-        const double k = g.k_v;
-        const double r_0 = c - r;
-        const double r_1 = 0.0;
-        const double r_2 = 0.8;
-        const double r_3 = r_2 / k;
-        const double r_4 = r_0 - r_3;
-        const double r_5 = r_4 / r_2;
-        const double r_6 = fmax(r_5, r_1);
-        const double r_7 = dt * r_2;
-        const double r_8 = r_0 - r_7;
-        const double r_9 = fmin(r_0, r_3);
-        const double r_10 = dt - r_6;
-        const double r_11 = k * r_10;
-        const double r_12 = -r_11;
-        const double r_13 = exp(r_12);
-        const double r_14 = r_9 * r_13;
-        const double r_15 = r_6 - dt;
-        const double r_16 = (r_15 >= 0.0) ? r_8 : r_14;
-        const double r_17 = -0.8;
-        const double r_18 = r_17 / k;
-        const double r_19 = r_0 - r_18;
-        const double r_20 = r_19 / r_17;
-        const double r_21 = fmax(r_20, r_1);
-        const double r_22 = dt * r_17;
-        const double r_23 = r_0 - r_22;
-        const double r_24 = fmax(r_0, r_18);
-        const double r_25 = dt - r_21;
-        const double r_26 = k * r_25;
-        const double r_27 = -r_26;
-        const double r_28 = exp(r_27);
-        const double r_29 = r_24 * r_28;
-        const double r_30 = r_21 - dt;
-        const double r_31 = (r_30 >= 0.0) ? r_23 : r_29;
-        const double r_32 = (r_0 >= 0.0) ? r_16 : r_31;
-        const double r_33 = c - r_32;
-        const double r_34 = k * r_32;
-        const double r_35 = energy_pitch_clamp(r_34, -0.8, 0.8);
-        state->va_r = r_33;
-        state->vadot_r = r_35;
+        {
+            double r = state->va_r;
+            if (!isfinite(r)) {
+                status |= ENERGY_PITCH_STATUS_GUIDANCE_REPAIRED;
+                r = isnan(commands->va_cmd) ? 23.0 : energy_pitch_clamp(commands->va_cmd, 16.0, 30.0);
+            }
+            const double c = isnan(commands->va_cmd) ? r : commands->va_cmd;
+            const double k = g.k_v;
+            const double r_0 = c - r;
+            const double r_1 = 0.0;
+            const double r_2 = 0.8;
+            const double r_3 = r_2 / k;
+            const double r_4 = r_0 - r_3;
+            const double r_5 = r_4 / r_2;
+            const double r_6 = fmax(r_5, r_1);
+            const double r_7 = dt * r_2;
+            const double r_8 = r_0 - r_7;
+            const double r_9 = fmin(r_0, r_3);
+            const double r_10 = dt - r_6;
+            const double r_11 = k * r_10;
+            const double r_12 = -r_11;
+            const double r_13 = exp(r_12);
+            const double r_14 = r_9 * r_13;
+            const double r_15 = r_6 - dt;
+            const double r_16 = (r_15 >= 0.0) ? r_8 : r_14;
+            const double r_17 = -0.8;
+            const double r_18 = r_17 / k;
+            const double r_19 = r_0 - r_18;
+            const double r_20 = r_19 / r_17;
+            const double r_21 = fmax(r_20, r_1);
+            const double r_22 = dt * r_17;
+            const double r_23 = r_0 - r_22;
+            const double r_24 = fmax(r_0, r_18);
+            const double r_25 = dt - r_21;
+            const double r_26 = k * r_25;
+            const double r_27 = -r_26;
+            const double r_28 = exp(r_27);
+            const double r_29 = r_24 * r_28;
+            const double r_30 = r_21 - dt;
+            const double r_31 = (r_30 >= 0.0) ? r_23 : r_29;
+            const double r_32 = (r_0 >= 0.0) ? r_16 : r_31;
+            const double r_33 = c - r_32;
+            const double r_34 = k * r_32;
+            const double r_35 = energy_pitch_clamp(r_34, -0.8, 0.8);
+            state->va_r = r_33;
+            state->vadot_r = r_35;
+        }
     }
     return status;
 }

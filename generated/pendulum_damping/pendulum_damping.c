@@ -25,7 +25,7 @@
 
 static inline double pendulum_damping_clamp(double x, double lo, double hi)
 {
-    return x < lo ? lo : (x > hi ? hi : x);
+    return (x < lo) ? lo : ((x > hi) ? hi : x);
 }
 
 pendulum_damping_gains pendulum_damping_default_gains(void)
@@ -37,7 +37,7 @@ pendulum_damping_gains pendulum_damping_default_gains(void)
 
 static inline bool pendulum_damping_gains_ok(const pendulum_damping_gains *g)
 {
-    return g->k_d >= 0.01 && g->k_d <= 0.5;
+    return (g->k_d >= 0.01) && (g->k_d <= 0.5);
 }
 
 bool pendulum_damping_gains_valid(const pendulum_damping_gains *g)
@@ -54,14 +54,13 @@ void pendulum_damping_step(const pendulum_damping_inputs *in, const pendulum_dam
     double x1 = in->omega;
     {
         const double e0 = x0 - 0.0;
-        if (!(e0 >= -1.2 && e0 <= 1.2)) {
+        if (!((e0 >= -1.2) && (e0 <= 1.2))) {
             status |= isfinite(e0) ? PENDULUM_DAMPING_STATUS_OUTSIDE_ENVELOPE : PENDULUM_DAMPING_STATUS_NONFINITE_INPUT;
-            x0 = 0.0 + (isnan(e0) ? 0.0 : pendulum_damping_clamp(e0, -1.2, 1.2));
         }
     }
     {
         const double e1 = x1 - 0.0;
-        if (!(e1 >= -4.0 && e1 <= 4.0)) {
+        if (!((e1 >= -4.0) && (e1 <= 4.0))) {
             status |= isfinite(e1) ? PENDULUM_DAMPING_STATUS_OUTSIDE_ENVELOPE : PENDULUM_DAMPING_STATUS_NONFINITE_INPUT;
             x1 = 0.0 + (isnan(e1) ? 0.0 : pendulum_damping_clamp(e1, -4.0, 4.0));
         }
@@ -88,6 +87,8 @@ void pendulum_damping_step(const pendulum_damping_inputs *in, const pendulum_dam
         } else if (c0 > 2.0) {
             c0 = 2.0;
             limits |= PENDULUM_DAMPING_LIMIT_TORQUE_CMD_HIGH;
+        } else {
+            /* within its limits */
         }
         out->torque_cmd = c0;
     }

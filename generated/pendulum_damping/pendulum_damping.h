@@ -57,7 +57,6 @@ typedef struct {
 #define PENDULUM_DAMPING_STATUS_OUTSIDE_ENVELOPE (UINT32_C(1) << 1) /* a finite input was outside the proved envelope: evaluated at the nearest envelope point */
 #define PENDULUM_DAMPING_STATUS_GAINS_REJECTED (UINT32_C(1) << 2) /* the gains were outside their proved set: the spec's defaults were used */
 #define PENDULUM_DAMPING_STATUS_NONFINITE_COMMAND (UINT32_C(1) << 3) /* a command was not finite (the proof rules this out): the safe value was sent */
-#define PENDULUM_DAMPING_STATUS_GUIDANCE_REPAIRED (UINT32_C(1) << 4) /* a reference of the guidance state was not finite: its filter restarted at rest at its command */
 
 /* The spec's default gains; the generated code falls back to them. */
 pendulum_damping_gains pendulum_damping_default_gains(void);

@@ -194,10 +194,13 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         );
     }
     for (i, (n, what)) in crate::controller::STATUS.iter().enumerate() {
-        let _ = writeln!(
-            h,
-            "#define {up}_STATUS_{n} (UINT32_C(1) << {i}) /* {what} */"
-        );
+        // the guidance bit only where there is guidance (an unused macro: MISRA C:2012 2.5)
+        if *n != "GUIDANCE_REPAIRED" || !c.filters.is_empty() {
+            let _ = writeln!(
+                h,
+                "#define {up}_STATUS_{n} (UINT32_C(1) << {i}) /* {what} */"
+            );
+        }
     }
     let _ = writeln!(h);
     let _ = writeln!(h, "/* The spec's default gains; the generated code falls back to them. */\n{p}_gains {p}_default_gains(void);\n");
@@ -233,7 +236,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     let _ = writeln!(s, "#include \"{p}.h\"\n\n#include <math.h>\n");
     // -ffast-math (and -Ofast) let the compiler assume no NaN: the guards would vanish
     let _ = writeln!(s, "#if defined(__FAST_MATH__)\n#error \"build without -ffast-math or -Ofast: the NaN and envelope guards of this law need IEEE 754 semantics\"\n#endif\n");
-    let _ = writeln!(s, "static inline {ty} {p}_clamp({ty} x, {ty} lo, {ty} hi)\n{{\n    return x < lo ? lo : (x > hi ? hi : x);\n}}\n");
+    let _ = writeln!(s, "static inline {ty} {p}_clamp({ty} x, {ty} lo, {ty} hi)\n{{\n    return (x < lo) ? lo : ((x > hi) ? hi : x);\n}}\n");
     let _ = writeln!(s, "{p}_gains {p}_default_gains(void)\n{{\n    {p}_gains g;");
     for g in &c.gains {
         let _ = writeln!(s, "    g.{} = {};", g.name, e.lit(g.default));
@@ -254,7 +257,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         .iter()
         .map(|g| {
             format!(
-                "g->{0} >= {1} && g->{0} <= {2}",
+                "(g->{0} >= {1}) && (g->{0} <= {2})",
                 g.name,
                 e.lit(g.range.0),
                 e.lit(g.range.1)
@@ -263,7 +266,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         .collect();
     for (o, st) in couts.iter().zip(strict) {
         checks.push(format!(
-            "{o} {} {}",
+            "({o} {} {})",
             if *st { "<" } else { "<=" },
             e.lit(0.0)
         ));
@@ -297,6 +300,22 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             let _ = writeln!(s, "    const {ty} r{i} = x{};", ns + r);
         }
     }
+    // an input the law never reads is still checked, but not repaired (no dead store)
+    let reads = |i: usize| {
+        let slot = i as crate::ir::Slot;
+        c.law
+            .ops
+            .iter()
+            .any(|op| crate::ir::operands(op).contains(&slot))
+            || c.law.outputs.iter().any(|(_, o)| *o == slot)
+    };
+    let needed = |j: usize| {
+        reads(ns + j)
+            || c.states
+                .iter()
+                .enumerate()
+                .any(|(i, st)| st.reference == Some(j) && reads(i))
+    };
     for (j, r) in c
         .references
         .iter()
@@ -307,7 +326,12 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         let xi = format!("x{}", ns + j);
         let (lo, hi) = e.ends(r.range);
         let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
-        let _ = writeln!(s, "    if (!({xi} >= {lo} && {xi} <= {hi})) {{\n        status |= isfinite({xi}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n        {xi} = isnan({xi}) ? {mid} : {p}_clamp({xi}, {lo}, {hi});\n    }}");
+        let repair = if needed(j) {
+            format!("\n        {xi} = isnan({xi}) ? {mid} : {p}_clamp({xi}, {lo}, {hi});")
+        } else {
+            String::new()
+        };
+        let _ = writeln!(s, "    if (!(({xi} >= {lo}) && ({xi} <= {hi}))) {{\n        status |= isfinite({xi}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;{repair}\n    }}");
     }
     for (i, st) in c.states.iter().enumerate() {
         let base = match st.reference {
@@ -316,10 +340,17 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         };
         let (lo, hi) = e.ends(st.error);
         let zero = e.lit(crate::ir::clamp(0.0, st.error.0, st.error.1));
-        if st.reference.is_some() {
-            let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - r{i};\n        if (!(e{i} >= {lo} && e{i} <= {hi})) {{\n            status |= isfinite(e{i}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }} else if ({base} != r{i}) {{\n            x{i} = {base} + e{i};\n        }}\n    }}");
+        if !reads(i) {
+            let raw = if st.reference.is_some() {
+                format!("r{i}")
+            } else {
+                base.clone()
+            };
+            let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - {raw};\n        if (!((e{i} >= {lo}) && (e{i} <= {hi}))) {{\n            status |= isfinite(e{i}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n        }}\n    }}");
+        } else if st.reference.is_some() {
+            let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - r{i};\n        if (!((e{i} >= {lo}) && (e{i} <= {hi}))) {{\n            status |= isfinite(e{i}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }} else if ({base} != r{i}) {{\n            x{i} = {base} + e{i};\n        }} else {{\n            /* inside the envelope: the state as measured */\n        }}\n    }}");
         } else {
-            let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - {base};\n        if (!(e{i} >= {lo} && e{i} <= {hi})) {{\n            status |= isfinite(e{i}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }}\n    }}");
+            let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - {base};\n        if (!((e{i} >= {lo}) && (e{i} <= {hi}))) {{\n            status |= isfinite(e{i}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }}\n    }}");
         }
     }
     let _ = writeln!(s, "    if ({p}_gains_ok(gains)) {{\n        g = *gains;\n    }} else {{\n        status |= {up}_STATUS_GAINS_REJECTED;\n        g = {p}_default_gains();\n    }}");
@@ -341,7 +372,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     for (i, (a, o)) in c.actuators.iter().zip(&louts).enumerate() {
         let n = a.name.to_uppercase();
         let (lo, hi) = e.ends(a.limits);
-        let _ = writeln!(s, "    {{\n        {ty} c{i} = {o};\n        if (!isfinite(c{i})) {{\n            status |= {up}_STATUS_NONFINITE_COMMAND;\n            c{i} = {};\n        }}\n        if (c{i} < {lo}) {{\n            c{i} = {lo};\n            limits |= {up}_LIMIT_{n}_LOW;\n        }} else if (c{i} > {hi}) {{\n            c{i} = {hi};\n            limits |= {up}_LIMIT_{n}_HIGH;\n        }}\n        out->{} = c{i};\n    }}", e.lit(a.safe), a.name);
+        let _ = writeln!(s, "    {{\n        {ty} c{i} = {o};\n        if (!isfinite(c{i})) {{\n            status |= {up}_STATUS_NONFINITE_COMMAND;\n            c{i} = {};\n        }}\n        if (c{i} < {lo}) {{\n            c{i} = {lo};\n            limits |= {up}_LIMIT_{n}_LOW;\n        }} else if (c{i} > {hi}) {{\n            c{i} = {hi};\n            limits |= {up}_LIMIT_{n}_HIGH;\n        }} else {{\n            /* within its limits */\n        }}\n        out->{} = c{i};\n    }}", e.lit(a.safe), a.name);
     }
     let _ = writeln!(
         s,
@@ -359,28 +390,38 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             let _ = writeln!(s, "    state->{rn} = isnan(start->{cn}) ? {mid} : {p}_clamp(start->{cn}, {lo}, {hi});\n    state->{q} = {zero};", rn = r.name, cn = f.command, q = f.rate, zero = e.lit(0.0));
         }
         let _ = writeln!(s, "}}");
-        let _ = writeln!(s, "\nuint32_t {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt)\n{{\n    {p}_gains g;\n    uint32_t status = 0u;\n    if (!(dt > {})) {{\n        return status;\n    }}\n    if ({p}_gains_ok(gains)) {{\n        g = *gains;\n    }} else {{\n        status |= {up}_STATUS_GAINS_REJECTED;\n        g = {p}_default_gains();\n    }}", e.lit(0.0));
+        let _ = writeln!(s, "\nuint32_t {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt)\n{{\n    uint32_t status = 0u;\n    if (dt > {}) {{", e.lit(0.0));
+        // the body, indented once more inside the test of dt (one exit: MISRA C:2012 15.5)
+        let mut b = String::new();
+        let _ = writeln!(b, "    {p}_gains g;\n    if ({p}_gains_ok(gains)) {{\n        g = *gains;\n    }} else {{\n        status |= {up}_STATUS_GAINS_REJECTED;\n        g = {p}_default_gains();\n    }}");
         for f in &c.filters {
             let rn = &c.references[f.reference].name;
             let kn = &c.gains[f.gain].name;
             let range = c.references[f.reference].range;
             let (lo, hi) = e.ends(range);
             let mid = e.lit(0.5 * range.0 + 0.5 * range.1);
-            let _ = writeln!(s, "    {{\n        {ty} r = state->{rn};\n        if (!isfinite(r)) {{\n            status |= {up}_STATUS_GUIDANCE_REPAIRED;\n            r = isnan(commands->{cn}) ? {mid} : {p}_clamp(commands->{cn}, {lo}, {hi});\n        }}\n        const {ty} c = isnan(commands->{cn}) ? r : commands->{cn};\n        const {ty} k = g.{kn};", cn = f.command);
+            let _ = writeln!(b, "    {{\n        {ty} r = state->{rn};\n        if (!isfinite(r)) {{\n            status |= {up}_STATUS_GUIDANCE_REPAIRED;\n            r = isnan(commands->{cn}) ? {mid} : {p}_clamp(commands->{cn}, {lo}, {hi});\n        }}\n        const {ty} c = isnan(commands->{cn}) ? r : commands->{cn};\n        const {ty} k = g.{kn};", cn = f.command);
             let outs = e.program(
                 &f.program,
                 p,
                 "        ",
                 &|i| ["r", "c", "k", "dt"][i].to_string(),
-                &mut s,
+                &mut b,
             );
             let _ = writeln!(
-                s,
+                b,
                 "        state->{rn} = {};\n        state->{} = {};\n    }}",
                 outs[0], f.rate, outs[1]
             );
         }
-        let _ = writeln!(s, "    return status;\n}}");
+        for line in b.lines() {
+            if line.is_empty() {
+                s.push('\n');
+            } else {
+                let _ = writeln!(s, "    {line}");
+            }
+        }
+        let _ = writeln!(s, "    }}\n    return status;\n}}");
     }
     (h, s)
 }
