@@ -155,15 +155,23 @@ pub const STATUS: [(&str, &str); 5] = [
     ),
 ];
 
-/// The `status` bit of a guidance state repaired by `update`.
+/// The `status` bits of [`STATUS`], by name.
+pub const STATUS_NONFINITE_INPUT: u32 = 1 << 0;
+/// See [`STATUS`].
+pub const STATUS_OUTSIDE_ENVELOPE: u32 = 1 << 1;
+/// See [`STATUS`].
+pub const STATUS_GAINS_REJECTED: u32 = 1 << 2;
+/// See [`STATUS`].
+pub const STATUS_NONFINITE_COMMAND: u32 = 1 << 3;
+/// See [`STATUS`].
 pub const STATUS_GUIDANCE_REPAIRED: u32 = 1 << 4;
 
 /// The `status` bit of a repaired input: non-finite, or finite and outside.
 fn repaired(v: f64) -> u32 {
     if v.is_finite() {
-        1 << 1
+        STATUS_OUTSIDE_ENVELOPE
     } else {
-        1 << 0
+        STATUS_NONFINITE_INPUT
     }
 }
 
@@ -506,7 +514,7 @@ impl Controller {
         if self.gains_valid_in(gains, ws) {
             x.extend_from_slice(gains);
         } else {
-            status |= 1 << 2;
+            status |= STATUS_GAINS_REJECTED;
             x.extend(self.gains.iter().map(|g| g.default));
         }
         let mut raw = std::mem::take(&mut ws.out);
@@ -518,7 +526,7 @@ impl Controller {
         for (i, (a, &c)) in self.actuators.iter().zip(&raw).enumerate() {
             let mut c = c;
             if !c.is_finite() {
-                status |= 1 << 3;
+                status |= STATUS_NONFINITE_COMMAND;
                 c = a.safe;
             }
             if c < a.limits.0 {
@@ -570,7 +578,7 @@ impl Controller {
             return 0;
         }
         let valid = self.gains_valid_in(gains, ws);
-        let mut status = if valid { 0 } else { 1 << 2 };
+        let mut status = if valid { 0 } else { STATUS_GAINS_REJECTED };
         for (j, f) in self.filters.iter().enumerate() {
             if !refs[j].is_finite() {
                 status |= STATUS_GUIDANCE_REPAIRED;
