@@ -36,6 +36,14 @@ impl Emit {
         }
     }
 
+    /// A reference at rest at `command` (an expression): clamped into the range, a NaN at
+    /// its midpoint, as `Controller::start` computes it.
+    fn at_rest(&self, prefix: &str, range: (f64, f64), command: &str) -> String {
+        let (lo, hi) = self.ends(range);
+        let mid = self.lit(crate::controller::midpoint(range));
+        format!("isnan({command}) ? {mid} : {prefix}_clamp({command}, {lo}, {hi})")
+    }
+
     /// A range's ends as literals, rounded inward for this float type.
     fn ends(&self, range: (f64, f64)) -> (String, String) {
         let (lo, hi) = self.float.inward(range);
@@ -325,7 +333,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     {
         let xi = format!("x{}", ns + j);
         let (lo, hi) = e.ends(r.range);
-        let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
+        let mid = e.lit(crate::controller::midpoint(r.range));
         let repair = if needed(j) {
             format!("\n        {xi} = isnan({xi}) ? {mid} : {p}_clamp({xi}, {lo}, {hi});")
         } else {
@@ -385,9 +393,14 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         );
         for f in &c.filters {
             let r = &c.references[f.reference];
-            let (lo, hi) = e.ends(r.range);
-            let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
-            let _ = writeln!(s, "    state->{rn} = isnan(start->{cn}) ? {mid} : {p}_clamp(start->{cn}, {lo}, {hi});\n    state->{q} = {zero};", rn = r.name, cn = f.command, q = f.rate, zero = e.lit(0.0));
+            let rest = e.at_rest(p, r.range, &format!("start->{}", f.command));
+            let _ = writeln!(
+                s,
+                "    state->{rn} = {rest};\n    state->{q} = {zero};",
+                rn = r.name,
+                q = f.rate,
+                zero = e.lit(0.0)
+            );
         }
         let _ = writeln!(s, "}}");
         let _ = writeln!(s, "\nuint32_t {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt)\n{{\n    uint32_t status = 0u;\n    if (dt > {}) {{", e.lit(0.0));
@@ -397,10 +410,12 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         for f in &c.filters {
             let rn = &c.references[f.reference].name;
             let kn = &c.gains[f.gain].name;
-            let range = c.references[f.reference].range;
-            let (lo, hi) = e.ends(range);
-            let mid = e.lit(0.5 * range.0 + 0.5 * range.1);
-            let _ = writeln!(b, "    {{\n        {ty} r = state->{rn};\n        if (!isfinite(r)) {{\n            status |= {up}_STATUS_GUIDANCE_REPAIRED;\n            r = isnan(commands->{cn}) ? {mid} : {p}_clamp(commands->{cn}, {lo}, {hi});\n        }}\n        const {ty} c = isnan(commands->{cn}) ? r : commands->{cn};\n        const {ty} k = g.{kn};", cn = f.command);
+            let rest = e.at_rest(
+                p,
+                c.references[f.reference].range,
+                &format!("commands->{}", f.command),
+            );
+            let _ = writeln!(b, "    {{\n        {ty} r = state->{rn};\n        if (!isfinite(r)) {{\n            status |= {up}_STATUS_GUIDANCE_REPAIRED;\n            r = {rest};\n        }}\n        const {ty} c = isnan(commands->{cn}) ? r : commands->{cn};\n        const {ty} k = g.{kn};", cn = f.command);
             let outs = e.program(
                 &f.program,
                 p,

@@ -204,7 +204,7 @@ pub fn clamp_command(c: f64, (lo, hi): (f64, f64)) -> f64 {
     clamp(c, lo, hi)
 }
 
-fn midpoint((lo, hi): (f64, f64)) -> f64 {
+pub(crate) fn midpoint((lo, hi): (f64, f64)) -> f64 {
     0.5 * lo + 0.5 * hi
 }
 

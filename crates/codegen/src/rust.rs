@@ -26,6 +26,14 @@ impl Emit {
         }
     }
 
+    /// A reference at rest at `command` (an expression): clamped into the range, a NaN at
+    /// its midpoint, as `Controller::start` computes it.
+    fn at_rest(&self, range: (f64, f64), command: TokenStream) -> TokenStream {
+        let (lo, hi) = self.ends(range);
+        let mid = self.lit(crate::controller::midpoint(range));
+        quote!(if #command.is_nan() { #mid } else { clamp_to(#command, #lo, #hi) })
+    }
+
     /// A range's ends as literals, rounded inward for this float type.
     fn ends(&self, range: (f64, f64)) -> (TokenStream, TokenStream) {
         let (lo, hi) = self.float.inward(range);
@@ -233,7 +241,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
     for (j, r) in ranged.enumerate() {
         let xi = x(ns + j);
         let (lo, hi) = e.ends(r.range);
-        let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
+        let mid = e.lit(crate::controller::midpoint(r.range));
         guards.extend(quote! {
             if !(#xi >= #lo && #xi <= #hi) {
                 status |= if #xi.is_finite() { STATUS_OUTSIDE_ENVELOPE } else { STATUS_NONFINITE_INPUT };
@@ -387,15 +395,13 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
                 _ => quote!(dt),
             });
             let (o_r, o_q) = (&outs[0], &outs[1]);
-            let range = c.references[f.reference].range;
-            let (lo, hi) = e.ends(range);
-            let mid = e.lit(0.5 * range.0 + 0.5 * range.1);
+            let rest = e.at_rest(c.references[f.reference].range, quote!(commands.#cf));
             blocks.extend(quote! {
                 {
                     let mut r: #ty = state.#rf;
                     if !r.is_finite() {
                         status |= STATUS_GUIDANCE_REPAIRED;
-                        r = if commands.#cf.is_nan() { #mid } else { clamp_to(commands.#cf, #lo, #hi) };
+                        r = #rest;
                     }
                     let c: #ty = if commands.#cf.is_nan() { r } else { commands.#cf };
                     let k: #ty = g.#kf;
@@ -411,11 +417,9 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             .map(|f| {
                 let r = &c.references[f.reference];
                 let (rf, qf, cf) = (field(&r.name), field(&f.rate), field(&f.command));
-                let (lo, hi) = e.ends(r.range);
-                let mid = e.lit(0.5 * r.range.0 + 0.5 * r.range.1);
-                let zero = e.lit(0.0);
+                let (rest, zero) = (e.at_rest(r.range, quote!(at.#cf)), e.lit(0.0));
                 quote! {
-                    #rf: if at.#cf.is_nan() { #mid } else { clamp_to(at.#cf, #lo, #hi) },
+                    #rf: #rest,
                     #qf: #zero,
                 }
             })
