@@ -4,7 +4,7 @@ Reference: SymPy (`sympy.cse` on the spec's laws and actuator commands, derived 
 by the independent derivation of tests/python/crosscheck_derive.py, parameters as floats so
 their products fold, then `sympy.ccode`). Both sides are counted by the same counter on the C
 text: every arithmetic operator (+ - * /, unary minus included) and every function call.
-lawsmith's count covers the law section of `NAME_step` (between its `the law` and
+lawsmith's count covers the law section of `NAME_compute_commands` (between its `the law` and
 `saturation` comments), not the envelope guards and saturation, which SymPy does not produce;
 its `asin` argument clamp is counted. Goal: ratio <= 1.0.
 

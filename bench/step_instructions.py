@@ -1,4 +1,4 @@
-"""Benchmark: instructions per `step` of lawsmith's emitted C against a hand-written C
+"""Benchmark: instructions per control step (`NAME_compute_commands`) of lawsmith's emitted C against a hand-written C
 implementation of the same law (bench/handwritten/energy_longitudinal_hand.c, which does the
 same job: envelope guards, default gains, asin guard, saturation and limit bits).
 
@@ -38,7 +38,7 @@ def inputs():
     return rows
 
 
-def driver(prefix, header, types):
+def driver(fn, header, types):
     rows = inputs()
     lines = [f'#include "{header}"', "#include <stdio.h>", f"static const double X[{STEPS}][8] = {{"]
     for r in rows:
@@ -51,7 +51,7 @@ def driver(prefix, header, types):
     lines.append(f"    {types[0]} in; {types[2]} out;")
     for k, f in enumerate(FIELDS):
         lines.append(f"    in.{f} = X[i][{k}];")
-    lines.append(f"    {prefix}_step(&in, &g, &out);")
+    lines.append(f"    {fn}(&in, &g, &out);")
     lines.append("    acc += out.pitch_cmd + out.thrust_cmd;")
     lines.append("  }")
     lines.append('  printf("%f\\n", acc);')
@@ -88,18 +88,18 @@ def main():
             fh.write(src.split("#define MASS")[0].replace("#include <math.h>", "") +
                      "void hand_step(const hand_inputs *in, const hand_gains *gains, hand_outputs *out);\n")
         results = {}
-        for name, header, prefix, types, source in [
-            ("lawsmith", "energy_longitudinal.h", "energy_longitudinal",
-             ("energy_longitudinal_inputs", "energy_longitudinal_gains", "energy_longitudinal_outputs"),
+        for name, header, fn, types, source in [
+            ("lawsmith", "energy_longitudinal.h", "energy_longitudinal_compute_commands",
+             ("energy_longitudinal_reading", "energy_longitudinal_gains", "energy_longitudinal_commands"),
              os.path.join(tmp, "energy_longitudinal.c")),
-            ("hand-written", "hand.h", "hand", ("hand_inputs", "hand_gains", "hand_outputs"),
+            ("hand-written", "hand.h", "hand_step", ("hand_inputs", "hand_gains", "hand_outputs"),
              os.path.join(HERE, "handwritten", "energy_longitudinal_hand.c")),
         ]:
-            drv = os.path.join(tmp, f"drv_{prefix}.c")
-            open(drv, "w", encoding="utf-8").write(driver(prefix, header, types))
-            exe = os.path.join(tmp, f"bench_{prefix}")
+            drv = os.path.join(tmp, f"drv_{fn}.c")
+            open(drv, "w", encoding="utf-8").write(driver(fn, header, types))
+            exe = os.path.join(tmp, f"bench_{fn}")
             subprocess.run(["cc", "-std=c99", "-O2", "-I", tmp, drv, source, "-lm", "-o", exe], check=True)
-            results[name] = instructions(exe, f"{prefix}_step", tmp) / STEPS
+            results[name] = instructions(exe, fn, tmp) / STEPS
         ours, hand = results["lawsmith"], results["hand-written"]
         print(f"instructions per step (callgrind, cc -O2, {STEPS} steps, libm calls included):")
         print(f"  lawsmith emitted C   {ours:10.1f}")

@@ -1,8 +1,8 @@
 /*
  * A fixed-rate control task around the generated C of specs/energy_longitudinal.yaml, as
  * firmware would run it: a 50 Hz loop on a simulated clock that reads the measurements,
- * calls energy_longitudinal_step, sends the commands, then advances the guidance filters
- * with energy_longitudinal_update. In firmware the loop body runs in the timer task.
+ * calls energy_longitudinal_compute_commands, sends the commands, then advances the
+ * reference filters with energy_longitudinal_advance_references. In firmware the loop body runs in the timer task.
  *
  * The aircraft here is the spec's own point-mass model (h' = va sin(gamma),
  * va' = (T - D)/m - g sin(gamma)) with a perfect inner pitch loop (gamma = pitch - alpha),
@@ -30,8 +30,8 @@
 int main(int argc, char **argv)
 {
     double h = 120.0, va = 22.0;
-    energy_longitudinal_commands commands, start;
-    energy_longitudinal_guidance guidance;
+    energy_longitudinal_targets targets, start;
+    energy_longitudinal_references references;
     energy_longitudinal_gains gains = energy_longitudinal_default_gains();
     long periods, k;
     long limited = 0, outside = 0;
@@ -39,28 +39,28 @@ int main(int argc, char **argv)
         fprintf(stderr, "usage: %s H_CMD VA_CMD SECONDS\n", argv[0]);
         return 2;
     }
-    commands.h_cmd = atof(argv[1]);
-    commands.va_cmd = atof(argv[2]);
+    targets.h_cmd = atof(argv[1]);
+    targets.va_cmd = atof(argv[2]);
     periods = lround(atof(argv[3]) / PERIOD);
     /* the filters start at rest at the aircraft's state, then follow the commands */
     start.h_cmd = h;
     start.va_cmd = va;
-    energy_longitudinal_guidance_init(&guidance, &start);
+    energy_longitudinal_start_references(&references, &start);
     for (k = 0; k < periods; k++) {
-        energy_longitudinal_inputs in;
-        energy_longitudinal_outputs out;
+        energy_longitudinal_reading in;
+        energy_longitudinal_commands out;
         double gamma, dt = PERIOD / SUBSTEPS;
         int i;
-        /* 1. read the sensors and the guidance state; 2. compute the commands */
+        /* 1. read the sensors and the reference filters; 2. compute the commands */
         in.h = h;
         in.va = va;
-        in.h_r = guidance.h_r;
-        in.va_r = guidance.va_r;
-        in.hdot_r = guidance.hdot_r;
-        in.vadot_r = guidance.vadot_r;
+        in.h_r = references.h_r;
+        in.va_r = references.va_r;
+        in.hdot_r = references.hdot_r;
+        in.vadot_r = references.vadot_r;
         in.drag = DRAG;
         in.alpha = ALPHA;
-        energy_longitudinal_step(&in, &gains, &out);
+        energy_longitudinal_compute_commands(&in, &gains, &out);
         limited += out.limits != 0u;
         outside += out.domain;
         /* 3. the actuators hold the commands over the period */
@@ -72,7 +72,7 @@ int main(int argc, char **argv)
             va += dt * vadot;
         }
         /* 4. advance the references for the next period */
-        energy_longitudinal_update(&guidance, &commands, &gains, PERIOD);
+        energy_longitudinal_advance_references(&references, &targets, &gains, PERIOD);
     }
     printf("%.17g %.17g %.17g %ld %ld\n", (double)periods * PERIOD, h, va, limited, outside);
     return 0;

@@ -34,27 +34,27 @@ pub fn fly(h_cmd: f64, va_cmd: f64, seconds: f64) -> Flight {
     const ALPHA: f64 = 0.05; // rad
     let (mut h, mut va) = (120.0, 22.0);
     let gains = law::Gains::DEFAULT;
-    let commands = law::Commands { h_cmd, va_cmd };
+    let targets = law::Targets { h_cmd, va_cmd };
     // the filters start at rest at the aircraft's state, then follow the commands
-    let mut guidance = law::Guidance::start(&law::Commands {
+    let mut references = law::References::start(&law::Targets {
         h_cmd: h,
         va_cmd: va,
     });
     let (mut limited, mut outside) = (0, 0);
     let periods = (seconds / PERIOD).round() as usize;
     for _ in 0..periods {
-        // 1. read the sensors and the guidance state; 2. compute the commands
-        let inputs = law::Inputs {
+        // 1. read the sensors and the reference filters; 2. compute the commands
+        let reading = law::Reading {
             h,
             va,
-            h_r: guidance.h_r,
-            va_r: guidance.va_r,
-            hdot_r: guidance.hdot_r,
-            vadot_r: guidance.vadot_r,
+            h_r: references.h_r,
+            va_r: references.va_r,
+            hdot_r: references.hdot_r,
+            vadot_r: references.vadot_r,
             drag: DRAG,
             alpha: ALPHA,
         };
-        let out = law::step(&inputs, &gains);
+        let out = law::compute_commands(&reading, &gains);
         limited += usize::from(out.limits != 0);
         outside += usize::from(out.domain);
         // 3. the actuators hold the commands over the period
@@ -67,7 +67,7 @@ pub fn fly(h_cmd: f64, va_cmd: f64, seconds: f64) -> Flight {
             va += dt * vadot;
         }
         // 4. advance the references for the next period
-        law::update(&mut guidance, &commands, &gains, PERIOD);
+        law::advance_references(&mut references, &targets, &gains, PERIOD);
     }
     Flight {
         t: periods as f64 * PERIOD,

@@ -38,7 +38,7 @@ energy_longitudinal_gains energy_longitudinal_default_gains(void)
     return g;
 }
 
-static inline bool energy_longitudinal_gains_ok(const energy_longitudinal_gains *g)
+static inline bool energy_longitudinal_gains_in_set(const energy_longitudinal_gains *g)
 {
     return (g->k_tot >= 0.05) && (g->k_tot <= 0.5)
         && (g->k_bal >= 0.05) && (g->k_bal <= 0.5)
@@ -46,12 +46,12 @@ static inline bool energy_longitudinal_gains_ok(const energy_longitudinal_gains 
         && (g->k_v >= 0.1) && (g->k_v <= 1.0);
 }
 
-bool energy_longitudinal_gains_valid(const energy_longitudinal_gains *g)
+bool energy_longitudinal_check_gains(const energy_longitudinal_gains *g)
 {
-    return energy_longitudinal_gains_ok(g);
+    return energy_longitudinal_gains_in_set(g);
 }
 
-void energy_longitudinal_step(const energy_longitudinal_inputs *in, const energy_longitudinal_gains *gains, energy_longitudinal_outputs *out)
+void energy_longitudinal_compute_commands(const energy_longitudinal_reading *in, const energy_longitudinal_gains *gains, energy_longitudinal_commands *out)
 {
     uint32_t status = 0u;
     uint32_t limits = 0u;
@@ -112,7 +112,7 @@ void energy_longitudinal_step(const energy_longitudinal_inputs *in, const energy
             /* inside the envelope: the state as measured */
         }
     }
-    if (energy_longitudinal_gains_ok(gains)) {
+    if (energy_longitudinal_gains_in_set(gains)) {
         g = *gains;
     } else {
         status |= ENERGY_LONGITUDINAL_STATUS_GAINS_REJECTED;
@@ -188,7 +188,7 @@ void energy_longitudinal_step(const energy_longitudinal_inputs *in, const energy
     out->status = status;
 }
 
-void energy_longitudinal_guidance_init(energy_longitudinal_guidance *state, const energy_longitudinal_commands *start)
+void energy_longitudinal_start_references(energy_longitudinal_references *state, const energy_longitudinal_targets *start)
 {
     state->h_r = isnan(start->h_cmd) ? 315.0 : energy_longitudinal_clamp(start->h_cmd, 30.0, 600.0);
     state->hdot_r = 0.0;
@@ -196,12 +196,12 @@ void energy_longitudinal_guidance_init(energy_longitudinal_guidance *state, cons
     state->vadot_r = 0.0;
 }
 
-uint32_t energy_longitudinal_update(energy_longitudinal_guidance *state, const energy_longitudinal_commands *commands, const energy_longitudinal_gains *gains, double dt)
+uint32_t energy_longitudinal_advance_references(energy_longitudinal_references *state, const energy_longitudinal_targets *targets, const energy_longitudinal_gains *gains, double dt)
 {
     uint32_t status = 0u;
     if (dt > 0.0) {
         energy_longitudinal_gains g;
-        if (energy_longitudinal_gains_ok(gains)) {
+        if (energy_longitudinal_gains_in_set(gains)) {
             g = *gains;
         } else {
             status |= ENERGY_LONGITUDINAL_STATUS_GAINS_REJECTED;
@@ -211,9 +211,9 @@ uint32_t energy_longitudinal_update(energy_longitudinal_guidance *state, const e
             double r = state->h_r;
             if (!isfinite(r)) {
                 status |= ENERGY_LONGITUDINAL_STATUS_GUIDANCE_REPAIRED;
-                r = isnan(commands->h_cmd) ? 315.0 : energy_longitudinal_clamp(commands->h_cmd, 30.0, 600.0);
+                r = isnan(targets->h_cmd) ? 315.0 : energy_longitudinal_clamp(targets->h_cmd, 30.0, 600.0);
             }
-            const double c = isnan(commands->h_cmd) ? r : commands->h_cmd;
+            const double c = isnan(targets->h_cmd) ? r : targets->h_cmd;
             const double k = g.k_h;
             const double r_0 = c - r;
             const double r_1 = 0.0;
@@ -258,9 +258,9 @@ uint32_t energy_longitudinal_update(energy_longitudinal_guidance *state, const e
             double r = state->va_r;
             if (!isfinite(r)) {
                 status |= ENERGY_LONGITUDINAL_STATUS_GUIDANCE_REPAIRED;
-                r = isnan(commands->va_cmd) ? 22.5 : energy_longitudinal_clamp(commands->va_cmd, 15.0, 30.0);
+                r = isnan(targets->va_cmd) ? 22.5 : energy_longitudinal_clamp(targets->va_cmd, 15.0, 30.0);
             }
-            const double c = isnan(commands->va_cmd) ? r : commands->va_cmd;
+            const double c = isnan(targets->va_cmd) ? r : targets->va_cmd;
             const double k = g.k_v;
             const double r_0 = c - r;
             const double r_1 = 0.0;

@@ -17,9 +17,11 @@
 // Law `energy_longitudinal`: 26 arithmetic operations per step.
 #![allow(clippy::all, unused_mut, unused_variables, unused_assignments, non_snake_case)]
 
-/// Inputs of `step`: the states, references, their rates and the signals.
+/// What [`compute_commands`] reads each period: the measured states, the references
+/// and their rates, the signals.
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Inputs {
+#[repr(C)]
+pub struct Reading {
     ///State `h` [m].
     pub h: f64,
     ///State `va` [m/s].
@@ -39,6 +41,7 @@ pub struct Inputs {
 }
 /// Run-time gains.
 #[derive(Clone, Copy, Debug, PartialEq)]
+#[repr(C)]
 pub struct Gains {
     ///Gain `k_tot` [1/s], proved over [0.05, 0.5].
     pub k_tot: f64,
@@ -49,8 +52,8 @@ pub struct Gains {
     ///Gain `k_v` [1/s], proved over [0.1, 1].
     pub k_v: f64,
 }
-impl Inputs {
-    /// The field names, in the order of [`Inputs::from_array`].
+impl Reading {
+    /// The field names, in the order of [`Reading::from_array`].
     pub const NAMES: [&'static str; 8] = [
         "h",
         "va",
@@ -61,9 +64,9 @@ impl Inputs {
         "drag",
         "alpha",
     ];
-    /// The inputs from an array in the order of [`Inputs::NAMES`].
-    pub fn from_array(a: [f64; 8]) -> Inputs {
-        Inputs {
+    /// The reading from an array in the order of [`Reading::NAMES`].
+    pub fn from_array(a: [f64; 8]) -> Reading {
+        Reading {
             h: a[0],
             va: a[1],
             h_r: a[2],
@@ -76,7 +79,7 @@ impl Inputs {
     }
 }
 impl Gains {
-    /// The defaults of the spec; `step` falls back to them when the given gains leave
+    /// The defaults of the spec; [`compute_commands`] falls back to them when the given gains leave
     /// their proved ranges or constraints.
     pub const DEFAULT: Gains = Gains {
         k_tot: 0.25,
@@ -96,8 +99,8 @@ impl Gains {
         }
     }
 }
-impl Outputs {
-    /// The command names, in the order of [`Outputs::commands`].
+impl Commands {
+    /// The command names, in the order of [`Commands::commands`].
     pub const NAMES: [&'static str; 2] = ["pitch_cmd", "thrust_cmd"];
     /// The commands as an array.
     pub fn commands(&self) -> [f64; 2] {
@@ -109,9 +112,10 @@ impl Default for Gains {
         Gains::DEFAULT
     }
 }
-/// What `step` computes.
+/// What [`compute_commands`] sends: each actuator's command and what happened.
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Outputs {
+#[repr(C)]
+pub struct Commands {
     ///Command `pitch_cmd` [rad], saturated to [-0.35, 0.45].
     pub pitch_cmd: f64,
     ///Command `thrust_cmd` [N], saturated to [0, 45].
@@ -149,21 +153,22 @@ fn clamp_to(x: f64, lo: f64, hi: f64) -> f64 {
     if x < lo { lo } else if x > hi { hi } else { x }
 }
 /// Do the gains lie in their proved ranges and meet the constraints?
-pub fn gains_valid(g: &Gains) -> bool {
+pub fn check_gains(g: &Gains) -> bool {
     g.k_tot >= 0.05 && g.k_tot <= 0.5 && g.k_bal >= 0.05 && g.k_bal <= 0.5
         && g.k_h >= 0.1 && g.k_h <= 1.0 && g.k_v >= 0.1 && g.k_v <= 1.0
 }
-/// One step of the control law: the actuator commands, saturated to their limits.
-pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
+/// The control law once: the actuator commands from this period's reading, saturated
+/// to their limits.
+pub fn compute_commands(reading: &Reading, gains: &Gains) -> Commands {
     let mut status: u32 = 0u32;
-    let mut x0: f64 = inputs.h;
-    let mut x1: f64 = inputs.va;
-    let mut x2: f64 = inputs.h_r;
-    let mut x3: f64 = inputs.va_r;
-    let mut x4: f64 = inputs.hdot_r;
-    let mut x5: f64 = inputs.vadot_r;
-    let mut x6: f64 = inputs.drag;
-    let mut x7: f64 = inputs.alpha;
+    let mut x0: f64 = reading.h;
+    let mut x1: f64 = reading.va;
+    let mut x2: f64 = reading.h_r;
+    let mut x3: f64 = reading.va_r;
+    let mut x4: f64 = reading.hdot_r;
+    let mut x5: f64 = reading.vadot_r;
+    let mut x6: f64 = reading.drag;
+    let mut x7: f64 = reading.alpha;
     let r0: f64 = x2;
     let r1: f64 = x3;
     if !(x2 >= 30.0 && x2 <= 600.0) {
@@ -244,7 +249,7 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
     } else if x3 != r1 {
         x1 = x3 + e1;
     }
-    let g: Gains = if gains_valid(gains) {
+    let g: Gains = if check_gains(gains) {
         *gains
     } else {
         status |= STATUS_GAINS_REJECTED;
@@ -304,7 +309,7 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
         c1 = 45.0;
         limits |= LIMIT_THRUST_CMD_HIGH;
     }
-    Outputs {
+    Commands {
         pitch_cmd: c0,
         thrust_cmd: c1,
         limits,
@@ -312,11 +317,13 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
         status,
     }
 }
-/// The state of the guidance filters: each reference and its rate. Start it with
-/// [`Guidance::start`]. Each control period: [`step`] with the references and
-/// rates of this state among its inputs, then [`update`] over the period.
+/// The reference filters' state: each reference and its rate. Start it with
+/// [`References::start`]. Each control period: [`compute_commands`] with the
+/// references and rates of this state in its reading, then
+/// [`advance_references`] over the period.
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Guidance {
+#[repr(C)]
+pub struct References {
     ///Reference `h_r` [m].
     pub h_r: f64,
     ///Its rate `hdot_r`, limited to [-3, 3].
@@ -326,11 +333,11 @@ pub struct Guidance {
     ///Its rate `vadot_r`, limited to [-1, 1].
     pub vadot_r: f64,
 }
-impl Guidance {
+impl References {
     /// The filters at rest: each reference at its command in `at` (clamped into
     /// its proved range, a NaN at the range's midpoint), each rate zero.
-    pub fn start(at: &Commands) -> Guidance {
-        Guidance {
+    pub fn start(at: &Targets) -> References {
+        References {
             h_r: if at.h_cmd.is_nan() { 315.0 } else { clamp_to(at.h_cmd, 30.0, 600.0) },
             hdot_r: 0.0,
             va_r: if at.va_cmd.is_nan() {
@@ -341,34 +348,35 @@ impl Guidance {
             vadot_r: 0.0,
         }
     }
-    /// The field names, in the order of [`Guidance::from_array`].
+    /// The field names, in the order of [`References::from_array`].
     pub const NAMES: [&'static str; 4] = ["h_r", "hdot_r", "va_r", "vadot_r"];
-    /// The state from an array in the order of [`Guidance::NAMES`].
-    pub fn from_array(a: [f64; 4]) -> Guidance {
-        Guidance {
+    /// The state from an array in the order of [`References::NAMES`].
+    pub fn from_array(a: [f64; 4]) -> References {
+        References {
             h_r: a[0],
             hdot_r: a[1],
             va_r: a[2],
             vadot_r: a[3],
         }
     }
-    /// The state as an array in the order of [`Guidance::NAMES`].
+    /// The state as an array in the order of [`References::NAMES`].
     pub fn to_array(&self) -> [f64; 4] {
         [self.h_r, self.hdot_r, self.va_r, self.vadot_r]
     }
 }
-/// What the guidance filters follow.
+/// What the reference filters follow: each filter's command.
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Commands {
+#[repr(C)]
+pub struct Targets {
     pub h_cmd: f64,
     pub va_cmd: f64,
 }
-impl Commands {
-    /// The field names, in the order of [`Commands::from_array`].
+impl Targets {
+    /// The field names, in the order of [`Targets::from_array`].
     pub const NAMES: [&'static str; 2] = ["h_cmd", "va_cmd"];
-    /// The commands from an array in the order of [`Commands::NAMES`].
-    pub fn from_array(a: [f64; 2]) -> Commands {
-        Commands {
+    /// The targets from an array in the order of [`Targets::NAMES`].
+    pub fn from_array(a: [f64; 2]) -> Targets {
+        Targets {
             h_cmd: a[0],
             va_cmd: a[1],
         }
@@ -378,14 +386,19 @@ impl Commands {
 /// exact solution of `ṙ = clamp(k·(c − r), lo, hi)` for a constant command. A NaN
 /// command holds its reference; gains outside their proved set are replaced by the
 /// defaults; a `dt` that is not positive changes nothing. A reference that is not
-/// finite restarts at rest at its command (as [`Guidance::start`]). Returns the
+/// finite restarts at rest at its command (as [`References::start`]). Returns the
 /// `STATUS_*` bits of what it repaired: `GUIDANCE_REPAIRED`, `GAINS_REJECTED`.
-pub fn update(state: &mut Guidance, commands: &Commands, gains: &Gains, dt: f64) -> u32 {
+pub fn advance_references(
+    state: &mut References,
+    targets: &Targets,
+    gains: &Gains,
+    dt: f64,
+) -> u32 {
     let mut status: u32 = 0;
     if !(dt > 0.0) {
         return status;
     }
-    let g: Gains = if gains_valid(gains) {
+    let g: Gains = if check_gains(gains) {
         *gains
     } else {
         status |= STATUS_GAINS_REJECTED;
@@ -395,13 +408,13 @@ pub fn update(state: &mut Guidance, commands: &Commands, gains: &Gains, dt: f64)
         let mut r: f64 = state.h_r;
         if !r.is_finite() {
             status |= STATUS_GUIDANCE_REPAIRED;
-            r = if commands.h_cmd.is_nan() {
+            r = if targets.h_cmd.is_nan() {
                 315.0
             } else {
-                clamp_to(commands.h_cmd, 30.0, 600.0)
+                clamp_to(targets.h_cmd, 30.0, 600.0)
             };
         }
-        let c: f64 = if commands.h_cmd.is_nan() { r } else { commands.h_cmd };
+        let c: f64 = if targets.h_cmd.is_nan() { r } else { targets.h_cmd };
         let k: f64 = g.k_h;
         let r_0: f64 = c - r;
         let r_1: f64 = 0.0;
@@ -446,13 +459,13 @@ pub fn update(state: &mut Guidance, commands: &Commands, gains: &Gains, dt: f64)
         let mut r: f64 = state.va_r;
         if !r.is_finite() {
             status |= STATUS_GUIDANCE_REPAIRED;
-            r = if commands.va_cmd.is_nan() {
+            r = if targets.va_cmd.is_nan() {
                 22.5
             } else {
-                clamp_to(commands.va_cmd, 15.0, 30.0)
+                clamp_to(targets.va_cmd, 15.0, 30.0)
             };
         }
-        let c: f64 = if commands.va_cmd.is_nan() { r } else { commands.va_cmd };
+        let c: f64 = if targets.va_cmd.is_nan() { r } else { targets.va_cmd };
         let k: f64 = g.k_v;
         let r_0: f64 = c - r;
         let r_1: f64 = 0.0;

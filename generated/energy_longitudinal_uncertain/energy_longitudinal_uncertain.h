@@ -27,7 +27,8 @@ extern "C" {
 
 /* Law `energy_longitudinal_uncertain`: 26 arithmetic operations per step. */
 
-/* Inputs of energy_longitudinal_uncertain_step: the states, references, their rates and the signals. */
+/* What energy_longitudinal_uncertain_compute_commands reads each period: the measured states, the references
+   and their rates, the signals. */
 typedef struct {
     double h; /* state [m] */
     double va; /* state [m/s] */
@@ -37,7 +38,7 @@ typedef struct {
     double vadot_r; /* [(m/s)/s], proved over [-1, 1] */
     double drag; /* [N], proved over [4, 16] */
     double alpha; /* [rad], proved over [-0.05, 0.2] */
-} energy_longitudinal_uncertain_inputs;
+} energy_longitudinal_uncertain_reading;
 
 /* Run-time gains. */
 typedef struct {
@@ -47,7 +48,7 @@ typedef struct {
     double k_v; /* [1/s], proved over [0.1, 1], default 0.5 */
 } energy_longitudinal_uncertain_gains;
 
-/* What energy_longitudinal_uncertain_step computes. */
+/* What energy_longitudinal_uncertain_compute_commands sends: each actuator's command and what happened. */
 typedef struct {
     double pitch_cmd; /* [rad], saturated to [-0.35, 0.45] */
     double thrust_cmd; /* [N], saturated to [0, 45] */
@@ -59,7 +60,7 @@ typedef struct {
                     input at its range's midpoint or at zero error), with the default
                     gains; any bit of status */
     uint32_t status; /* what was repaired: the ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_* bits */
-} energy_longitudinal_uncertain_outputs;
+} energy_longitudinal_uncertain_commands;
 
 #define ENERGY_LONGITUDINAL_UNCERTAIN_LIMIT_PITCH_CMD_LOW (UINT32_C(1) << 0)
 #define ENERGY_LONGITUDINAL_UNCERTAIN_LIMIT_PITCH_CMD_HIGH (UINT32_C(1) << 1)
@@ -75,38 +76,39 @@ typedef struct {
 energy_longitudinal_uncertain_gains energy_longitudinal_uncertain_default_gains(void);
 
 /* Do the gains lie in their proved ranges and meet the constraints? */
-bool energy_longitudinal_uncertain_gains_valid(const energy_longitudinal_uncertain_gains *g);
+bool energy_longitudinal_uncertain_check_gains(const energy_longitudinal_uncertain_gains *g);
 
-/* One step of the control law: the actuator commands, saturated to their limits. */
-void energy_longitudinal_uncertain_step(const energy_longitudinal_uncertain_inputs *in, const energy_longitudinal_uncertain_gains *gains, energy_longitudinal_uncertain_outputs *out);
+/* The control law once: the actuator commands from this period's reading, saturated to
+   their limits. */
+void energy_longitudinal_uncertain_compute_commands(const energy_longitudinal_uncertain_reading *in, const energy_longitudinal_uncertain_gains *gains, energy_longitudinal_uncertain_commands *out);
 
-/* The state of the guidance filters: each reference and its rate. Start it with
-   energy_longitudinal_uncertain_guidance_init. Each control period: energy_longitudinal_uncertain_step with the references and rates of
-   this state among its inputs, then energy_longitudinal_uncertain_update over the period. */
+/* The reference filters' state: each reference and its rate. Start it with
+   energy_longitudinal_uncertain_start_references. Each control period: energy_longitudinal_uncertain_compute_commands with the references
+   and rates of this state in its reading, then energy_longitudinal_uncertain_advance_references over the period. */
 typedef struct {
     double h_r; /* [m] */
     double hdot_r; /* limited to [-3, 3] */
     double va_r; /* [m/s] */
     double vadot_r; /* limited to [-1, 1] */
-} energy_longitudinal_uncertain_guidance;
+} energy_longitudinal_uncertain_references;
 
-/* What the guidance filters follow. */
+/* What the reference filters follow: each filter's command. */
 typedef struct {
     double h_cmd;
     double va_cmd;
-} energy_longitudinal_uncertain_commands;
+} energy_longitudinal_uncertain_targets;
 
-/* Starts the guidance filters at rest: each reference at its command in start
+/* Starts the reference filters at rest: each reference at its command in start
    (clamped into its proved range, a NaN at the range's midpoint), each rate zero. */
-void energy_longitudinal_uncertain_guidance_init(energy_longitudinal_uncertain_guidance *state, const energy_longitudinal_uncertain_commands *start);
+void energy_longitudinal_uncertain_start_references(energy_longitudinal_uncertain_references *state, const energy_longitudinal_uncertain_targets *start);
 
 /* Advances every reference filter over dt seconds towards its command: the exact
    solution of r' = clamp(k*(c - r), lo, hi) for a constant command. A NaN command
    holds its reference; gains outside their proved set are replaced by the defaults;
    a dt that is not positive changes nothing. A reference that is not finite restarts
-   at rest at its command (as energy_longitudinal_uncertain_guidance_init). Returns the ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_* bits of what
+   at rest at its command (as energy_longitudinal_uncertain_start_references). Returns the ENERGY_LONGITUDINAL_UNCERTAIN_STATUS_* bits of what
    it repaired: GUIDANCE_REPAIRED, GAINS_REJECTED. */
-uint32_t energy_longitudinal_uncertain_update(energy_longitudinal_uncertain_guidance *state, const energy_longitudinal_uncertain_commands *commands, const energy_longitudinal_uncertain_gains *gains, double dt);
+uint32_t energy_longitudinal_uncertain_advance_references(energy_longitudinal_uncertain_references *state, const energy_longitudinal_uncertain_targets *targets, const energy_longitudinal_uncertain_gains *gains, double dt);
 
 #ifdef __cplusplus
 }

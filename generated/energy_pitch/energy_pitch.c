@@ -38,7 +38,7 @@ energy_pitch_gains energy_pitch_default_gains(void)
     return g;
 }
 
-static inline bool energy_pitch_gains_ok(const energy_pitch_gains *g)
+static inline bool energy_pitch_gains_in_set(const energy_pitch_gains *g)
 {
     const double c0_0 = g->k_tot - g->k_bal;
     return (g->k_tot >= 0.05) && (g->k_tot <= 0.4)
@@ -48,12 +48,12 @@ static inline bool energy_pitch_gains_ok(const energy_pitch_gains *g)
         && (c0_0 < 0.0);
 }
 
-bool energy_pitch_gains_valid(const energy_pitch_gains *g)
+bool energy_pitch_check_gains(const energy_pitch_gains *g)
 {
-    return energy_pitch_gains_ok(g);
+    return energy_pitch_gains_in_set(g);
 }
 
-void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *gains, energy_pitch_outputs *out)
+void energy_pitch_compute_commands(const energy_pitch_reading *in, const energy_pitch_gains *gains, energy_pitch_commands *out)
 {
     uint32_t status = 0u;
     uint32_t limits = 0u;
@@ -114,7 +114,7 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
             /* inside the envelope: the state as measured */
         }
     }
-    if (energy_pitch_gains_ok(gains)) {
+    if (energy_pitch_gains_in_set(gains)) {
         g = *gains;
     } else {
         status |= ENERGY_PITCH_STATUS_GAINS_REJECTED;
@@ -192,7 +192,7 @@ void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *
     out->status = status;
 }
 
-void energy_pitch_guidance_init(energy_pitch_guidance *state, const energy_pitch_commands *start)
+void energy_pitch_start_references(energy_pitch_references *state, const energy_pitch_targets *start)
 {
     state->h_r = isnan(start->h_cmd) ? 315.0 : energy_pitch_clamp(start->h_cmd, 30.0, 600.0);
     state->hdot_r = 0.0;
@@ -200,12 +200,12 @@ void energy_pitch_guidance_init(energy_pitch_guidance *state, const energy_pitch
     state->vadot_r = 0.0;
 }
 
-uint32_t energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_commands *commands, const energy_pitch_gains *gains, double dt)
+uint32_t energy_pitch_advance_references(energy_pitch_references *state, const energy_pitch_targets *targets, const energy_pitch_gains *gains, double dt)
 {
     uint32_t status = 0u;
     if (dt > 0.0) {
         energy_pitch_gains g;
-        if (energy_pitch_gains_ok(gains)) {
+        if (energy_pitch_gains_in_set(gains)) {
             g = *gains;
         } else {
             status |= ENERGY_PITCH_STATUS_GAINS_REJECTED;
@@ -215,9 +215,9 @@ uint32_t energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_co
             double r = state->h_r;
             if (!isfinite(r)) {
                 status |= ENERGY_PITCH_STATUS_GUIDANCE_REPAIRED;
-                r = isnan(commands->h_cmd) ? 315.0 : energy_pitch_clamp(commands->h_cmd, 30.0, 600.0);
+                r = isnan(targets->h_cmd) ? 315.0 : energy_pitch_clamp(targets->h_cmd, 30.0, 600.0);
             }
-            const double c = isnan(commands->h_cmd) ? r : commands->h_cmd;
+            const double c = isnan(targets->h_cmd) ? r : targets->h_cmd;
             const double k = g.k_h;
             const double r_0 = c - r;
             const double r_1 = 0.0;
@@ -262,9 +262,9 @@ uint32_t energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_co
             double r = state->va_r;
             if (!isfinite(r)) {
                 status |= ENERGY_PITCH_STATUS_GUIDANCE_REPAIRED;
-                r = isnan(commands->va_cmd) ? 23.0 : energy_pitch_clamp(commands->va_cmd, 16.0, 30.0);
+                r = isnan(targets->va_cmd) ? 23.0 : energy_pitch_clamp(targets->va_cmd, 16.0, 30.0);
             }
-            const double c = isnan(commands->va_cmd) ? r : commands->va_cmd;
+            const double c = isnan(targets->va_cmd) ? r : targets->va_cmd;
             const double k = g.k_v;
             const double r_0 = c - r;
             const double r_1 = 0.0;

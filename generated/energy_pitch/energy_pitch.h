@@ -27,7 +27,8 @@ extern "C" {
 
 /* Law `energy_pitch`: 28 arithmetic operations per step. */
 
-/* Inputs of energy_pitch_step: the states, references, their rates and the signals. */
+/* What energy_pitch_compute_commands reads each period: the measured states, the references
+   and their rates, the signals. */
 typedef struct {
     double h; /* state [m] */
     double va; /* state [m/s] */
@@ -37,7 +38,7 @@ typedef struct {
     double vadot_r; /* [(m/s)/s], proved over [-0.8, 0.8] */
     double drag; /* [N], proved over [1, 25] */
     double alpha; /* [rad], proved over [-0.05, 0.2] */
-} energy_pitch_inputs;
+} energy_pitch_reading;
 
 /* Run-time gains. */
 typedef struct {
@@ -47,7 +48,7 @@ typedef struct {
     double k_v; /* [1/s], proved over [0.1, 1], default 0.5 */
 } energy_pitch_gains;
 
-/* What energy_pitch_step computes. */
+/* What energy_pitch_compute_commands sends: each actuator's command and what happened. */
 typedef struct {
     double pitch_cmd; /* [rad], saturated to [-0.35, 0.45] */
     double thrust_cmd; /* [N], saturated to [0, 45] */
@@ -59,7 +60,7 @@ typedef struct {
                     input at its range's midpoint or at zero error), with the default
                     gains; any bit of status */
     uint32_t status; /* what was repaired: the ENERGY_PITCH_STATUS_* bits */
-} energy_pitch_outputs;
+} energy_pitch_commands;
 
 #define ENERGY_PITCH_LIMIT_PITCH_CMD_LOW (UINT32_C(1) << 0)
 #define ENERGY_PITCH_LIMIT_PITCH_CMD_HIGH (UINT32_C(1) << 1)
@@ -75,38 +76,39 @@ typedef struct {
 energy_pitch_gains energy_pitch_default_gains(void);
 
 /* Do the gains lie in their proved ranges and meet the constraints? */
-bool energy_pitch_gains_valid(const energy_pitch_gains *g);
+bool energy_pitch_check_gains(const energy_pitch_gains *g);
 
-/* One step of the control law: the actuator commands, saturated to their limits. */
-void energy_pitch_step(const energy_pitch_inputs *in, const energy_pitch_gains *gains, energy_pitch_outputs *out);
+/* The control law once: the actuator commands from this period's reading, saturated to
+   their limits. */
+void energy_pitch_compute_commands(const energy_pitch_reading *in, const energy_pitch_gains *gains, energy_pitch_commands *out);
 
-/* The state of the guidance filters: each reference and its rate. Start it with
-   energy_pitch_guidance_init. Each control period: energy_pitch_step with the references and rates of
-   this state among its inputs, then energy_pitch_update over the period. */
+/* The reference filters' state: each reference and its rate. Start it with
+   energy_pitch_start_references. Each control period: energy_pitch_compute_commands with the references
+   and rates of this state in its reading, then energy_pitch_advance_references over the period. */
 typedef struct {
     double h_r; /* [m] */
     double hdot_r; /* limited to [-2.5, 2.5] */
     double va_r; /* [m/s] */
     double vadot_r; /* limited to [-0.8, 0.8] */
-} energy_pitch_guidance;
+} energy_pitch_references;
 
-/* What the guidance filters follow. */
+/* What the reference filters follow: each filter's command. */
 typedef struct {
     double h_cmd;
     double va_cmd;
-} energy_pitch_commands;
+} energy_pitch_targets;
 
-/* Starts the guidance filters at rest: each reference at its command in start
+/* Starts the reference filters at rest: each reference at its command in start
    (clamped into its proved range, a NaN at the range's midpoint), each rate zero. */
-void energy_pitch_guidance_init(energy_pitch_guidance *state, const energy_pitch_commands *start);
+void energy_pitch_start_references(energy_pitch_references *state, const energy_pitch_targets *start);
 
 /* Advances every reference filter over dt seconds towards its command: the exact
    solution of r' = clamp(k*(c - r), lo, hi) for a constant command. A NaN command
    holds its reference; gains outside their proved set are replaced by the defaults;
    a dt that is not positive changes nothing. A reference that is not finite restarts
-   at rest at its command (as energy_pitch_guidance_init). Returns the ENERGY_PITCH_STATUS_* bits of what
+   at rest at its command (as energy_pitch_start_references). Returns the ENERGY_PITCH_STATUS_* bits of what
    it repaired: GUIDANCE_REPAIRED, GAINS_REJECTED. */
-uint32_t energy_pitch_update(energy_pitch_guidance *state, const energy_pitch_commands *commands, const energy_pitch_gains *gains, double dt);
+uint32_t energy_pitch_advance_references(energy_pitch_references *state, const energy_pitch_targets *targets, const energy_pitch_gains *gains, double dt);
 
 #ifdef __cplusplus
 }

@@ -35,17 +35,17 @@ pendulum_damping_gains pendulum_damping_default_gains(void)
     return g;
 }
 
-static inline bool pendulum_damping_gains_ok(const pendulum_damping_gains *g)
+static inline bool pendulum_damping_gains_in_set(const pendulum_damping_gains *g)
 {
     return (g->k_d >= 0.01) && (g->k_d <= 0.5);
 }
 
-bool pendulum_damping_gains_valid(const pendulum_damping_gains *g)
+bool pendulum_damping_check_gains(const pendulum_damping_gains *g)
 {
-    return pendulum_damping_gains_ok(g);
+    return pendulum_damping_gains_in_set(g);
 }
 
-void pendulum_damping_step(const pendulum_damping_inputs *in, const pendulum_damping_gains *gains, pendulum_damping_outputs *out)
+void pendulum_damping_compute_commands(const pendulum_damping_reading *in, const pendulum_damping_gains *gains, pendulum_damping_commands *out)
 {
     uint32_t status = 0u;
     uint32_t limits = 0u;
@@ -65,7 +65,7 @@ void pendulum_damping_step(const pendulum_damping_inputs *in, const pendulum_dam
             x1 = 0.0 + (isnan(e1) ? 0.0 : pendulum_damping_clamp(e1, -4.0, 4.0));
         }
     }
-    if (pendulum_damping_gains_ok(gains)) {
+    if (pendulum_damping_gains_in_set(gains)) {
         g = *gains;
     } else {
         status |= PENDULUM_DAMPING_STATUS_GAINS_REJECTED;

@@ -27,18 +27,19 @@ extern "C" {
 
 /* Law `pendulum_damping`: 2 arithmetic operations per step. */
 
-/* Inputs of pendulum_damping_step: the states, references, their rates and the signals. */
+/* What pendulum_damping_compute_commands reads each period: the measured states, the references
+   and their rates, the signals. */
 typedef struct {
     double phi; /* state [rad] */
     double omega; /* state [1/s] */
-} pendulum_damping_inputs;
+} pendulum_damping_reading;
 
 /* Run-time gains. */
 typedef struct {
     double k_d; /* [N*m*s], proved over [0.01, 0.5], default 0.1 */
 } pendulum_damping_gains;
 
-/* What pendulum_damping_step computes. */
+/* What pendulum_damping_compute_commands sends: each actuator's command and what happened. */
 typedef struct {
     double torque_cmd; /* [N*m], saturated to [-2, 2] */
     uint32_t limits; /* limits hit: the PENDULUM_DAMPING_LIMIT_* bits */
@@ -49,7 +50,7 @@ typedef struct {
                     input at its range's midpoint or at zero error), with the default
                     gains; any bit of status */
     uint32_t status; /* what was repaired: the PENDULUM_DAMPING_STATUS_* bits */
-} pendulum_damping_outputs;
+} pendulum_damping_commands;
 
 #define PENDULUM_DAMPING_LIMIT_TORQUE_CMD_LOW (UINT32_C(1) << 0)
 #define PENDULUM_DAMPING_LIMIT_TORQUE_CMD_HIGH (UINT32_C(1) << 1)
@@ -62,10 +63,11 @@ typedef struct {
 pendulum_damping_gains pendulum_damping_default_gains(void);
 
 /* Do the gains lie in their proved ranges and meet the constraints? */
-bool pendulum_damping_gains_valid(const pendulum_damping_gains *g);
+bool pendulum_damping_check_gains(const pendulum_damping_gains *g);
 
-/* One step of the control law: the actuator commands, saturated to their limits. */
-void pendulum_damping_step(const pendulum_damping_inputs *in, const pendulum_damping_gains *gains, pendulum_damping_outputs *out);
+/* The control law once: the actuator commands from this period's reading, saturated to
+   their limits. */
+void pendulum_damping_compute_commands(const pendulum_damping_reading *in, const pendulum_damping_gains *gains, pendulum_damping_commands *out);
 
 #ifdef __cplusplus
 }

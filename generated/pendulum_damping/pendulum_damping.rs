@@ -17,9 +17,11 @@
 // Law `pendulum_damping`: 2 arithmetic operations per step.
 #![allow(clippy::all, unused_mut, unused_variables, unused_assignments, non_snake_case)]
 
-/// Inputs of `step`: the states, references, their rates and the signals.
+/// What [`compute_commands`] reads each period: the measured states, the references
+/// and their rates, the signals.
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Inputs {
+#[repr(C)]
+pub struct Reading {
     ///State `phi` [rad].
     pub phi: f64,
     ///State `omega` [1/s].
@@ -27,20 +29,21 @@ pub struct Inputs {
 }
 /// Run-time gains.
 #[derive(Clone, Copy, Debug, PartialEq)]
+#[repr(C)]
 pub struct Gains {
     ///Gain `k_d` [N*m*s], proved over [0.01, 0.5].
     pub k_d: f64,
 }
-impl Inputs {
-    /// The field names, in the order of [`Inputs::from_array`].
+impl Reading {
+    /// The field names, in the order of [`Reading::from_array`].
     pub const NAMES: [&'static str; 2] = ["phi", "omega"];
-    /// The inputs from an array in the order of [`Inputs::NAMES`].
-    pub fn from_array(a: [f64; 2]) -> Inputs {
-        Inputs { phi: a[0], omega: a[1] }
+    /// The reading from an array in the order of [`Reading::NAMES`].
+    pub fn from_array(a: [f64; 2]) -> Reading {
+        Reading { phi: a[0], omega: a[1] }
     }
 }
 impl Gains {
-    /// The defaults of the spec; `step` falls back to them when the given gains leave
+    /// The defaults of the spec; [`compute_commands`] falls back to them when the given gains leave
     /// their proved ranges or constraints.
     pub const DEFAULT: Gains = Gains { k_d: 0.1 };
     /// The field names, in the order of [`Gains::from_array`].
@@ -50,8 +53,8 @@ impl Gains {
         Gains { k_d: a[0] }
     }
 }
-impl Outputs {
-    /// The command names, in the order of [`Outputs::commands`].
+impl Commands {
+    /// The command names, in the order of [`Commands::commands`].
     pub const NAMES: [&'static str; 1] = ["torque_cmd"];
     /// The commands as an array.
     pub fn commands(&self) -> [f64; 1] {
@@ -63,9 +66,10 @@ impl Default for Gains {
         Gains::DEFAULT
     }
 }
-/// What `step` computes.
+/// What [`compute_commands`] sends: each actuator's command and what happened.
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Outputs {
+#[repr(C)]
+pub struct Commands {
     ///Command `torque_cmd` [N*m], saturated to [-2, 2].
     pub torque_cmd: f64,
     /// Limits hit: the `LIMIT_*` bits.
@@ -97,14 +101,15 @@ fn clamp_to(x: f64, lo: f64, hi: f64) -> f64 {
     if x < lo { lo } else if x > hi { hi } else { x }
 }
 /// Do the gains lie in their proved ranges and meet the constraints?
-pub fn gains_valid(g: &Gains) -> bool {
+pub fn check_gains(g: &Gains) -> bool {
     g.k_d >= 0.01 && g.k_d <= 0.5
 }
-/// One step of the control law: the actuator commands, saturated to their limits.
-pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
+/// The control law once: the actuator commands from this period's reading, saturated
+/// to their limits.
+pub fn compute_commands(reading: &Reading, gains: &Gains) -> Commands {
     let mut status: u32 = 0u32;
-    let mut x0: f64 = inputs.phi;
-    let mut x1: f64 = inputs.omega;
+    let mut x0: f64 = reading.phi;
+    let mut x1: f64 = reading.omega;
     let e0 = x0 - 0.0;
     if !(e0 >= -1.2 && e0 <= 1.2) {
         status
@@ -125,7 +130,7 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
             };
         x1 = 0.0 + if e1.is_nan() { 0.0 } else { clamp_to(e1, -4.0, 4.0) };
     }
-    let g: Gains = if gains_valid(gains) {
+    let g: Gains = if check_gains(gains) {
         *gains
     } else {
         status |= STATUS_GAINS_REJECTED;
@@ -146,7 +151,7 @@ pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
         c0 = 2.0;
         limits |= LIMIT_TORQUE_CMD_HIGH;
     }
-    Outputs {
+    Commands {
         torque_cmd: c0,
         limits,
         domain: status != 0u32,

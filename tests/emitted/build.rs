@@ -15,7 +15,7 @@ fn main() {
             if file.exists() {
                 println!("cargo:rerun-if-changed={}", file.display());
                 let text = std::fs::read_to_string(&file).unwrap_or_default();
-                specs.push((name, file, text.contains("pub fn update(")));
+                specs.push((name, file, text.contains("pub fn advance_references(")));
             }
         }
     }
@@ -37,15 +37,15 @@ fn main() {
             .collect::<Vec<_>>()
             .join(", ")
     );
-    let _ = writeln!(out, "/// One `step` of spec `name`'s generated code: commands, limit bits, domain flag, status bits.\npub fn step(name: &str, inputs: &[f64], gains: &[f64]) -> Option<(Vec<f64>, u32, bool, u32)> {{\n    match name {{");
+    let _ = writeln!(out, "/// One `compute_commands` of spec `name`'s generated code: commands, limit bits, domain flag, status bits.\npub fn step(name: &str, inputs: &[f64], gains: &[f64]) -> Option<(Vec<f64>, u32, bool, u32)> {{\n    match name {{");
     for (name, _, _) in &specs {
-        let _ = writeln!(out, "        {name:?} => {{\n            let o = {name}::step(&{name}::Inputs::from_array(inputs.try_into().ok()?), &{name}::Gains::from_array(gains.try_into().ok()?));\n            Some((o.commands().to_vec(), o.limits, o.domain, o.status))\n        }}");
+        let _ = writeln!(out, "        {name:?} => {{\n            let o = {name}::compute_commands(&{name}::Reading::from_array(inputs.try_into().ok()?), &{name}::Gains::from_array(gains.try_into().ok()?));\n            Some((o.commands().to_vec(), o.limits, o.domain, o.status))\n        }}");
     }
     let _ = writeln!(out, "        _ => None,\n    }}\n}}");
-    let _ = writeln!(out, "/// One guidance `update` of spec `name`: the state as [reference, rate, …]; the status bits.\npub fn update(name: &str, state: &mut [f64], commands: &[f64], gains: &[f64], dt: f64) -> Option<u32> {{\n    match name {{");
+    let _ = writeln!(out, "/// One `advance_references` of spec `name`: the state as [reference, rate, …]; the status bits.\npub fn update(name: &str, state: &mut [f64], commands: &[f64], gains: &[f64], dt: f64) -> Option<u32> {{\n    match name {{");
     for (name, _, has) in &specs {
         if *has {
-            let _ = writeln!(out, "        {name:?} => {{\n            let mut s = {name}::Guidance::from_array((&*state).try_into().ok()?);\n            let status = {name}::update(&mut s, &{name}::Commands::from_array(commands.try_into().ok()?), &{name}::Gains::from_array(gains.try_into().ok()?), dt);\n            state.copy_from_slice(&s.to_array());\n            Some(status)\n        }}");
+            let _ = writeln!(out, "        {name:?} => {{\n            let mut s = {name}::References::from_array((&*state).try_into().ok()?);\n            let status = {name}::advance_references(&mut s, &{name}::Targets::from_array(commands.try_into().ok()?), &{name}::Gains::from_array(gains.try_into().ok()?), dt);\n            state.copy_from_slice(&s.to_array());\n            Some(status)\n        }}");
         }
     }
     let _ = writeln!(out, "        _ => None,\n    }}\n}}");

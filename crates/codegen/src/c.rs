@@ -151,7 +151,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     );
     let _ = writeln!(
         h,
-        "/* Inputs of {p}_step: the states, references, their rates and the signals. */"
+        "/* What {p}_compute_commands reads each period: the measured states, the references\n   and their rates, the signals. */"
     );
     let _ = writeln!(h, "typedef struct {{");
     for s in &c.states {
@@ -164,7 +164,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             r.name, r.unit, r.range.0, r.range.1
         );
     }
-    let _ = writeln!(h, "}} {p}_inputs;\n");
+    let _ = writeln!(h, "}} {p}_reading;\n");
     let _ = writeln!(h, "/* Run-time gains. */\ntypedef struct {{");
     for g in &c.gains {
         let _ = writeln!(
@@ -174,7 +174,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         );
     }
     let _ = writeln!(h, "}} {p}_gains;\n");
-    let _ = writeln!(h, "/* What {p}_step computes. */\ntypedef struct {{");
+    let _ = writeln!(h, "/* What {p}_compute_commands sends: each actuator's command and what happened. */\ntypedef struct {{");
     for a in &c.actuators {
         let _ = writeln!(
             h,
@@ -191,7 +191,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         h,
         "    uint32_t status; /* what was repaired: the {up}_STATUS_* bits */"
     );
-    let _ = writeln!(h, "}} {p}_outputs;\n");
+    let _ = writeln!(h, "}} {p}_commands;\n");
     for (i, a) in c.actuators.iter().enumerate() {
         let n = a.name.to_uppercase();
         let _ = writeln!(h, "#define {up}_LIMIT_{n}_LOW (UINT32_C(1) << {})", 2 * i);
@@ -212,10 +212,10 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     }
     let _ = writeln!(h);
     let _ = writeln!(h, "/* The spec's default gains; the generated code falls back to them. */\n{p}_gains {p}_default_gains(void);\n");
-    let _ = writeln!(h, "/* Do the gains lie in their proved ranges and meet the constraints? */\nbool {p}_gains_valid(const {p}_gains *g);\n");
-    let _ = writeln!(h, "/* One step of the control law: the actuator commands, saturated to their limits. */\nvoid {p}_step(const {p}_inputs *in, const {p}_gains *gains, {p}_outputs *out);\n");
+    let _ = writeln!(h, "/* Do the gains lie in their proved ranges and meet the constraints? */\nbool {p}_check_gains(const {p}_gains *g);\n");
+    let _ = writeln!(h, "/* The control law once: the actuator commands from this period's reading, saturated to\n   their limits. */\nvoid {p}_compute_commands(const {p}_reading *in, const {p}_gains *gains, {p}_commands *out);\n");
     if !c.filters.is_empty() {
-        let _ = writeln!(h, "/* The state of the guidance filters: each reference and its rate. Start it with\n   {p}_guidance_init. Each control period: {p}_step with the references and rates of\n   this state among its inputs, then {p}_update over the period. */\ntypedef struct {{");
+        let _ = writeln!(h, "/* The reference filters' state: each reference and its rate. Start it with\n   {p}_start_references. Each control period: {p}_compute_commands with the references\n   and rates of this state in its reading, then {p}_advance_references over the period. */\ntypedef struct {{");
         for f in &c.filters {
             let r = &c.references[f.reference];
             let _ = writeln!(h, "    {ty} {}; /* [{}] */", r.name, r.unit);
@@ -225,17 +225,17 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
                 f.rate, f.rate_limit.0, f.rate_limit.1
             );
         }
-        let _ = writeln!(h, "}} {p}_guidance;\n");
+        let _ = writeln!(h, "}} {p}_references;\n");
         let _ = writeln!(
             h,
-            "/* What the guidance filters follow. */\ntypedef struct {{"
+            "/* What the reference filters follow: each filter's command. */\ntypedef struct {{"
         );
         for f in &c.filters {
             let _ = writeln!(h, "    {ty} {};", f.command);
         }
-        let _ = writeln!(h, "}} {p}_commands;\n");
-        let _ = writeln!(h, "/* Starts the guidance filters at rest: each reference at its command in start\n   (clamped into its proved range, a NaN at the range's midpoint), each rate zero. */\nvoid {p}_guidance_init({p}_guidance *state, const {p}_commands *start);\n");
-        let _ = writeln!(h, "/* Advances every reference filter over dt seconds towards its command: the exact\n   solution of r' = clamp(k*(c - r), lo, hi) for a constant command. A NaN command\n   holds its reference; gains outside their proved set are replaced by the defaults;\n   a dt that is not positive changes nothing. A reference that is not finite restarts\n   at rest at its command (as {p}_guidance_init). Returns the {up}_STATUS_* bits of what\n   it repaired: GUIDANCE_REPAIRED, GAINS_REJECTED. */\nuint32_t {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt);\n");
+        let _ = writeln!(h, "}} {p}_targets;\n");
+        let _ = writeln!(h, "/* Starts the reference filters at rest: each reference at its command in start\n   (clamped into its proved range, a NaN at the range's midpoint), each rate zero. */\nvoid {p}_start_references({p}_references *state, const {p}_targets *start);\n");
+        let _ = writeln!(h, "/* Advances every reference filter over dt seconds towards its command: the exact\n   solution of r' = clamp(k*(c - r), lo, hi) for a constant command. A NaN command\n   holds its reference; gains outside their proved set are replaced by the defaults;\n   a dt that is not positive changes nothing. A reference that is not finite restarts\n   at rest at its command (as {p}_start_references). Returns the {up}_STATUS_* bits of what\n   it repaired: GUIDANCE_REPAIRED, GAINS_REJECTED. */\nuint32_t {p}_advance_references({p}_references *state, const {p}_targets *targets, const {p}_gains *gains, {ty} dt);\n");
     }
     let _ = writeln!(h, "#ifdef __cplusplus\n}}\n#endif\n\n#endif /* {guard} */");
 
@@ -250,8 +250,11 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         let _ = writeln!(s, "    g.{} = {};", g.name, e.lit(g.default));
     }
     let _ = writeln!(s, "    return g;\n}}\n");
-    // static, so step and update inline it; the public function calls it
-    let _ = writeln!(s, "static inline bool {p}_gains_ok(const {p}_gains *g)\n{{");
+    // static, so compute_commands and advance_references inline it; the public function calls it
+    let _ = writeln!(
+        s,
+        "static inline bool {p}_gains_in_set(const {p}_gains *g)\n{{"
+    );
     let (cprog, strict) = &c.constraints;
     let couts = e.program(
         cprog,
@@ -287,12 +290,12 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     let _ = writeln!(s, "    return {expr};\n}}\n");
     let _ = writeln!(
         s,
-        "bool {p}_gains_valid(const {p}_gains *g)\n{{\n    return {p}_gains_ok(g);\n}}\n"
+        "bool {p}_check_gains(const {p}_gains *g)\n{{\n    return {p}_gains_in_set(g);\n}}\n"
     );
 
     let _ = writeln!(
         s,
-        "void {p}_step(const {p}_inputs *in, const {p}_gains *gains, {p}_outputs *out)\n{{"
+        "void {p}_compute_commands(const {p}_reading *in, const {p}_gains *gains, {p}_commands *out)\n{{"
     );
     let _ = writeln!(
         s,
@@ -361,7 +364,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - {base};\n        if (!((e{i} >= {lo}) && (e{i} <= {hi}))) {{\n            status |= isfinite(e{i}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }}\n    }}");
         }
     }
-    let _ = writeln!(s, "    if ({p}_gains_ok(gains)) {{\n        g = *gains;\n    }} else {{\n        status |= {up}_STATUS_GAINS_REJECTED;\n        g = {p}_default_gains();\n    }}");
+    let _ = writeln!(s, "    if ({p}_gains_in_set(gains)) {{\n        g = *gains;\n    }} else {{\n        status |= {up}_STATUS_GAINS_REJECTED;\n        g = {p}_default_gains();\n    }}");
     let _ = writeln!(s, "    /* the law (in the envelope) */");
     let louts = e.program(
         &c.law,
@@ -389,7 +392,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     if !c.filters.is_empty() {
         let _ = writeln!(
             s,
-            "\nvoid {p}_guidance_init({p}_guidance *state, const {p}_commands *start)\n{{"
+            "\nvoid {p}_start_references({p}_references *state, const {p}_targets *start)\n{{"
         );
         for f in &c.filters {
             let r = &c.references[f.reference];
@@ -403,19 +406,19 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             );
         }
         let _ = writeln!(s, "}}");
-        let _ = writeln!(s, "\nuint32_t {p}_update({p}_guidance *state, const {p}_commands *commands, const {p}_gains *gains, {ty} dt)\n{{\n    uint32_t status = 0u;\n    if (dt > {}) {{", e.lit(0.0));
+        let _ = writeln!(s, "\nuint32_t {p}_advance_references({p}_references *state, const {p}_targets *targets, const {p}_gains *gains, {ty} dt)\n{{\n    uint32_t status = 0u;\n    if (dt > {}) {{", e.lit(0.0));
         // the body, indented once more inside the test of dt (one exit: MISRA C:2012 15.5)
         let mut b = String::new();
-        let _ = writeln!(b, "    {p}_gains g;\n    if ({p}_gains_ok(gains)) {{\n        g = *gains;\n    }} else {{\n        status |= {up}_STATUS_GAINS_REJECTED;\n        g = {p}_default_gains();\n    }}");
+        let _ = writeln!(b, "    {p}_gains g;\n    if ({p}_gains_in_set(gains)) {{\n        g = *gains;\n    }} else {{\n        status |= {up}_STATUS_GAINS_REJECTED;\n        g = {p}_default_gains();\n    }}");
         for f in &c.filters {
             let rn = &c.references[f.reference].name;
             let kn = &c.gains[f.gain].name;
             let rest = e.at_rest(
                 p,
                 c.references[f.reference].range,
-                &format!("commands->{}", f.command),
+                &format!("targets->{}", f.command),
             );
-            let _ = writeln!(b, "    {{\n        {ty} r = state->{rn};\n        if (!isfinite(r)) {{\n            status |= {up}_STATUS_GUIDANCE_REPAIRED;\n            r = {rest};\n        }}\n        const {ty} c = isnan(commands->{cn}) ? r : commands->{cn};\n        const {ty} k = g.{kn};", cn = f.command);
+            let _ = writeln!(b, "    {{\n        {ty} r = state->{rn};\n        if (!isfinite(r)) {{\n            status |= {up}_STATUS_GUIDANCE_REPAIRED;\n            r = {rest};\n        }}\n        const {ty} c = isnan(targets->{cn}) ? r : targets->{cn};\n        const {ty} k = g.{kn};", cn = f.command);
             let outs = e.program(
                 &f.program,
                 p,

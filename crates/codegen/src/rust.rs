@@ -221,14 +221,14 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
         });
     }
 
-    // the envelope guards of step()
+    // the envelope guards of compute_commands()
     let ns = c.states.len();
     let (nr, nt) = (c.references.len(), c.rates.len());
     let mut guards = TokenStream::new();
     let x = |i: usize| format_ident!("x{}", i);
     for (i, n) in inputs.iter().enumerate() {
         let (xi, f) = (x(i), field(n));
-        guards.extend(quote!(let mut #xi: #ty = inputs.#f;));
+        guards.extend(quote!(let mut #xi: #ty = reading.#f;));
     }
     // each state's reference as given, before it is clamped: the error is measured from it
     for (i, s) in c.states.iter().enumerate() {
@@ -285,7 +285,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
     let _ = nt;
     let _ = nr;
 
-    // gains_valid()
+    // check_gains()
     let mut checks: Vec<TokenStream> = c
         .gains
         .iter()
@@ -395,7 +395,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
                 _ => quote!(dt),
             });
             let (o_r, o_q) = (&outs[0], &outs[1]);
-            let rest = e.at_rest(c.references[f.reference].range, quote!(commands.#cf));
+            let rest = e.at_rest(c.references[f.reference].range, quote!(targets.#cf));
             blocks.extend(quote! {
                 {
                     let mut r: #ty = state.#rf;
@@ -403,7 +403,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
                         status |= STATUS_GUIDANCE_REPAIRED;
                         r = #rest;
                     }
-                    let c: #ty = if commands.#cf.is_nan() { r } else { commands.#cf };
+                    let c: #ty = if targets.#cf.is_nan() { r } else { targets.#cf };
                     let k: #ty = g.#kf;
                     #body
                     state.#rf = #o_r;
@@ -425,48 +425,51 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             })
             .collect();
         guidance_items = quote! {
-            /// The state of the guidance filters: each reference and its rate. Start it with
-            /// [`Guidance::start`]. Each control period: [`step`] with the references and
-            /// rates of this state among its inputs, then [`update`] over the period.
+            /// The reference filters' state: each reference and its rate. Start it with
+            /// [`References::start`]. Each control period: [`compute_commands`] with the
+            /// references and rates of this state in its reading, then
+            /// [`advance_references`] over the period.
             #[derive(Clone, Copy, Debug, PartialEq)]
-            pub struct Guidance {
+            #[repr(C)]
+            pub struct References {
                 #( #[doc = #gdocs] pub #gfields: #ty, )*
             }
 
-            impl Guidance {
+            impl References {
                 /// The filters at rest: each reference at its command in `at` (clamped into
                 /// its proved range, a NaN at the range's midpoint), each rate zero.
-                pub fn start(at: &Commands) -> Guidance {
-                    Guidance { #( #starts )* }
+                pub fn start(at: &Targets) -> References {
+                    References { #( #starts )* }
                 }
 
-                /// The field names, in the order of [`Guidance::from_array`].
+                /// The field names, in the order of [`References::from_array`].
                 pub const NAMES: [&'static str; #ng] = [#(#gnames),*];
 
-                /// The state from an array in the order of [`Guidance::NAMES`].
-                pub fn from_array(a: [#ty; #ng]) -> Guidance {
-                    Guidance { #( #gfields: a[#gidx], )* }
+                /// The state from an array in the order of [`References::NAMES`].
+                pub fn from_array(a: [#ty; #ng]) -> References {
+                    References { #( #gfields: a[#gidx], )* }
                 }
 
-                /// The state as an array in the order of [`Guidance::NAMES`].
+                /// The state as an array in the order of [`References::NAMES`].
                 pub fn to_array(&self) -> [#ty; #ng] {
                     [#( self.#gfields, )*]
                 }
             }
 
-            /// What the guidance filters follow.
+            /// What the reference filters follow: each filter's command.
             #[derive(Clone, Copy, Debug, PartialEq)]
-            pub struct Commands {
+            #[repr(C)]
+            pub struct Targets {
                 #( pub #cfields: #ty, )*
             }
 
-            impl Commands {
-                /// The field names, in the order of [`Commands::from_array`].
+            impl Targets {
+                /// The field names, in the order of [`Targets::from_array`].
                 pub const NAMES: [&'static str; #nc] = [#(#cnames),*];
 
-                /// The commands from an array in the order of [`Commands::NAMES`].
-                pub fn from_array(a: [#ty; #nc]) -> Commands {
-                    Commands { #( #cfields: a[#cidx], )* }
+                /// The targets from an array in the order of [`Targets::NAMES`].
+                pub fn from_array(a: [#ty; #nc]) -> Targets {
+                    Targets { #( #cfields: a[#cidx], )* }
                 }
             }
 
@@ -474,14 +477,14 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             /// exact solution of `ṙ = clamp(k·(c − r), lo, hi)` for a constant command. A NaN
             /// command holds its reference; gains outside their proved set are replaced by the
             /// defaults; a `dt` that is not positive changes nothing. A reference that is not
-            /// finite restarts at rest at its command (as [`Guidance::start`]). Returns the
+            /// finite restarts at rest at its command (as [`References::start`]). Returns the
             /// `STATUS_*` bits of what it repaired: `GUIDANCE_REPAIRED`, `GAINS_REJECTED`.
-            pub fn update(state: &mut Guidance, commands: &Commands, gains: &Gains, dt: #ty) -> u32 {
+            pub fn advance_references(state: &mut References, targets: &Targets, gains: &Gains, dt: #ty) -> u32 {
                 let mut status: u32 = 0;
                 if !(dt > 0.0) {
                     return status;
                 }
-                let g: Gains = if gains_valid(gains) {
+                let g: Gains = if check_gains(gains) {
                     *gains
                 } else {
                     status |= STATUS_GAINS_REJECTED;
@@ -504,30 +507,33 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
     let gain_idx: Vec<proc_macro2::Literal> = (0..c.gains.len()).map(unsuffixed).collect();
     let zero_u = quote!(0u32);
     let file = quote! {
-        /// Inputs of `step`: the states, references, their rates and the signals.
+        /// What [`compute_commands`] reads each period: the measured states, the references
+        /// and their rates, the signals.
         #[derive(Clone, Copy, Debug, PartialEq)]
-        pub struct Inputs {
+        #[repr(C)]
+        pub struct Reading {
             #( #[doc = #doc_input] pub #input_fields: #ty, )*
         }
 
         /// Run-time gains.
         #[derive(Clone, Copy, Debug, PartialEq)]
+        #[repr(C)]
         pub struct Gains {
             #( #[doc = #doc_gain] pub #gain_fields: #ty, )*
         }
 
-        impl Inputs {
-            /// The field names, in the order of [`Inputs::from_array`].
+        impl Reading {
+            /// The field names, in the order of [`Reading::from_array`].
             pub const NAMES: [&'static str; #n_in] = [#(#in_names),*];
 
-            /// The inputs from an array in the order of [`Inputs::NAMES`].
-            pub fn from_array(a: [#ty; #n_in]) -> Inputs {
-                Inputs { #( #input_fields: a[#in_idx], )* }
+            /// The reading from an array in the order of [`Reading::NAMES`].
+            pub fn from_array(a: [#ty; #n_in]) -> Reading {
+                Reading { #( #input_fields: a[#in_idx], )* }
             }
         }
 
         impl Gains {
-            /// The defaults of the spec; `step` falls back to them when the given gains leave
+            /// The defaults of the spec; [`compute_commands`] falls back to them when the given gains leave
             /// their proved ranges or constraints.
             pub const DEFAULT: Gains = Gains { #( #gain_fields: #gain_defaults, )* };
 
@@ -540,8 +546,8 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             }
         }
 
-        impl Outputs {
-            /// The command names, in the order of [`Outputs::commands`].
+        impl Commands {
+            /// The command names, in the order of [`Commands::commands`].
             pub const NAMES: [&'static str; #n_act] = [#(#act_names),*];
 
             /// The commands as an array.
@@ -556,9 +562,10 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             }
         }
 
-        /// What `step` computes.
+        /// What [`compute_commands`] sends: each actuator's command and what happened.
         #[derive(Clone, Copy, Debug, PartialEq)]
-        pub struct Outputs {
+        #[repr(C)]
+        pub struct Commands {
             #( #[doc = #doc_act] pub #act_fields: #ty, )*
             /// Limits hit: the `LIMIT_*` bits.
             pub limits: u32,
@@ -585,16 +592,17 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
         }
 
         /// Do the gains lie in their proved ranges and meet the constraints?
-        pub fn gains_valid(g: &Gains) -> bool {
+        pub fn check_gains(g: &Gains) -> bool {
             #cbody
             #checks
         }
 
-        /// One step of the control law: the actuator commands, saturated to their limits.
-        pub fn step(inputs: &Inputs, gains: &Gains) -> Outputs {
+        /// The control law once: the actuator commands from this period's reading, saturated
+        /// to their limits.
+        pub fn compute_commands(reading: &Reading, gains: &Gains) -> Commands {
             let mut status: u32 = #zero_u;
             #guards
-            let g: Gains = if gains_valid(gains) {
+            let g: Gains = if check_gains(gains) {
                 *gains
             } else {
                 status |= STATUS_GAINS_REJECTED;
@@ -603,7 +611,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             #lbody
             let mut limits: u32 = #zero_u;
             #saturate
-            Outputs { #( #act_fields: #cmd_names, )* limits, domain: status != #zero_u, status }
+            Commands { #( #act_fields: #cmd_names, )* limits, domain: status != #zero_u, status }
         }
 
         #guidance_items

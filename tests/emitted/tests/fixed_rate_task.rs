@@ -70,7 +70,7 @@ fn the_example_tasks_climb_to_the_command_in_rust_and_in_c() {
 #[test]
 fn the_guidance_starts_at_rest_inside_its_ranges() {
     // h_r is proved over [30, 600] m and va_r over [15, 30] m/s (the spec)
-    let at = |h_cmd, va_cmd| law::Guidance::start(&law::Commands { h_cmd, va_cmd });
+    let at = |h_cmd, va_cmd| law::References::start(&law::Targets { h_cmd, va_cmd });
     let g = at(120.0, 22.0);
     assert_eq!(
         (g.h_r, g.va_r, g.hdot_r, g.vadot_r),
