@@ -97,6 +97,13 @@ impl Decimal {
         }
     }
 
+    /// A decimal of an exact rational whose expansion terminates (a sum or difference of
+    /// decimals), with its correctly rounded nearest f64; None for one that does not
+    /// terminate (1/3).
+    pub fn from_exact(v: &BigRational) -> Option<Decimal> {
+        Decimal::parse(&as_terminating_decimal(v)?)
+    }
+
     /// The exact value.
     pub fn exact(&self) -> &BigRational {
         &self.exact

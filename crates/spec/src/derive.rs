@@ -2,7 +2,7 @@
 //! V̇ = Σ ∂V/∂x·ẋ + Σ ∂V/∂r·ṙ, simplified to canonical form.
 
 use crate::diag::Diagnostic;
-use crate::model::{uncertainty_name, Decl, ErrorForm, Spec};
+use crate::model::{Decl, ErrorForm, Spec};
 use lawsmith_expr::{derivative, AssumeAll, Condition, ExprId, Oracle, Simplifier};
 use std::collections::HashMap;
 
@@ -18,6 +18,8 @@ pub struct Derivation {
     pub laws: Vec<(String, ExprId)>,
     /// Each actuator command in base symbols.
     pub actuators: Vec<(String, ExprId)>,
+    /// Each controller state's update law in base symbols (laws substituted).
+    pub updates: Vec<(String, ExprId)>,
     /// The `where` definitions of the candidate, simplified.
     pub where_defs: Vec<(String, ExprId)>,
     /// Closed-loop state derivatives (true values of uncertain quantities written as
@@ -98,11 +100,17 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
     // (a signal, or an input computed by its law) is what the controller sees
     let mut true_values: HashMap<String, ExprId> = HashMap::new();
     for s in &spec.symbols {
-        let Decl::Uncertain { estimate, form, .. } = &s.decl else {
+        let Decl::Uncertain {
+            estimate,
+            form,
+            delta,
+            ..
+        } = &s.decl
+        else {
             continue;
         };
         let e = dag.sym(estimate);
-        let delta = dag.sym(&uncertainty_name(&s.name));
+        let delta = dag.sym(delta);
         let value = match form {
             ErrorForm::Relative => {
                 let one = dag.int(1);
@@ -120,6 +128,12 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
             let plant = dag.substitute(*f, &true_values);
             (s.clone(), dag.substitute(plant, &law_map))
         })
+        .collect();
+    // each controller state moves by its update law, the laws substituted
+    let updates: Vec<(String, ExprId)> = spec
+        .updates
+        .iter()
+        .map(|(m, u)| (m.clone(), dag.substitute(*u, &law_map)))
         .collect();
     let v = spec.candidate;
     let mut terms = Vec::new();
@@ -140,7 +154,18 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
                     )
                 })?,
             Decl::Reference { rate, .. } => dag.sym(rate),
-            Decl::Parameter { .. } | Decl::Gain { .. } => continue,
+            Decl::Memory { .. } => updates
+                .iter()
+                .find(|(m, _)| *m == name)
+                .map(|(_, u)| *u)
+                .ok_or_else(|| {
+                    error(
+                        "memory-without-update",
+                        format!("controller state `{name}` has no update law"),
+                        None,
+                    )
+                })?,
+            Decl::Parameter { .. } | Decl::Gain { .. } | Decl::Unknown { .. } => continue,
             _ => {
                 return Err(error(
                     "no-rate",
@@ -169,6 +194,10 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         .map(|(n, e)| (n, simp.simplify(dag, e)))
         .collect();
     let actuators = actuators
+        .into_iter()
+        .map(|(n, e)| (n, simp.simplify(dag, e)))
+        .collect();
+    let updates = updates
         .into_iter()
         .map(|(n, e)| (n, simp.simplify(dag, e)))
         .collect();
@@ -206,6 +235,7 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         vdot,
         laws,
         actuators,
+        updates,
         where_defs,
         closed_loop,
         assumptions: Vec::new(),

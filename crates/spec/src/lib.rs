@@ -48,8 +48,8 @@ pub use derive::{derive, derive_with, Derivation, DeriveError};
 pub use diag::{render, Diagnostic};
 pub use load::{load, MAX_SPEC_BYTES};
 pub use model::{
-    uncertainty_name, Actuator, Claim, Constraint, Decl, ErrorForm, Guidance, Range, Spec, Symbol,
-    SymbolKind, Target,
+    uncertainty_name, Actuator, Claim, Constraint, Decl, ErrorForm, Guidance, Range, Settle, Spec,
+    Symbol, SymbolKind, Target,
 };
 pub use names::{identifier_problem, reserved_reason, C_RESERVED, RUST_RESERVED};
 pub use schema::json_schema;

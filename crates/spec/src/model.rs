@@ -25,6 +25,12 @@ pub enum SymbolKind {
     /// The plant's true value of an estimated signal or input, within a declared error of the
     /// estimate. Only the dynamics may use it.
     Uncertain,
+    /// A constant the controller does not know (a named estimate error, or a constant
+    /// unknown): the dynamics and the candidate may use it, the controller may not.
+    Unknown,
+    /// A controller state: a value the law carries from one period to the next (an
+    /// integrator, an adaptive estimate), advanced by its update law.
+    Memory,
 }
 
 impl SymbolKind {
@@ -40,6 +46,8 @@ impl SymbolKind {
             SymbolKind::Input => "input",
             SymbolKind::Command => "command",
             SymbolKind::Uncertain => "true value",
+            SymbolKind::Unknown => "unknown constant",
+            SymbolKind::Memory => "controller state",
         }
     }
 }
@@ -92,6 +100,15 @@ pub enum Target {
     Reference(String),
     /// A fixed equilibrium value.
     Equilibrium(Decimal),
+}
+
+/// What a controller state settles at: the origin of its proof coordinate.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Settle {
+    /// A fixed value (an integrator whose steady value is known).
+    Value(Decimal),
+    /// A constant unknown it estimates (its name).
+    Unknown(String),
 }
 
 /// What a symbol is, with the data its kind declares.
@@ -147,6 +164,25 @@ pub enum Decl {
         form: ErrorForm,
         /// The range of the error, relative or absolute.
         error: Range,
+        /// The name of the error (its proof coordinate): declared with `error:`, or
+        /// [`uncertainty_name`] of the quantity.
+        delta: String,
+    },
+    /// A constant the controller does not know.
+    Unknown {
+        /// Its range.
+        range: Range,
+        /// The uncertain quantity whose error it names, if it is one.
+        of: Option<String>,
+    },
+    /// A controller state.
+    Memory {
+        /// Its value when the controller starts (or is reset).
+        initial: Decimal,
+        /// The limits the generated code keeps it in (projection, anti-windup).
+        limits: Range,
+        /// What it settles at: its proof coordinate is the state minus this.
+        settle: Settle,
     },
 }
 
@@ -163,6 +199,8 @@ impl Decl {
             Decl::Input => SymbolKind::Input,
             Decl::Command => SymbolKind::Command,
             Decl::Uncertain { .. } => SymbolKind::Uncertain,
+            Decl::Unknown { .. } => SymbolKind::Unknown,
+            Decl::Memory { .. } => SymbolKind::Memory,
         }
     }
 }
@@ -195,6 +233,7 @@ impl Symbol {
             | Decl::Rate { range, .. }
             | Decl::Signal { range } => Some(range),
             Decl::Uncertain { error, .. } => Some(error),
+            Decl::Unknown { range, .. } => Some(range),
             _ => None,
         }
     }
@@ -243,6 +282,10 @@ pub enum Claim {
     NegativeSemidefinite,
     /// V̇ ≤ −2·rate·V.
     Exponential(f64),
+    /// V̇ < 0 wherever the error of one of these states (or controller states) is not zero,
+    /// whatever the other coordinates: V̇ ≤ −W(e) with W positive definite in those errors,
+    /// the claim of an adaptive or integral law.
+    NegativeDefiniteIn(Vec<String>),
     /// The smallest level `c` with V̇ < 0 wherever V ≥ c in the domain (every trajectory
     /// enters {V ≤ c} and stays), and the bound it implies on each error.
     UltimateBound {
@@ -260,6 +303,9 @@ impl Claim {
             Claim::NegativeSemidefinite => "negative_semidefinite".into(),
             Claim::Exponential(r) => format!("exponential({r})"),
             Claim::UltimateBound { .. } => "ultimate_bound".into(),
+            Claim::NegativeDefiniteIn(names) => {
+                format!("negative_definite_in({})", names.join(", "))
+            }
         }
     }
 }
@@ -336,6 +382,9 @@ pub struct Spec {
     pub claim: Claim,
     /// Laws in evaluation order: input → expression (earlier inputs as symbols).
     pub laws: Vec<(String, ExprId)>,
+    /// Each controller state's update law (its time derivative), in declaration order;
+    /// inputs as symbols.
+    pub updates: Vec<(String, ExprId)>,
     /// Gain constraints.
     pub constraints: Vec<Constraint>,
     /// Actuator mappings.
@@ -353,6 +402,25 @@ impl Spec {
     /// The symbols of one kind, in declaration order.
     pub fn symbols_of(&self, kind: SymbolKind) -> impl Iterator<Item = &Symbol> {
         self.symbols.iter().filter(move |s| s.kind() == kind)
+    }
+
+    /// The box of a controller state's proof coordinate (the state minus what it settles
+    /// at): its limits less the range of what it settles at, exactly.
+    pub fn memory_error(&self, s: &Symbol) -> Option<Range> {
+        let Decl::Memory { limits, settle, .. } = &s.decl else {
+            return None;
+        };
+        let (lo, hi) = match settle {
+            Settle::Value(v) => (v.exact().clone(), v.exact().clone()),
+            Settle::Unknown(u) => {
+                let r = self.symbol(u)?.range()?;
+                (r.lo.exact().clone(), r.hi.exact().clone())
+            }
+        };
+        Some(Range::new(
+            Decimal::from_exact(&(limits.lo.exact() - hi))?,
+            Decimal::from_exact(&(limits.hi.exact() - lo))?,
+        ))
     }
 
     /// The values a state takes over the envelope, in f64: its reference's range widened by

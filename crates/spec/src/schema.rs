@@ -83,7 +83,8 @@ impl JsonSchema for Scalar {
     }
 }
 
-/// A claim: one of the named claims, `{ exponential: RATE }` or `{ ultimate_bound: … }`.
+/// A claim: one of the named claims, `{ exponential: RATE }`, `{ ultimate_bound: … }` or
+/// `{ negative_definite_in: [STATE, …] }`.
 fn claim_schema(_: &mut SchemaGenerator) -> Schema {
     json_schema!({
         "oneOf": [
@@ -92,6 +93,18 @@ fn claim_schema(_: &mut SchemaGenerator) -> Schema {
                 "type": "object",
                 "properties": { "exponential": { "type": "number", "exclusiveMinimum": 0 } },
                 "required": ["exponential"],
+                "additionalProperties": false
+            },
+            {
+                "type": "object",
+                "properties": {
+                    "negative_definite_in": {
+                        "type": "array",
+                        "items": { "type": "string" },
+                        "minItems": 1
+                    }
+                },
+                "required": ["negative_definite_in"],
                 "additionalProperties": false
             },
             {
@@ -155,6 +168,10 @@ pub struct RawSpec {
     pub inputs: Ordered<RawInput>,
     #[serde(default)]
     pub uncertain: Ordered<RawUncertain>,
+    /// Controller states: integrators and adaptive estimates the law carries from one period
+    /// to the next.
+    #[serde(default)]
+    pub memory: Ordered<RawMemory>,
     #[serde(default)]
     #[schemars(with = "Ordered<Scalar>")]
     pub dynamics: Ordered<SpannedStr>,
@@ -248,17 +265,55 @@ pub struct RawLyapunov {
     pub claim: Spanned<RawClaim>,
 }
 
+/// The plant's true value of a signal or input (`estimate` with `relative` or `absolute`,
+/// the error optionally named by `error`), or a constant unknown (`constant` with `unit`).
 #[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawUncertain {
-    #[schemars(with = "String")]
-    pub estimate: SpannedStr,
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub estimate: Option<SpannedStr>,
     #[serde(default)]
     #[schemars(with = "Option<[f64; 2]>")]
     pub relative: Option<RawRange>,
     #[serde(default)]
     #[schemars(with = "Option<[f64; 2]>")]
     pub absolute: Option<RawRange>,
+    /// A name for the error (constant in time), so the candidate and an estimate can use it.
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub error: Option<SpannedStr>,
+    /// A constant unknown's range (with `unit`, instead of `estimate`).
+    #[serde(default)]
+    #[schemars(with = "Option<[f64; 2]>")]
+    pub constant: Option<RawRange>,
+    /// A constant unknown's unit.
+    #[serde(default)]
+    #[schemars(with = "Option<Scalar>")]
+    pub unit: Option<SpannedStr>,
+}
+
+/// A controller state: its unit, initial value, update law (its time derivative), limits,
+/// and what it settles at (`estimates`: a constant unknown; `equilibrium`: a number).
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawMemory {
+    #[schemars(with = "Scalar")]
+    pub unit: SpannedStr,
+    #[schemars(with = "f64")]
+    pub initial: Spanned<f64>,
+    /// Its time derivative (required; the loader reports it missing with a position).
+    #[serde(default)]
+    #[schemars(with = "Scalar")]
+    pub update: Option<SpannedStr>,
+    #[schemars(with = "[f64; 2]")]
+    pub limits: RawRange,
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub estimates: Option<SpannedStr>,
+    #[serde(default)]
+    #[schemars(with = "Option<f64>")]
+    pub equilibrium: Option<Spanned<f64>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -267,6 +322,7 @@ pub enum RawClaim {
     Named(String),
     Exponential { exponential: f64 },
     Bound { ultimate_bound: RawBound },
+    DefiniteIn { negative_definite_in: Vec<String> },
 }
 
 /// `auto`, a list of bounds in state order, or a mapping state → bound.

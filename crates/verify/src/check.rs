@@ -43,8 +43,23 @@ pub enum GoalKind {
     Condition,
     /// V > 0 away from zero error.
     Positive,
+    /// A controller state's limits never increase V: ∂V/∂ξ ≥ 0 at its upper limit and ≤ 0
+    /// at its lower, so holding it there (projection, anti-windup) keeps the claim.
+    Projection,
     /// The Lyapunov claim.
     Claim,
+}
+
+impl GoalKind {
+    /// The name in certificates and JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            GoalKind::Condition => "condition",
+            GoalKind::Positive => "positive",
+            GoalKind::Projection => "projection",
+            GoalKind::Claim => "claim",
+        }
+    }
 }
 
 /// How one goal ended.
@@ -181,6 +196,9 @@ pub struct CheckReport {
     pub seconds: f64,
     /// For an ultimate-bound claim: the level, the bounds and their proofs.
     pub bound: Option<BoundReport>,
+    /// What a proven claim implies, in plain words, with its assumptions and what it does not
+    /// imply (for a law with controller states); empty otherwise.
+    pub follows: Vec<String>,
 }
 
 /// A check that could not run (the spec is unusable for a proof).
@@ -367,8 +385,87 @@ pub fn check(
         boxes,
         seconds: start.elapsed().as_secs_f64(),
         bound,
+        follows: if verdict == Verdict::Proven {
+            follows(spec)
+        } else {
+            Vec::new()
+        },
     };
     Ok((report, prepared))
+}
+
+/// What a proven claim of a law with controller states implies, in plain words: the
+/// standard Lyapunov arguments (LaSalle's invariance principle; Barbalat's lemma for the
+/// adaptive case), with the assumptions they rest on and what they do not give.
+fn follows(spec: &Spec) -> Vec<String> {
+    let memory: Vec<(&str, Option<&str>)> = spec
+        .symbols_of(lawsmith_spec::SymbolKind::Memory)
+        .map(|s| match &s.decl {
+            lawsmith_spec::Decl::Memory {
+                settle: lawsmith_spec::Settle::Unknown(u),
+                ..
+            } => (s.name.as_str(), Some(u.as_str())),
+            _ => (s.name.as_str(), None),
+        })
+        .collect();
+    if memory.is_empty() {
+        return Vec::new();
+    }
+    let names = |v: &[&str]| v.join(", ");
+    let all: Vec<&str> = memory.iter().map(|(m, _)| *m).collect();
+    let mut out = vec![
+        "assumed: the trajectory stays in the proof domain (references, rates and signals in \
+         their ranges, errors in their boxes); every unknown is constant; each controller \
+         state is held at its limits when its update law points outward (proved above not to \
+         increase V)"
+            .to_string(),
+    ];
+    match &spec.claim {
+        lawsmith_spec::Claim::NegativeDefiniteIn(tracked) => {
+            let t: Vec<&str> = tracked.iter().map(String::as_str).collect();
+            out.push(format!(
+                "V never increases, so the errors of every state and of {} stay bounded \
+                 (within the sublevel set of V they start in)",
+                names(&all)
+            ));
+            out.push(format!(
+                "dV/dt <= -W(error of {}) with W positive definite: its integral over time is \
+                 finite and the errors' rates are bounded, so the errors of {} converge to zero \
+                 (Barbalat's lemma; LaSalle's invariance principle)",
+                names(&t),
+                names(&t)
+            ));
+            for (m, u) in &memory {
+                if tracked.iter().any(|k| k == m) {
+                    continue;
+                }
+                out.push(match u {
+                    Some(u) => format!(
+                        "not implied: {m} need not converge to {u}; it stays bounded, and \
+                         converges only where the signals keep exciting it (persistent \
+                         excitation)"
+                    ),
+                    None => format!(
+                        "not implied: {m} need not settle at its equilibrium; it stays bounded"
+                    ),
+                });
+            }
+        }
+        lawsmith_spec::Claim::NegativeDefinite | lawsmith_spec::Claim::Exponential(_) => {
+            out.push(format!(
+                "every error, those of {} included, converges to zero: the origin of the \
+                 closed loop with its controller states is asymptotically stable",
+                names(&all)
+            ));
+            for (m, u) in &memory {
+                if let Some(u) = u {
+                    out.push(format!("{m} converges to the unknown {u} it estimates"));
+                }
+            }
+        }
+        _ => {}
+    }
+    out
 }
 
 /// Per actuator: samples the whole domain (points meeting the constraints) and counts the

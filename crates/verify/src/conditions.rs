@@ -107,6 +107,7 @@ fn condition_goal(problem: &mut Problem, c: &Cond) -> (Goal, Vec<Cond>) {
             expr,
             test,
             origin: false,
+            exempt: None,
             region: None,
         },
         more,

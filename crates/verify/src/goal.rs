@@ -91,6 +91,10 @@ pub struct Goal {
     pub test: Test,
     /// The test is exempt where every error is zero (Lyapunov statements).
     pub origin: bool,
+    /// With `origin`: the problem coordinates whose joint zero is exempt (and in which the
+    /// Hessian closes it); None for every error coordinate (the states' and the controller
+    /// states').
+    pub exempt: Option<Vec<usize>>,
     /// The goal is asked only where this expression (V, for an ultimate bound) is at least
     /// [`Compiled::level`]; elsewhere it holds vacuously.
     pub region: Option<ExprId>,
@@ -207,8 +211,13 @@ impl Compiled {
             }
             dims.sort_unstable();
         }
+        let exempt = match (&goal.exempt, goal.origin) {
+            (_, false) => Vec::new(),
+            (Some(e), true) => e.clone(),
+            (None, true) => problem.errors(),
+        };
         if goal.origin {
-            for e in problem.errors() {
+            for &e in &exempt {
                 if !dims.contains(&e) {
                     dims.push(e);
                 }
@@ -221,8 +230,19 @@ impl Compiled {
             .map(|&i| problem.variables[i].name.clone())
             .collect();
         let name_refs: Vec<&str> = names.iter().map(String::as_str).collect();
+        // the error coordinates: those exempt at zero for a Lyapunov goal, else every error
+        // coordinate among the goal's (where sampling looks near zero)
         let errors: Vec<usize> = (0..dims.len())
-            .filter(|&k| problem.variables[dims[k]].role == Role::Error)
+            .filter(|&k| {
+                if goal.origin {
+                    exempt.contains(&dims[k])
+                } else {
+                    matches!(
+                        problem.variables[dims[k]].role,
+                        Role::Error | Role::MemoryError
+                    )
+                }
+            })
             .collect();
         let dag = &mut problem.dag;
         let f = goal.expr;

@@ -48,6 +48,7 @@ impl Plan {
             expr: forms.vdot,
             test: Test::Negative { strict },
             origin: true,
+            exempt: None,
             region,
         };
         match claim {
@@ -57,6 +58,13 @@ impl Plan {
                 None,
             )),
             Claim::NegativeSemidefinite => direct(negative("dV/dt <= 0", false, None)),
+            Claim::NegativeDefiniteIn(names) => {
+                let which = names.join(" or ");
+                let label = format!("dV/dt < 0 wherever the error of {which} is not zero");
+                let mut goal = negative(&label, true, None);
+                goal.exempt = Some(problem.errors_of(names));
+                direct(goal)
+            }
             Claim::UltimateBound { required } => Plan {
                 goal: negative("dV/dt < 0 wherever V >= c", true, Some(forms.candidate)),
                 quantity: "dV/dt".into(),
@@ -75,6 +83,7 @@ impl Plan {
                         expr,
                         test: Test::Negative { strict: false },
                         origin: true,
+                        exempt: None,
                         region: None,
                     },
                     quantity: format!("dV/dt + 2*{rate}*V"),
@@ -98,6 +107,7 @@ impl Plan {
                 hi: f64::INFINITY,
             },
             origin: false,
+            exempt: None,
             region: None,
         };
         Ok(Strategy::Level {

@@ -60,6 +60,64 @@ fn root_of(problem: &Problem, dims: &[usize]) -> Vec<Interval> {
         .collect()
 }
 
+/// For each controller state, the goals that make its limits harmless to the claim: at the
+/// upper limit `∂V/∂ξ ≥ 0` (goal `−∂V/∂ξ ≤ 0` with ξ there), at the lower `∂V/∂ξ ≤ 0`. Where
+/// the generated code holds ξ at a limit against its update law `u` (which points outward),
+/// V̇ loses the term `∂V/∂ξ·u ≥ 0`, so V̇ is no larger than the unlimited V̇ the claim is
+/// proved of, and every claim (a sign, a rate, a level) still holds.
+fn projections(
+    spec: &Spec,
+    problem: &mut Problem,
+    d: &lawsmith_spec::Derivation,
+) -> Vec<(GoalKind, String, Goal, Option<(String, f64, String)>)> {
+    let mut out = Vec::new();
+    for s in spec.symbols_of(lawsmith_spec::SymbolKind::Memory) {
+        let lawsmith_spec::Decl::Memory { limits, .. } = &s.decl else {
+            continue;
+        };
+        let m = &s.name;
+        let dv = lawsmith_expr::derivative(&mut problem.dag, d.candidate, m);
+        for (end, upper) in [(&limits.hi, true), (&limits.lo, false)] {
+            let at = problem.dag.num(end.exact().clone());
+            let on_face = problem
+                .dag
+                .substitute(dv, &std::iter::once((m.clone(), at)).collect());
+            let e = if upper {
+                problem.dag.neg(on_face)
+            } else {
+                on_face
+            };
+            let (expr, _) = problem.express(e);
+            let (side, sign) = if upper {
+                ("upper", ">=")
+            } else {
+                ("lower", "<=")
+            };
+            out.push((
+                GoalKind::Projection,
+                format!("the limits of `{m}`"),
+                Goal {
+                    label: format!(
+                        "dV/d({m}) {sign} 0 where {m} is at its {side} limit {}",
+                        end.value()
+                    ),
+                    expr,
+                    test: Test::Negative { strict: false },
+                    origin: false,
+                    exempt: None,
+                    region: None,
+                },
+                Some((
+                    m.clone(),
+                    end.value(),
+                    format!("{}dV/d({m})", if upper { "-" } else { "" }),
+                )),
+            ));
+        }
+    }
+    out
+}
+
 /// One goal of a prepared check.
 #[derive(Debug)]
 pub struct PreparedGoal {
@@ -69,6 +127,10 @@ pub struct PreparedGoal {
     pub source: String,
     /// The goal, compiled.
     pub compiled: Compiled,
+    /// For a controller state's limit goal: the state, the limit it is asked at (its
+    /// coordinate is not the goal's; a counterexample shows the state there), and the
+    /// quantity the goal's expression is (`-dV/d(xi)` at an upper limit).
+    pub face: Option<(String, f64, String)>,
 }
 
 /// An actuator's command within its limits, as a goal: `lo <= command <= hi` over the whole
@@ -138,18 +200,26 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
             expr: neg_v,
             test: Test::Negative { strict: true },
             origin: true,
+            exempt: None,
             region: None,
         },
     ));
+    let mut faces: Vec<Option<(String, f64, String)>> = vec![None; goals.len()];
+    for (kind, source, goal, face) in projections(spec, &mut problem, &derivation) {
+        goals.push((kind, source, goal));
+        faces.push(face);
+    }
     let plan = Plan::of(&mut problem, &forms, &spec.claim);
     goals.push((GoalKind::Claim, "the claim".into(), plan.goal.clone()));
 
+    faces.resize(goals.len(), None);
     let mut prepared_goals = Vec::new();
-    for (kind, source, g) in goals {
+    for ((kind, source, g), face) in goals.into_iter().zip(faces) {
         prepared_goals.push(PreparedGoal {
             kind,
             source,
             compiled: Compiled::new(&mut problem, g).map_err(CheckError::new)?,
+            face,
         });
     }
     let strategy = plan.strategy(&mut problem)?;
@@ -166,6 +236,7 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
             expr: *e,
             test: Test::Within { lo, hi },
             origin: false,
+            exempt: None,
             region: None,
         };
         actuators.push(ActuatorGoal {
@@ -238,7 +309,21 @@ impl Prepared {
     /// A counterexample of goal `goal` at `point` (over its dims) in every symbol.
     pub fn counterexample(&self, goal: usize, cx: &Counter) -> Counterexample {
         let g = &self.goals[goal];
-        self.counterexample_of(&g.compiled, Some(g.kind), cx)
+        let mut out = self.counterexample_of(&g.compiled, Some(g.kind), cx);
+        if let Some((m, limit, quantity)) = &g.face {
+            out.quantity = quantity.clone();
+            // the goal holds the state at its limit: show it there
+            if let Some((_, v)) = out.point.iter_mut().find(|(n, _)| n == m) {
+                *v = *limit;
+            }
+            let delta = crate::problem::error_name(m);
+            if let Some(at) = self.problem.memory_error_at(m, *limit, &out.coordinates) {
+                if let Some((_, v)) = out.coordinates.iter_mut().find(|(n, _)| *n == delta) {
+                    *v = at;
+                }
+            }
+        }
+        out
     }
 
     /// A point where actuator `k`'s command leaves its limits, in every symbol.
@@ -257,6 +342,7 @@ impl Prepared {
         // goals are stated as `f < 0`; show the quantity as the statement reads
         let (quantity, sign) = match (kind, c.goal.test) {
             (Some(GoalKind::Positive), _) => ("V".to_string(), -1.0),
+            (Some(GoalKind::Projection), _) => ("the expression".to_string(), 1.0),
             (Some(GoalKind::Claim), _) => (self.quantity.clone(), 1.0),
             (Some(GoalKind::Condition), Test::Negative { .. }) => {
                 ("the expression".to_string(), -1.0)

@@ -12,9 +12,7 @@
 
 use crate::interval::Interval;
 use lawsmith_expr::{AssumeAll, Condition, Dag, Decimal, ExprId, Simplifier};
-use lawsmith_spec::{
-    uncertainty_name, Decl, Derivation, ErrorForm, Range, Spec, SymbolKind, Target,
-};
+use lawsmith_spec::{Decl, Derivation, ErrorForm, Range, Settle, Spec, Symbol, SymbolKind, Target};
 use std::collections::HashMap;
 
 /// What a proof coordinate stands for.
@@ -22,6 +20,9 @@ use std::collections::HashMap;
 pub enum Role {
     /// The error `state − reference` (or `state − equilibrium`) of a state.
     Error,
+    /// The error of a controller state from what it settles at (an estimate minus the
+    /// unknown it estimates, an integrator minus its equilibrium).
+    MemoryError,
     /// A reference from the guidance filter.
     Reference,
     /// The rate of a reference.
@@ -39,6 +40,7 @@ impl Role {
     pub fn name(self) -> &'static str {
         match self {
             Role::Error => "error",
+            Role::MemoryError => "controller-state error",
             Role::Reference => "reference",
             Role::Rate => "rate",
             Role::Signal => "signal",
@@ -111,15 +113,17 @@ pub struct Problem {
     /// The coordinates: errors, references, rates, signals, estimate errors, gains, in that
     /// order.
     pub variables: Vec<Variable>,
-    /// Gain constraints.
+    /// Gain constraints, then each controller state's limits (`lo − x ≤ 0`, `x − hi ≤ 0`).
     pub constraints: Vec<ProofConstraint>,
     /// Parameters and their values, as written.
     pub parameters: Vec<(String, Decimal)>,
     /// States and what each tracks.
     states: Vec<(String, Target)>,
-    /// Uncertain quantities: name, estimate, form, and the error when its range is a point
-    /// (for reporting true values).
-    uncertain: Vec<(String, String, ErrorForm, Option<Decimal>)>,
+    /// Controller states and what each settles at.
+    memory: Vec<(String, Settle)>,
+    /// Uncertain quantities: the quantity, the name of its error, the estimate, the form, and
+    /// the error when its range is a point (for reporting true values).
+    uncertain: Vec<(String, String, String, ErrorForm, Option<Decimal>)>,
     to_proof: HashMap<String, ExprId>,
 }
 
@@ -158,23 +162,75 @@ impl Problem {
             to_proof.insert(s.name.clone(), value);
             states.push((s.name.clone(), target.clone()));
         }
+        // a controller state is what it settles at plus its error, whose box is its limits
+        // less the range of what it settles at
+        let mut memory = Vec::new();
+        for s in spec.symbols_of(SymbolKind::Memory) {
+            let (Decl::Memory { settle, .. }, Some(error)) = (&s.decl, spec.memory_error(s)) else {
+                continue;
+            };
+            let name = error_name(&s.name);
+            variables.push(Variable::new(
+                name.clone(),
+                &s.name,
+                Role::MemoryError,
+                s.unit.clone(),
+                &error,
+            ));
+            let delta = dag.sym(&name);
+            let base = match settle {
+                Settle::Value(v) => dag.num(v.exact().clone()),
+                Settle::Unknown(u) => dag.sym(u),
+            };
+            let value = dag.add(vec![base, delta]);
+            to_proof.insert(s.name.clone(), value);
+            memory.push((s.name.clone(), settle.clone()));
+        }
         let mut uncertain = Vec::new();
-        for (kind, role) in [
-            (SymbolKind::Reference, Role::Reference),
-            (SymbolKind::Rate, Role::Rate),
-            (SymbolKind::Signal, Role::Signal),
-            (SymbolKind::Uncertain, Role::Uncertainty),
-            (SymbolKind::Gain, Role::Gain),
-        ] {
-            for s in spec.symbols_of(kind) {
+        // the errors of uncertain quantities and the constant unknowns, in declaration order
+        let unknown = |s: &Symbol| {
+            matches!(
+                s.decl,
+                Decl::Uncertain { .. } | Decl::Unknown { of: None, .. }
+            )
+        };
+        let kinds: [(&dyn Fn(&Symbol) -> bool, Role); 5] = [
+            (&|s| s.kind() == SymbolKind::Reference, Role::Reference),
+            (&|s| s.kind() == SymbolKind::Rate, Role::Rate),
+            (&|s| s.kind() == SymbolKind::Signal, Role::Signal),
+            (&unknown, Role::Uncertainty),
+            (&|s| s.kind() == SymbolKind::Gain, Role::Gain),
+        ];
+        for (pick, role) in kinds {
+            for s in spec.symbols.iter().filter(|s| pick(s)) {
                 let Some(range) = s.range() else {
                     continue;
                 };
                 let (name, unit) = match &s.decl {
-                    Decl::Uncertain { estimate, form, .. } => {
+                    Decl::Unknown { .. } => {
+                        if range.is_point() {
+                            // a known value is a constant, not a coordinate
+                            let c = dag.num(range.lo.exact().clone());
+                            to_proof.insert(s.name.clone(), c);
+                            continue;
+                        }
+                        (s.name.clone(), s.unit.clone())
+                    }
+                    Decl::Uncertain {
+                        estimate,
+                        form,
+                        delta,
+                        ..
+                    } => {
                         let known = range.is_point().then(|| range.lo.clone());
-                        uncertain.push((s.name.clone(), estimate.clone(), *form, known.clone()));
-                        let name = uncertainty_name(&s.name);
+                        uncertain.push((
+                            s.name.clone(),
+                            delta.clone(),
+                            estimate.clone(),
+                            *form,
+                            known.clone(),
+                        ));
+                        let name = delta.clone();
                         if let Some(k) = known {
                             // a known error is a constant, not a coordinate: with zero error
                             // the problem is exactly the one without the uncertainty
@@ -206,6 +262,7 @@ impl Problem {
             constraints: Vec::new(),
             parameters,
             states,
+            memory,
             uncertain,
             to_proof,
         };
@@ -221,6 +278,28 @@ impl Problem {
                 g,
                 strict: c.op == "<" || c.op == ">",
             });
+        }
+        // a controller state never leaves its limits (the generated code keeps it in them):
+        // points beyond them are no counterexample, and a box wholly beyond is excluded
+        for s in spec.symbols_of(SymbolKind::Memory) {
+            let Decl::Memory { limits, .. } = &s.decl else {
+                continue;
+            };
+            let x = problem.dag.sym(&s.name);
+            let lo = problem.dag.num(limits.lo.exact().clone());
+            let hi = problem.dag.num(limits.hi.exact().clone());
+            for (a, b, text) in [
+                (lo, x, format!("{} >= {}", s.name, limits.lo.value())),
+                (x, hi, format!("{} <= {}", s.name, limits.hi.value())),
+            ] {
+                let diff = problem.dag.sub(a, b);
+                let (g, _) = problem.express(diff);
+                problem.constraints.push(ProofConstraint {
+                    text,
+                    g,
+                    strict: false,
+                });
+            }
         }
         problem
     }
@@ -274,10 +353,18 @@ impl Problem {
             .collect()
     }
 
-    /// Indices of the error coordinates.
+    /// Indices of the error coordinates: the states' and the controller states'.
     pub fn errors(&self) -> Vec<usize> {
         (0..self.variables.len())
-            .filter(|&i| self.variables[i].role == Role::Error)
+            .filter(|&i| matches!(self.variables[i].role, Role::Error | Role::MemoryError))
+            .collect()
+    }
+
+    /// Indices of the error coordinates of these states and controller states.
+    pub fn errors_of(&self, symbols: &[String]) -> Vec<usize> {
+        self.errors()
+            .into_iter()
+            .filter(|&i| symbols.contains(&self.variables[i].symbol))
             .collect()
     }
 
@@ -327,14 +414,23 @@ impl Problem {
             };
             out.push((s.clone(), base + value(&error_name(s))));
         }
+        for (m, settle) in &self.memory {
+            let base = match settle {
+                Settle::Value(v) => v.value(),
+                Settle::Unknown(u) => self
+                    .index_of(u)
+                    .map_or_else(|| self.constant_of(u).unwrap_or(f64::NAN), |i| point[i]),
+            };
+            out.push((m.clone(), base + value(&error_name(m))));
+        }
         for (v, x) in self.variables.iter().zip(point) {
-            if v.role != Role::Error {
+            if !matches!(v.role, Role::Error | Role::MemoryError) {
                 out.push((v.name.clone(), *x));
             }
         }
         out.extend(self.parameters.iter().map(|(n, v)| (n.clone(), v.value())));
-        for (name, estimate, form, known) in &self.uncertain {
-            let delta = match (self.index_of(&uncertainty_name(name)), known) {
+        for (name, delta_name, estimate, form, known) in &self.uncertain {
+            let delta = match (self.index_of(delta_name), known) {
                 (Some(d), _) => point[d],
                 (None, Some(c)) => c.value(),
                 (None, None) => continue,
@@ -349,6 +445,27 @@ impl Problem {
             out.push((name.clone(), v));
         }
         out
+    }
+
+    /// The value of a symbol the problem holds as a constant (a parameter, an unknown whose
+    /// range is one point).
+    fn constant_of(&self, name: &str) -> Option<f64> {
+        let id = *self.to_proof.get(name)?;
+        lawsmith_expr::eval(&self.dag, id, &HashMap::new()).ok()
+    }
+
+    /// The error coordinate of controller state `m` where it takes `value`, at a point given
+    /// by name (what it settles at may be a coordinate there).
+    pub fn memory_error_at(&self, m: &str, value: f64, point: &[(String, f64)]) -> Option<f64> {
+        let (_, settle) = self.memory.iter().find(|(n, _)| n == m)?;
+        let base = match settle {
+            Settle::Value(v) => v.value(),
+            Settle::Unknown(u) => match point.iter().find(|(n, _)| n == u) {
+                Some((_, x)) => *x,
+                None => self.constant_of(u)?,
+            },
+        };
+        Some(value - base)
     }
 
     /// Indices of the estimate-error coordinates.

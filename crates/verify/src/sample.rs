@@ -409,6 +409,7 @@ mod tests {
             expr: e,
             test: Test::Negative { strict: true },
             origin: true,
+            exempt: None,
             region: None,
         };
         let c = Compiled::new(&mut problem, goal).unwrap();

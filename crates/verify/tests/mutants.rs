@@ -220,7 +220,7 @@ fn no_false_mutant_is_proven_and_every_counterexample_is_real() {
                 .map(|g| g.kind)
                 .unwrap();
             json!({
-                "kind": match kind { GoalKind::Condition => "condition", GoalKind::Positive => "positive", GoalKind::Claim => "claim" },
+                "kind": kind.name(),
                 "goal": c.goal,
                 "coordinates": c.coordinates.iter().map(|(n, v)| (n.clone(), json!(v))).collect::<serde_json::Map<_, _>>(),
             })

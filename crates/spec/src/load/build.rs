@@ -26,6 +26,33 @@ pub(super) type ActuatorAst = (
 );
 
 impl Loader<'_> {
+    /// Each controller state's update law, parsed; one missing is reported.
+    pub(super) fn update_laws(&mut self, raw: &RawSpec) -> Vec<Named> {
+        let mut out = Vec::new();
+        for (n, m) in &raw.memory.0 {
+            match &m.update {
+                Some(f) => {
+                    if let Some(p) = self.parse_formula(f) {
+                        out.push((n.value.clone(), p, f.value.clone()));
+                    }
+                }
+                None => {
+                    let span = self.name_span(n);
+                    self.err(
+                        Diagnostic::new(
+                            "memory-without-update",
+                            format!("controller state `{}` has no update law", n.value),
+                            span,
+                        )
+                        .label("declared here")
+                        .hint(format!("add `update: <formula for d{}/dt>` to it", n.value)),
+                    );
+                }
+            }
+        }
+        out
+    }
+
     pub(super) fn structure(&mut self, raw: &RawSpec) -> (Vec<Named>, Vec<Named>) {
         let states: Vec<String> = self.names_of(SymbolKind::State);
         let mut dyn_asts = Vec::new();
@@ -121,6 +148,26 @@ impl Loader<'_> {
             let want = self.dim_of_symbol(input);
             self.expect_dim(ast, *base, text, want, &format!("law for `{input}`"));
         }
+        for (m, (ast, base), text) in self.updates.clone().iter().filter(|_| !bad_units) {
+            let want = self.dim_of_symbol(m).map(|d| d.div(&second()));
+            let got = self.dim(ast, *base, text, &mut Vec::new());
+            if let (Some(g), Some(w)) = (got, want) {
+                if g != w {
+                    let span = self.file_span(*base, text, ast.span);
+                    self.err(
+                        Diagnostic::new(
+                            "dimension",
+                            format!("the update law of `{m}` is in {g} but should be in {w}"),
+                            span,
+                        )
+                        .label(format!("this is {g}"))
+                        .hint(format!(
+                            "an update law is the time derivative of its controller state: the unit of `{m}` per second"
+                        )),
+                    );
+                }
+            }
+        }
         let cand = self.parse_formula(&raw.lyapunov.candidate);
         if let Some((ast, base)) = &cand {
             self.dim(ast, *base, &raw.lyapunov.candidate.value, &mut Vec::new());
@@ -210,7 +257,12 @@ impl Loader<'_> {
         dyn_asts: &[Named],
         law_asts: &[Named],
         cand: &Option<(Ast, usize)>,
-    ) -> (Vec<(String, ExprId)>, Vec<(String, ExprId)>, Option<ExprId>) {
+    ) -> (
+        Vec<(String, ExprId)>,
+        Vec<(String, ExprId)>,
+        Vec<(String, ExprId)>,
+        Option<ExprId>,
+    ) {
         let mut dynamics = Vec::new();
         for (state, (ast, base), text) in dyn_asts {
             let ctx = Ctx {
@@ -235,9 +287,36 @@ impl Loader<'_> {
                 plant: false,
             };
             if let Some(id) = self.lower_in(dag, ast, &ctx) {
-                self.no_true_values(dag, id, *base, text, &format!("the law for `{input}`"));
+                self.no_true_values(
+                    dag,
+                    id,
+                    (*base, text),
+                    &format!("the law for `{input}`"),
+                    true,
+                );
                 self.no_law_loop(dag, id, i, *base, text);
                 laws.push((input.clone(), id));
+            }
+        }
+        // update laws read what the laws read, and the laws' outputs
+        let mut updates = Vec::new();
+        for (m, (ast, base), text) in self.updates.clone() {
+            let ctx = Ctx {
+                base,
+                text: text.clone(),
+                law_index: Some(law_asts.len()),
+                dynamics: Some(&dyn_map),
+                plant: false,
+            };
+            if let Some(id) = self.lower_in(dag, &ast, &ctx) {
+                self.no_true_values(
+                    dag,
+                    id,
+                    (base, &text),
+                    &format!("the update law of `{m}`"),
+                    true,
+                );
+                updates.push((m.clone(), id));
             }
         }
         let mut candidate = None;
@@ -252,10 +331,10 @@ impl Loader<'_> {
             candidate = self.lower_in(dag, ast, &ctx);
             if let Some(id) = candidate {
                 let text = raw.lyapunov.candidate.value.clone();
-                self.no_true_values(dag, id, *base, &text, "the candidate");
+                self.no_true_values(dag, id, (*base, &text), "the candidate", false);
             }
         }
-        (dynamics, laws, candidate)
+        (dynamics, laws, updates, candidate)
     }
 
     pub(super) fn lower_outputs(
@@ -277,7 +356,7 @@ impl Loader<'_> {
                 plant: false,
             };
             if let (Some(id), Some(l)) = (self.lower_in(dag, ast, &ctx), limits) {
-                self.no_true_values(dag, id, *base, text, &format!("actuator `{name}`"));
+                self.no_true_values(dag, id, (*base, text), &format!("actuator `{name}`"), true);
                 actuators.push(Actuator {
                     name: name.clone(),
                     law: id,

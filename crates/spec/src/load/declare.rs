@@ -20,6 +20,7 @@ impl Loader<'_> {
         self.declare_references(raw);
         self.declare_states(raw);
         self.declare_signals(raw);
+        self.declare_memory(raw);
         let def_order = self.declare_definitions(raw);
         (def_order, self.declare_guidance(raw))
     }
@@ -425,14 +426,48 @@ impl Loader<'_> {
         self.symbols.len() - 1
     }
 
-    /// Declares an uncertain quantity: the plant's true value of a signal or an input.
+    /// Declares an uncertain quantity: the plant's true value of a signal or an input (its
+    /// error optionally named), or a constant unknown.
     fn declare_uncertain(&mut self, n: &SpannedStr, u: &RawUncertain) {
+        if let Some(range) = &u.constant {
+            self.declare_constant(n, u, range);
+            return;
+        }
         let ok = self.declare(n, SymbolKind::Uncertain);
-        let span = self.name_span(&u.estimate);
+        let Some(est) = &u.estimate else {
+            let span = self.name_span(n);
+            self.err(
+                Diagnostic::new(
+                    "bad-uncertain",
+                    format!(
+                        "uncertain `{}` needs `estimate:` (the signal or input it is the true value of) or `constant: [min, max]`",
+                        n.value
+                    ),
+                    span,
+                )
+                .hint("true value of an estimate: { estimate: drag, relative: [-0.2, 0.2] }; a constant unknown: { constant: [-40, 40], unit: W }"),
+            );
+            return;
+        };
+        if let Some(unit) = &u.unit {
+            let span = self.name_span(unit);
+            self.err(
+                Diagnostic::new(
+                    "bad-uncertain",
+                    format!(
+                        "uncertain `{}` takes the unit of its estimate; `unit:` belongs to a constant unknown",
+                        n.value
+                    ),
+                    span,
+                )
+                .label("not allowed here"),
+            );
+        }
+        let span = self.name_span(est);
         let estimate = self
             .symbols
             .iter()
-            .find(|s| s.name == u.estimate.value)
+            .find(|s| s.name == est.value)
             .map(|s| (s.kind(), s.unit.clone(), s.dim));
         let (unit, dim) = match estimate {
             Some((SymbolKind::Signal | SymbolKind::Input, unit, dim)) => (unit, dim),
@@ -442,7 +477,7 @@ impl Loader<'_> {
                         "bad-uncertain",
                         format!(
                             "`{}` is a {}; an uncertain quantity is the true value of a signal or an input",
-                            u.estimate.value,
+                            est.value,
                             k.name()
                         ),
                         span,
@@ -456,7 +491,7 @@ impl Loader<'_> {
                 names.extend(self.names_of(SymbolKind::Input));
                 self.err(unknown(
                     "unknown-symbol",
-                    &u.estimate.value,
+                    &est.value,
                     "signal or input",
                     span,
                     names,
@@ -502,21 +537,234 @@ impl Loader<'_> {
             );
             return;
         }
+        // the error, constant in time, under a name of its own when the spec gives one
+        let delta = match &u.error {
+            Some(e) => {
+                if self.declare(e, SymbolKind::Unknown) {
+                    let (du, dd) = match form {
+                        ErrorForm::Relative => ("1".to_string(), Dim::one()),
+                        ErrorForm::Absolute => (unit.clone(), dim),
+                    };
+                    let decl = Decl::Unknown {
+                        range: error.clone(),
+                        of: Some(n.value.clone()),
+                    };
+                    self.push_symbol(&e.value, &du, dd, decl);
+                }
+                e.value.clone()
+            }
+            None => uncertainty_name(&n.value),
+        };
         if ok {
-            let estimate = u.estimate.value.clone();
             let decl = Decl::Uncertain {
-                estimate,
+                estimate: est.value.clone(),
                 form,
                 error,
+                delta,
             };
             self.push_symbol(&n.value, &unit, dim, decl);
+        }
+    }
+
+    /// A constant unknown: `{ constant: [min, max], unit }`.
+    fn declare_constant(&mut self, n: &SpannedStr, u: &RawUncertain, range: &RawRange) {
+        let extra = [
+            (u.estimate.is_some(), "estimate"),
+            (u.relative.is_some(), "relative"),
+            (u.absolute.is_some(), "absolute"),
+            (u.error.is_some(), "error"),
+        ];
+        if let Some((_, key)) = extra.iter().find(|(set, _)| *set) {
+            let span = self.name_span(n);
+            self.err(
+                Diagnostic::new(
+                    "bad-uncertain",
+                    format!(
+                        "constant unknown `{}` takes `constant: [min, max]` and `unit:` only, not `{key}:`",
+                        n.value
+                    ),
+                    span,
+                )
+                .hint("the true value of an estimate is { estimate: NAME, relative: [min, max] }"),
+            );
+            return;
+        }
+        let Some(unit) = &u.unit else {
+            let span = self.name_span(n);
+            self.err(
+                Diagnostic::new(
+                    "bad-uncertain",
+                    format!("constant unknown `{}` needs `unit:`", n.value),
+                    span,
+                )
+                .hint("e.g. { constant: [-40, 40], unit: W }"),
+            );
+            return;
+        };
+        let ok = self.declare(n, SymbolKind::Unknown);
+        let dim = self.unit(unit);
+        let range = self.pair(range, "constant range");
+        if let (true, Some(range)) = (ok, range) {
+            let decl = Decl::Unknown { range, of: None };
+            self.push_symbol(&n.value, &unit.value, dim, decl);
+        }
+    }
+
+    /// Controller states: unit, initial value, limits, and what each settles at.
+    fn declare_memory(&mut self, raw: &RawSpec) {
+        for (n, m) in &raw.memory.0 {
+            let ok = self.declare(n, SymbolKind::Memory);
+            let dim = self.unit(&m.unit);
+            let limits = self.pair(&m.limits, "limits");
+            let initial = if m.initial.value.is_finite() {
+                self.literal(&m.initial)
+            } else {
+                let span = range_of(self.src, &m.initial);
+                self.err(Diagnostic::new(
+                    "bad-number",
+                    "the initial value must be finite",
+                    span,
+                ));
+                None
+            };
+            let settle = match (&m.estimates, &m.equilibrium) {
+                (Some(_), Some(e)) => {
+                    let span = range_of(self.src, e);
+                    self.err(
+                        Diagnostic::new(
+                            "memory-target",
+                            format!(
+                                "controller state `{}` has both `estimates` and `equilibrium`",
+                                n.value
+                            ),
+                            span,
+                        )
+                        .hint("keep one: `estimates: UNKNOWN` for an adaptive estimate, `equilibrium: NUMBER` for an integrator that settles at a known value"),
+                    );
+                    None
+                }
+                (Some(u), None) => self.estimated(n, u, dim),
+                (None, Some(e)) => self
+                    .literal(e)
+                    .map(|d| (Settle::Value(d.clone()), d.clone(), d)),
+                (None, None) => {
+                    let zero = Decimal::from_f64(0.0);
+                    Some((Settle::Value(zero.clone()), zero.clone(), zero))
+                }
+            };
+            let (Some(limits), Some(initial), Some((settle, slo, shi))) = (limits, initial, settle)
+            else {
+                // declared all the same (the error is reported, so the spec is refused), so
+                // formulas that use it raise no further error
+                if ok {
+                    let decl = Decl::Memory {
+                        initial: Decimal::from_f64(0.0),
+                        limits: placeholder(),
+                        settle: Settle::Value(Decimal::from_f64(0.0)),
+                    };
+                    self.push_symbol(&n.value, &m.unit.value, dim, decl);
+                }
+                continue;
+            };
+            let span = range_of(self.src, &m.limits);
+            if !(limits.lo.exact() <= slo.exact() && shi.exact() <= limits.hi.exact()) {
+                let what = match &settle {
+                    Settle::Value(v) => format!("its equilibrium {}", v.value()),
+                    Settle::Unknown(u) => {
+                        format!("the range [{}, {}] of `{u}`", slo.value(), shi.value())
+                    }
+                };
+                self.err(
+                    Diagnostic::new(
+                        "memory-limits",
+                        format!(
+                            "the limits [{}, {}] of `{}` do not hold {what}",
+                            limits.lo.value(),
+                            limits.hi.value(),
+                            n.value
+                        ),
+                        span.clone(),
+                    )
+                    .label("too narrow")
+                    .hint("the state must be able to reach what it settles at; widen the limits"),
+                );
+            }
+            if !(limits.lo.exact() <= initial.exact() && initial.exact() <= limits.hi.exact()) {
+                self.err(
+                    Diagnostic::new(
+                        "memory-limits",
+                        format!(
+                            "the initial value {} of `{}` is outside its limits [{}, {}]",
+                            initial.value(),
+                            n.value,
+                            limits.lo.value(),
+                            limits.hi.value()
+                        ),
+                        range_of(self.src, &m.initial),
+                    )
+                    .label("outside the limits"),
+                );
+            }
+            if ok {
+                let decl = Decl::Memory {
+                    initial,
+                    limits,
+                    settle,
+                };
+                self.push_symbol(&n.value, &m.unit.value, dim, decl);
+            }
+        }
+    }
+
+    /// What an estimate settles at: the unknown it names, with that unknown's range.
+    fn estimated(
+        &mut self,
+        n: &SpannedStr,
+        u: &SpannedStr,
+        dim: Dim,
+    ) -> Option<(Settle, Decimal, Decimal)> {
+        let span = self.name_span(u);
+        let found = self
+            .symbols
+            .iter()
+            .find(|s| s.name == u.value)
+            .map(|s| (s.decl.clone(), s.dim, s.unit.clone()));
+        match found {
+            Some((Decl::Unknown { range, .. }, udim, uunit)) => {
+                if udim != dim {
+                    self.err(
+                        Diagnostic::new(
+                            "dimension",
+                            format!(
+                                "controller state `{}` is in {dim} but the unknown `{}` it estimates is in {udim} ({uunit})",
+                                n.value, u.value
+                            ),
+                            span,
+                        )
+                        .label("unit differs"),
+                    );
+                    return None;
+                }
+                Some((Settle::Unknown(u.value.clone()), range.lo, range.hi))
+            }
+            _ => {
+                let names = self.names_of(SymbolKind::Unknown);
+                let mut d = unknown("unknown-symbol", &u.value, "unknown constant", span, names);
+                if d.hint.is_none() {
+                    d = d.hint(
+                        "an estimate names a constant unknown: `NAME: { constant: [min, max], unit }` or the `error:` of an uncertain quantity, under `uncertain`",
+                    );
+                }
+                self.err(d);
+                None
+            }
         }
     }
 
     /// The claim, and the required bounds of an ultimate-bound claim.
     pub(super) fn claim(&mut self, raw: &RawSpec) -> Claim {
         let span = range_of(self.src, &raw.lyapunov.claim);
-        let hint = "use negative_definite, negative_semidefinite, { exponential: RATE } or { ultimate_bound: auto | { STATE: BOUND, … } }";
+        let hint = "use negative_definite, negative_semidefinite, { exponential: RATE }, { ultimate_bound: auto | { STATE: BOUND, … } } or { negative_definite_in: [STATE, …] }";
         let states = self.names_of(SymbolKind::State);
         let bad = |what: String| Diagnostic::new("bad-claim", what, span.clone()).hint(hint);
         match &raw.lyapunov.claim.value {
@@ -528,6 +776,29 @@ impl Loader<'_> {
                 if *exponential > 0.0 && exponential.is_finite() =>
             {
                 return Claim::Exponential(*exponential)
+            }
+            RawClaim::DefiniteIn {
+                negative_definite_in: names,
+            } => {
+                let mut known = states.clone();
+                known.extend(self.names_of(SymbolKind::Memory));
+                for k in names {
+                    if !known.contains(k) {
+                        let mut d = bad(format!(
+                            "negative_definite_in names `{k}`, which is not a state or a controller state"
+                        ));
+                        if let Some(s) = nearest(k, known.iter().map(String::as_str)) {
+                            d = d.hint(format!("did you mean `{s}`?"));
+                        }
+                        self.err(d);
+                    }
+                }
+                if names.is_empty() {
+                    self.err(bad("negative_definite_in lists no state".into()));
+                }
+                // in declaration order, each once
+                let ordered = known.into_iter().filter(|k| names.contains(k)).collect();
+                return Claim::NegativeDefiniteIn(ordered);
             }
             RawClaim::Named(s) => self.err(bad(format!("unknown claim `{s}`"))),
             RawClaim::Exponential { exponential } => self.err(bad(format!(

@@ -237,7 +237,7 @@ impl Loader<'_> {
         if let Some(s) = nearest(name, names.iter().copied()) {
             d = d.hint(format!("did you mean `{s}`?"));
         } else {
-            d = d.hint("declare it under parameters, gains, states, references, signals or inputs");
+            d = d.hint("declare it under parameters, gains, states, references, signals, inputs, uncertain or memory");
         }
         d
     }

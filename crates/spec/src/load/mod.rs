@@ -53,6 +53,7 @@ pub fn load(source: &str) -> Result<Spec, Vec<Diagnostic>> {
         def_dims: HashMap::new(),
         inputs: Vec::new(),
         law_order: Vec::new(),
+        updates: Vec::new(),
     };
     l.run(raw).map_err(|()| l.diags.clone()).and_then(|spec| {
         if l.diags.is_empty() {
@@ -136,6 +137,8 @@ struct Loader<'s> {
     inputs: Vec<String>,
     /// The inputs in the order of `laws:` (the evaluation order).
     law_order: Vec<String>,
+    /// The controller states' update laws, parsed.
+    updates: Vec<build::Named>,
 }
 
 /// Where a formula's text starts in the file, so formula offsets become file offsets.
@@ -245,6 +248,7 @@ impl<'s> Loader<'s> {
         let claim = self.claim(&raw);
         // 2. structure: dynamics for every state, a law for every input
         let (dyn_asts, law_asts) = self.structure(&raw);
+        self.updates = self.update_laws(&raw);
         // 3. dimensions
         let (cand, act_asts, constraint_asts) =
             self.dimensions(&raw, &def_order, &dyn_asts, &law_asts);
@@ -253,7 +257,7 @@ impl<'s> Loader<'s> {
         }
         // 4. lowering, in dependency order: dynamics, definitions, laws
         let mut dag = Dag::new();
-        let (dynamics, laws, candidate) =
+        let (dynamics, laws, updates, candidate) =
             self.lower_model(&mut dag, &raw, &dyn_asts, &law_asts, &cand);
         let (actuators, constraints) = self.lower_outputs(
             &mut dag,
@@ -315,6 +319,7 @@ impl<'s> Loader<'s> {
             },
             claim,
             laws,
+            updates,
             constraints,
             actuators,
             guidance: guidance_cmds,
@@ -322,12 +327,38 @@ impl<'s> Loader<'s> {
     }
 
     /// Reports a formula of the controller (or the candidate) that came to depend on a true
-    /// value through `ddt(…)` of a state, whose dynamics use it.
-    fn no_true_values(&mut self, dag: &Dag, id: ExprId, base: usize, text: &str, what: &str) {
-        let used: Vec<String> = dag
-            .symbols(id)
-            .into_iter()
-            .filter(|s| self.decl.get(s).map(|d| d.0) == Some(SymbolKind::Uncertain))
+    /// value through `ddt(…)` of a state, whose dynamics use it; and, for the controller
+    /// (`unknowns`), on a constant unknown.
+    fn no_true_values(
+        &mut self,
+        dag: &Dag,
+        id: ExprId,
+        (base, text): (usize, &str),
+        what: &str,
+        unknowns: bool,
+    ) {
+        let kind = |s: &String| self.decl.get(s).map(|d| d.0);
+        let symbols = dag.symbols(id);
+        if let Some(u) = symbols
+            .iter()
+            .find(|s| unknowns && kind(s) == Some(SymbolKind::Unknown))
+        {
+            self.err(
+                Diagnostic::new(
+                    "uncertain-in-law",
+                    format!(
+                        "{what} depends on `{u}`, a constant the controller does not know; only the dynamics and the candidate may use it"
+                    ),
+                    base..base + text.len().max(1),
+                )
+                .label("uses an unknown")
+                .hint("estimate it with a controller state (`estimates:` under `memory`) and use the estimate"),
+            );
+            return;
+        }
+        let used: Vec<&String> = symbols
+            .iter()
+            .filter(|s| kind(s) == Some(SymbolKind::Uncertain))
             .collect();
         if let Some(u) = used.first() {
             self.err(
@@ -507,8 +538,13 @@ fn unknown(
     span: Range<usize>,
     names: Vec<String>,
 ) -> Diagnostic {
+    let article = if kind.starts_with(['a', 'e', 'i', 'o', 'u']) {
+        "an"
+    } else {
+        "a"
+    };
     let mut d = Diagnostic::new(class, format!("`{name}` is not a declared {kind}"), span)
-        .label(format!("not a {kind}"));
+        .label(format!("not {article} {kind}"));
     if let Some(s) = nearest(name, names.iter().map(String::as_str)) {
         d = d.hint(format!("did you mean `{s}`?"));
     } else if !names.is_empty() {

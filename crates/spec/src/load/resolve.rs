@@ -180,7 +180,10 @@ impl SpecResolver<'_, '_, '_> {
                     (s.kind(), rate)
                 });
             let rate = match kind {
-                Some((SymbolKind::Parameter | SymbolKind::Gain, _)) => continue,
+                // constant in time: gains, parameters, unknown constants
+                Some((SymbolKind::Parameter | SymbolKind::Gain | SymbolKind::Unknown, _)) => {
+                    continue
+                }
                 Some((SymbolKind::Reference, Some(rate))) => dag.sym(&rate),
                 Some((SymbolKind::State, _)) => match self.ctx.dynamics.and_then(|d| d.get(&name)) {
                     Some(&f) => f,

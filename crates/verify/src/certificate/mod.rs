@@ -25,8 +25,11 @@ use sha2::{Digest, Sha256};
 /// an independent checker needs beside the spec: each coordinate's declared range as exact
 /// decimals, the parameters' exact values, the region (V) of an ultimate bound's claim and
 /// the candidate its sublevel proofs bound. Version 3 added `actuators`: each command against
-/// its limits, with its proof or the point where it leaves them.
-pub const CERTIFICATE_VERSION: u64 = 3;
+/// its limits, with its proof or the point where it leaves them. Version 4 added controller
+/// states: their error coordinates (`controller-state error`), their limits as constraints
+/// after the spec's, the `projection` goals at those limits, the constant unknowns (role
+/// `uncertainty`, named as declared), and each Lyapunov goal's exempt `errors`.
+pub const CERTIFICATE_VERSION: u64 = 4;
 
 /// An exact rational as text: its terminating decimal, or `p/q`.
 fn exact_text(v: &lawsmith_expr::BigRational) -> String {
@@ -93,11 +96,7 @@ pub fn test_json(t: &Test) -> Value {
 }
 
 fn kind_name(k: GoalKind) -> &'static str {
-    match k {
-        GoalKind::Condition => "condition",
-        GoalKind::Positive => "positive",
-        GoalKind::Claim => "claim",
-    }
+    k.name()
 }
 
 fn evidence_json(bx: &[Interval], ev: &Evidence) -> Value {
@@ -164,6 +163,11 @@ fn bound_json(b: &BoundReport, prepared: &Prepared) -> (Value, usize) {
     (v, leaves)
 }
 
+/// The coordinates whose joint zero a Lyapunov goal is exempt at, by name.
+pub(crate) fn exempt_names(c: &Compiled) -> Vec<&str> {
+    c.errors.iter().map(|&k| c.names[k].as_str()).collect()
+}
+
 /// A goal's statement, its status and its evidence (the split tree of a proof, or the
 /// counterexample) into `o`; returns the leaves written.
 fn goal_json(
@@ -176,6 +180,9 @@ fn goal_json(
     o.insert("expr".into(), json!(c.text));
     o.insert("test".into(), test_json(&c.goal.test));
     o.insert("origin_exempt".into(), json!(c.goal.origin));
+    if c.goal.origin {
+        o.insert("errors".into(), json!(exempt_names(c)));
+    }
     if let Some(r) = &c.region_text {
         o.insert("region".into(), json!(r));
     }

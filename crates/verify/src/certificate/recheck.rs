@@ -195,6 +195,7 @@ fn statement<'a>(gj: &'a Value, c: &Compiled, at: &str) -> Result<&'a str, Rejec
     if gj.get("expr").and_then(Value::as_str) != Some(c.text.as_str())
         || gj.get("test") != Some(&test_json(&c.goal.test))
         || gj.get("dims") != Some(&json!(c.names))
+        || (c.goal.origin && gj.get("errors") != Some(&json!(super::exempt_names(c))))
     {
         return reject(format!(
             "{at}: expression, test or coordinates differ from the spec's"

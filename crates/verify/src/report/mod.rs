@@ -214,6 +214,12 @@ pub fn text(r: &CheckReport, path: &str, timings: bool) -> String {
             sig(m)
         );
     }
+    if !r.follows.is_empty() {
+        let _ = writeln!(s, "\nwhat follows:");
+        for f in &r.follows {
+            let _ = writeln!(s, "  - {f}");
+        }
+    }
     if !r.saturation.is_empty() {
         let _ = writeln!(
             s,
@@ -513,7 +519,7 @@ pub fn json(r: &CheckReport, path: &str) -> Value {
         .iter()
         .map(|g| {
             let mut o = json!({
-                "kind": match g.kind { GoalKind::Condition => "condition", GoalKind::Positive => "positive", GoalKind::Claim => "claim" },
+                "kind": g.kind.name(),
                 "label": g.label,
                 "source": g.source,
                 "expr": g.text,
@@ -555,6 +561,7 @@ pub fn json(r: &CheckReport, path: &str) -> Value {
         "counterexample": counterexample,
         "boxes": r.boxes,
         "min_margin": r.min_margin,
+        "follows": r.follows,
         "seconds": r.seconds,
         "goals": goals,
         "ultimate_bound": r.bound.as_ref().map(bound_json),
