@@ -42,6 +42,8 @@ pub fn build_cmd(
     let mut rows = Vec::new();
     let mut json_specs: Vec<Value> = Vec::new();
     let mut notes: Vec<String> = Vec::new();
+    // what the proofs of the laws with controller states imply
+    let mut follows: Vec<String> = Vec::new();
     let mut md = String::from("# lawsmith report\n\nWritten by `lawsmith build`. The airframe and the scenarios are the invented demo\nairframe and scenarios of lawsmith's examples, not a real aircraft.\n\n## Specs\n\n| spec | claim | verdict | boxes | worst sampled margin | ops/step | saturation (verdict over the envelope; share of sampled points beyond the limits) | independent checker |\n|---|---|---|---:|---:|---:|---|---|\n");
     let mut code = 0u8;
     // proved ultimate bounds, by spec file, for the scenarios' cross-checks
@@ -115,6 +117,17 @@ pub fn build_cmd(
                 {
                     bounds.insert(p, b.clone());
                 }
+                if !e.report.follows.is_empty() {
+                    follows.push(format!(
+                        "- **{name}** ({}):\n{}",
+                        e.report.claim.name(),
+                        e.report
+                            .follows
+                            .iter()
+                            .map(|f| format!("  - {f}\n"))
+                            .collect::<String>()
+                    ));
+                }
                 if e.report.bound.is_some() {
                     notes.push(format!(
                         "- **{name}**: {}",
@@ -166,10 +179,16 @@ pub fn build_cmd(
             md.push('\n');
         }
     }
+    if !follows.is_empty() {
+        md.push_str("\nLaws with controller states (integral action, adaptive estimates): what each proof implies, and what it does not:\n\n");
+        for f in &follows {
+            md.push_str(f);
+        }
+    }
     // the example scenarios
     let scenarios = specs_in(&specs_dir.join("scenarios"));
     if !scenarios.is_empty() {
-        md.push_str("\n## Scenarios\n\nEach scenario flies the energy law as generated (the interpreter of the emitted code)\nbeside the PID and LQR baselines; metrics are reported as measured, not tuned to a\nranking. `-` marks a metric the scenario does not define (no such step) or a step that\nnever settled. CSV time series are written beside the plots (not committed).\n");
+        md.push_str("\n## Scenarios\n\nEach scenario flies the energy law as generated (the interpreter of the emitted code)\nbeside the laws it compares (`compare:`, e.g. the adaptive and integral variants) and the\nPID and LQR baselines; metrics are reported as measured, not tuned to a\nranking. `-` marks a metric the scenario does not define (no such step) or a step that\nnever settled. CSV time series are written beside the plots (not committed).\n");
     }
     let mut sim_rows = Vec::new();
     for sc in &scenarios {
@@ -192,17 +211,13 @@ pub fn build_cmd(
                     let _ = writeln!(md, "{s}\n");
                 }
                 md.push_str(&lawsmith_sim::output::markdown_table(&run));
-                let links: Vec<String> = [
-                    "altitude",
-                    "airspeed",
-                    "pitch",
-                    "throttle",
-                    "energy_error",
-                    "balance_error",
-                ]
-                .iter()
-                .map(|p| format!("[{p}]({stem}/{p}.svg)"))
-                .collect();
+                let links: Vec<String> = lawsmith_sim::output::plots(&run)
+                    .iter()
+                    .map(|(file, _)| {
+                        let p = file.trim_end_matches(".svg");
+                        format!("[{p}]({stem}/{file})")
+                    })
+                    .collect();
                 let _ = writeln!(
                     md,
                     "\nPlots: {}\n\n![altitude]({stem}/altitude.svg)",

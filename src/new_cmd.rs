@@ -45,6 +45,18 @@ signals:
 inputs:
   thrust: { unit: N }
 
+# Optional: what the law does not know, and what it carries from one period to the next.
+#   uncertain:   the plant's true value of a signal or input, its error named for the candidate
+#     drag_true: { estimate: drag, relative: [-0.2, 0.2], error: drag_error }
+#                or a constant unknown: { constant: [min, max], unit: N }
+#   memory:      controller states (integrators, adaptive estimates), held within their limits
+#     dhat: { unit: 1, initial: 0, update: FORMULA for d(dhat)/dt, limits: [-0.3, 0.3],
+#             estimates: drag_error }   (or `equilibrium: NUMBER` for an integrator)
+# The dynamics may use true values and unknowns, the laws their estimates and the controller
+# states; the candidate may use all of them. With an estimate, claim
+# { negative_definite_in: [v] } asks dV/dt < 0 wherever the speed error is not zero, whatever
+# the estimate's error (see specs/energy_adaptive.yaml and specs/energy_integral.yaml).
+
 # The proof model: state -> its time derivative.
 dynamics:
   v: (thrust - drag) / mass
@@ -58,7 +70,8 @@ lyapunov:
     ev: v - ref(v)
   candidate: 0.5 * mass * ev^2
   # negative_definite, negative_semidefinite, { exponential: RATE },
-  # or { ultimate_bound: auto } with an `uncertain:` section
+  # { ultimate_bound: auto } with an `uncertain:` section,
+  # or { negative_definite_in: [STATE, ...] } with controller states
   claim: negative_definite
 
 # In evaluation order; a law may use the laws above it.

@@ -6,7 +6,7 @@ use crate::{read_spec, write_atomic, ReportFormat, EXIT_INVALID, EXIT_REFUSED};
 use lawsmith_sim::bounded::{cross_check, BoundCheck};
 use lawsmith_sim::montecarlo::campaign;
 use lawsmith_sim::output::{csv, json, plots, table, ScenarioRun};
-use lawsmith_sim::run::{Setup, SetupError, PILOTS};
+use lawsmith_sim::run::{Setup, SetupError};
 use lawsmith_sim::scenario::Scenario;
 use lawsmith_spec::{Claim, Spec};
 use lawsmith_verify::{check, BoundReport, Settings, Verdict};
@@ -15,7 +15,8 @@ use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
-/// Reads a scenario and the spec it names (relative to the scenario file).
+/// Reads a scenario, the spec it names and the specs it compares (relative to the scenario
+/// file).
 pub fn load_setup(path: &Path) -> Result<(Setup, Spec), u8> {
     let text = std::fs::read_to_string(path).map_err(|e| {
         eprintln!("error[io]: cannot read {}: {e}", path.display());
@@ -25,9 +26,16 @@ pub fn load_setup(path: &Path) -> Result<(Setup, Spec), u8> {
         eprintln!("error[scenario]: {}: {e}", path.display());
         EXIT_INVALID
     })?;
-    let spec_path = path.parent().unwrap_or(Path::new(".")).join(&scenario.spec);
-    let loaded = read_spec(&spec_path).ok_or(EXIT_INVALID)?;
-    let setup = Setup::new(scenario, &loaded.spec).map_err(|e| match e {
+    let dir = path.parent().unwrap_or(Path::new("."));
+    let loaded = read_spec(&dir.join(&scenario.spec)).ok_or(EXIT_INVALID)?;
+    let compared = scenario
+        .compare
+        .iter()
+        .map(|c| read_spec(&dir.join(c)).map(|l| l.spec).ok_or(EXIT_INVALID))
+        .collect::<Result<Vec<_>, u8>>()?;
+    let refs: Vec<&Spec> = compared.iter().collect();
+    let setup = Setup::new(scenario, &loaded.spec).and_then(|s| s.comparing(&refs));
+    let setup = setup.map_err(|e| match e {
         SetupError::Invalid(m) => {
             eprintln!("error[scenario]: {}: {m}", path.display());
             EXIT_INVALID
@@ -124,7 +132,8 @@ fn bound_check(
 /// Flies every controller of a scenario.
 pub fn fly_all(setup: &Setup) -> Result<ScenarioRun, String> {
     let nominal = setup.nominal();
-    let flights = PILOTS
+    let flights = setup
+        .pilots()
         .iter()
         .map(|p| setup.fly(p, &nominal))
         .collect::<Result<Vec<_>, _>>()?;
@@ -214,10 +223,13 @@ pub fn sim_cmd(
             return ExitCode::from(EXIT_INVALID);
         }
     };
-    if let Err(e) = write_run(out, &run) {
-        eprintln!("error[io]: {e}");
-        return ExitCode::from(EXIT_INVALID);
-    }
+    let written = match write_run(out, &run) {
+        Ok(w) => w,
+        Err(e) => {
+            eprintln!("error[io]: {e}");
+            return ExitCode::from(EXIT_INVALID);
+        }
+    };
     match format {
         ReportFormat::Text => {
             println!("{} ({})", run.name, path.display());
@@ -227,7 +239,19 @@ pub fn sim_cmd(
             println!();
             print!("{}", table(&run));
             if crate::verbosity() > 0 {
-                println!("\nwrote {}/: {{energy,pid,lqr}}.csv and altitude, airspeed, pitch, throttle, energy_error, balance_error .svg", out.display());
+                let named = |ext: &str| -> Vec<String> {
+                    written
+                        .iter()
+                        .filter(|p| p.extension().is_some_and(|e| e == ext))
+                        .filter_map(|p| Some(p.file_stem()?.to_string_lossy().to_string()))
+                        .collect()
+                };
+                println!(
+                    "\nwrote {}/: {}.csv and {} .svg",
+                    out.display(),
+                    named("csv").join(".csv, "),
+                    named("svg").join(", ")
+                );
             }
         }
         ReportFormat::Json => println!(

@@ -4,7 +4,7 @@
 // spec SHA-256: 42cd1e7bfbb460ab31463ca9b54148b1bcd74fd9bfd483751ca4f8d78fd77800
 // lawsmith version: 0.1.0
 // proof: PROVEN (negative_definite) over the declared envelope by `lawsmith check`.
-// proof evidence: 1033 boxes of branch and bound; certificate SHA-256: dd39908ce00e14eac6ac0ede8f71388a6028b3b06049980e496400df3913ce47
+// proof evidence: 1033 boxes of branch and bound; certificate SHA-256: 471b8b56a9413a037b7f9e5bd66aec74f6e0c2f1337ec25414d73e0031bf5cb9
 // (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
 // saturation over the envelope (the proof assumes the unsaturated law): pitch_cmd saturates, thrust_cmd saturates
 //

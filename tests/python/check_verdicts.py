@@ -64,6 +64,19 @@ class Case:
         for n, d in (s.get("references") or {}).items():
             self.ranges[n] = d["range"]
             self.ranges[d["rate"]] = d["rate_range"]
+        # the unknowns: constant ones, and the errors of uncertain quantities (named or δ)
+        for n, d in (s.get("uncertain") or {}).items():
+            if "constant" in d:
+                self.ranges[n] = d["constant"]
+            else:
+                form = "relative" if "relative" in d else "absolute"
+                self.ranges[d.get("error") or "\u03b4" + n] = d[form]
+        # controller states: each what it settles at plus its error, held within its limits
+        self.memory = s.get("memory") or {}
+        claim = (s.get("lyapunov") or {}).get("claim")
+        tracked = claim.get("negative_definite_in") if isinstance(claim, dict) else None
+        self.exempt = ["Δ" + n for n in (tracked if tracked else
+                                          list(self.states) + list(self.memory))]
         local = dict(FUNCS)
         local.update({n: sp.Symbol(n, real=True) for n in self.ranges})
         self.constraints = [parse_expr(c.replace("<=", "<").replace(">=", ">"), local_dict=local,
@@ -84,7 +97,18 @@ class Case:
         for n, d in self.states.items():
             centre = p[d["reference"]] if d.get("reference") else decimal(d.get("equilibrium", 0))
             p[n] = centre + exact(coords["Δ" + n])
+        for n, d in self.memory.items():
+            p[n] = self.settle(n, p) + exact(coords["Δ" + n])
         return p
+
+    def settle(self, m, p):
+        """What controller state m settles at, at base point p (exact)."""
+        d = self.memory[m]
+        return p[d["estimates"]] if d.get("estimates") else decimal(d.get("equilibrium", 0))
+
+    def within_limits(self, p):
+        return all(decimal(d["limits"][0]) <= p[n] <= decimal(d["limits"][1])
+                   for n, d in self.memory.items())
 
     def subs(self, point):
         return {sp.Symbol(n, real=True): v for n, v in point.items()}
@@ -104,7 +128,7 @@ class Case:
 
     def feasible(self, point):
         sub = self.subs(point)
-        return all(bool(c.subs(sub)) for c in self.constraints)
+        return self.within_limits(point) and all(bool(c.subs(sub)) for c in self.constraints)
 
     def search(self, rng):
         """An independent search for a violation; returns a description or None."""
@@ -115,18 +139,26 @@ class Case:
             for n, d in self.states.items():
                 lo, hi = d["error"]
                 err[n] = rng.uniform(lo, hi)
+            for n, d in self.memory.items():
+                # the state within its limits: its error from what it settles at
+                lo, hi = d["limits"]
+                base = pt[d["estimates"]] if d.get("estimates") else float(d.get("equilibrium", 0))
+                err[n] = rng.uniform(lo, hi) - base
             kind = i % 4
             if kind == 1:  # close to zero error
                 scale = 10.0 ** -rng.randint(1, 5)
                 err = {n: e * scale for n, e in err.items()}
             elif kind == 2 and len(errs) > 1:  # on a coordinate plane of the error
                 err[rng.choice(errs)] = 0.0
-            if all(e == 0.0 for e in err.values()):
+            if all(err[e[1:]] == 0.0 for e in self.exempt):
                 continue
             fpoint = dict(pt)
             for n, d in self.states.items():
                 centre = pt[d["reference"]] if d.get("reference") else float(d.get("equilibrium", 0))
                 fpoint[n] = centre + err[n]
+            for n, d in self.memory.items():
+                base = pt[d["estimates"]] if d.get("estimates") else float(d.get("equilibrium", 0))
+                fpoint[n] = base + err[n]
             vals = [fpoint[n] for n in self.names]
             try:
                 suspicious = any(abs(f(*vals)) > 1 for f in self.f_args)
@@ -159,9 +191,16 @@ def main():
         confirmed = None
         if cx is not None:
             point = c.base_point(cx["coordinates"])
-            nonzero = any(v != 0 for n, v in cx["coordinates"].items() if n.startswith("Δ"))
+            nonzero = any(v != 0 for n, v in cx["coordinates"].items() if n in c.exempt)
             sub = c.subs(point)
-            if cx["kind"] == "claim":
+            if cx["kind"] == "projection":
+                # "dV/d(m) >= 0 where m is at its upper limit X" (or <= 0 at the lower)
+                m = cx["goal"].split("d(", 1)[1].split(")", 1)[0]
+                upper = "upper limit" in cx["goal"]
+                val = sp.diff(c.v, sp.Symbol(m, real=True)).subs(sub)
+                confirmed = val < 0 if upper else val > 0
+                detail = f"dV/d({m}) = {float(val):.6g}"
+            elif cx["kind"] == "claim":
                 val = c.vdot.subs(sub)
                 confirmed = nonzero and val >= 0
                 detail = f"V-dot = {float(val):.6g}"
@@ -171,7 +210,8 @@ def main():
                 detail = "asin/acos arguments " + ", ".join(f"{float(v):.6g}" for v in vals)
             else:
                 val = c.v.subs(sub)
-                confirmed = nonzero and val <= 0
+                confirmed = any(v != 0 for n, v in cx["coordinates"].items()
+                                if n.startswith("Δ")) and val <= 0
                 detail = f"V = {float(val):.6g}"
             if not confirmed:
                 failures.append(f"{label}: counterexample NOT CONFIRMED ({detail})")

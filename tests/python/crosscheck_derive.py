@@ -67,15 +67,22 @@ def sympy_derivation(spec):
         local["ddt"] = lambda e: sum(
             (sp.diff(e, x) * f for x, f in dynamics.items()), sp.Integer(0)
         ) + sum((sp.diff(e, r) * rd for r, rd in rate_of.items()), sp.Integer(0))
-        for section in ("parameters", "gains", "states", "references", "signals", "inputs"):
+        for section in ("parameters", "gains", "states", "references", "signals", "inputs",
+                        "memory"):
             for n in spec.get(section) or {}:
                 local.setdefault(n, sym(n))
         for d in refs.values():
             local.setdefault(d["rate"], sym(d["rate"]))
         # the plant's true value of an estimate: estimate*(1 + error) or estimate + error,
         # the error a symbol named with a leading delta
+        # (named by its `error:` key when it has one); a constant unknown is a symbol
         for n, d in (spec.get("uncertain") or {}).items():
-            est, err = sym(d["estimate"]), sym("\u03b4" + n)
+            if "constant" in d:
+                local[n] = sym(n)
+                continue
+            err = sym(d.get("error") or "\u03b4" + n)
+            local[str(err)] = err
+            est = sym(d["estimate"])
             local[n] = est * (1 + err) if "relative" in d else est + err
         return parse_expr(str(text), local_dict=local, transformations=TRANSFORMS, evaluate=True)
 
@@ -89,10 +96,14 @@ def sympy_derivation(spec):
         laws[n] = e
     closed = {x: f.subs({sym(k): v for k, v in laws.items()}, simultaneous=True)
               for x, f in dynamics.items()}
+    # each controller state moves by its update law, the laws substituted
+    updates = {sym(m): parse(d["update"]).subs({sym(k): v for k, v in laws.items()},
+                                                simultaneous=True)
+               for m, d in (spec.get("memory") or {}).items()}
     v = parse(spec["lyapunov"]["candidate"])
     vdot = sum((sp.diff(v, x) * f for x, f in closed.items()), sp.Integer(0)) + sum(
         (sp.diff(v, r) * rd for r, rd in rate_of.items()), sp.Integer(0)
-    )
+    ) + sum((sp.diff(v, m) * u for m, u in updates.items()), sp.Integer(0))
     return v, vdot, laws
 
 
@@ -108,7 +119,8 @@ def sample(symbols, rng):
         kind = s["kind"]
         if kind == "parameter":
             point[name] = s["value"]
-        elif kind in ("gain", "reference", "rate", "signal"):
+        elif kind in ("gain", "reference", "rate", "signal", "unknown constant",
+                      "controller state"):
             lo, hi = s["range"]
             point[name] = rng.uniform(lo, hi)
     for name, s in symbols.items():

@@ -26,7 +26,8 @@ import formula  # noqa: E402
 import iv  # noqa: E402
 import model  # noqa: E402
 
-VERSION = 3
+VERSION = 4
+ERROR_ROLES = ("error", "controller-state error")
 SPLIT_DEPTH = 10      # a leaf this checker cannot show at once is halved, at most this deep
 MAX_AFFINE = 6        # vertices of at most 2^6 sub-boxes
 
@@ -140,7 +141,8 @@ class Goal:
         missing = {s.name for s in expr.free_symbols} - set(self.dims)
         if missing:
             raise Reject(f"the expression uses {sorted(missing)}, not among its coordinates")
-        self.errors = [k for k, n in enumerate(self.dims) if check.role.get(n) == "error"]
+        # the error coordinates (a Lyapunov goal's are the ones its certificate names, R3)
+        self.errors = [k for k, n in enumerate(self.dims) if check.role.get(n) in ERROR_ROLES]
         self._value = self._hessian = self._affine = self._closable = None
         self._grad = {}
 
@@ -154,8 +156,10 @@ class Goal:
         set of coordinates: at the vertices of the affine ones, only the others count)."""
         if ks not in self._grad:
             try:
+                # each component as one cancelled fraction: the quotient rule's raw form
+                # loses the correlation of a variable in numerator and denominator
                 self._grad[ks] = iv.Compiled(
-                    [sp.diff(self.expr, sym(self.dims[k])) for k in ks], self.dims)
+                    [sp.cancel(sp.diff(self.expr, sym(self.dims[k]))) for k in ks], self.dims)
             except iv.Undefined:
                 self._grad[ks] = None
         if self._grad[ks] is None:
@@ -368,8 +372,11 @@ class Check:
         kind, arg = m.claim_kind()
         self.kind = kind
         claim_expr = Vdot + 2 * model.R(arg) * V if kind == "exponential" else Vdot
-        strict = kind in ("negative_definite", "ultimate_bound")
+        strict = kind in ("negative_definite", "ultimate_bound", "negative_definite_in")
         self.own = {"claim": (claim_expr, ("below", strict)), "positive": (-V, ("below", True))}
+        # the errors each Lyapunov goal is exempt at: the claim's, and every error for V
+        exempt = {"claim": m.exempt_errors(), "positive": list(m.errors)}
+        projections = [m.to_proof(e) for e in m.projections]
         gs = self.cert.get("goals") or []
         self.compiled = []
         for i, gj in enumerate(gs):
@@ -379,11 +386,20 @@ class Check:
                 e, test = self.own[g.kind]
                 if g.test != test or not g.origin:
                     raise Reject(f"{at}: its test is not the spec's claim ({self.kind})")
-                if set(self.m.errors) - set(g.dims):
-                    raise Reject(f"{at}: it is not over every error coordinate")
+                if gj.get("errors") != exempt[g.kind] or set(exempt[g.kind]) - set(g.dims):
+                    raise Reject(f"{at}: it is not exempt at exactly the errors "
+                                 f"{exempt[g.kind]}")
+                g.errors = [g.dims.index(n) for n in exempt[g.kind]]
                 if not same(g.expr, e):
                     raise Reject(f"{at}: its expression is not the spec's "
                                  f"{'V-dot' if g.kind == 'claim' else '-V'}")
+            if g.kind == "projection":
+                k = sum(x.kind == "projection" for x in self.compiled)
+                if k >= len(projections) or g.test != ("below", False) or g.origin:
+                    raise Reject(f"{at}: not one of the spec's controller-state limit goals")
+                if not same(g.expr, projections[k]):
+                    raise Reject(f"{at}: its expression is not -dV/dm at the upper limit "
+                                 f"(dV/dm at the lower) of the spec's controller state")
             if g.kind == "claim" and (kind == "ultimate_bound") != ("region" in gj):
                 raise Reject(f"{at}: an ultimate bound's claim goal, and only it, has a region")
             if "region" in gj:
@@ -395,6 +411,9 @@ class Check:
         for k in ("claim", "positive"):
             if sum(g.kind == k for g in self.compiled) != 1:
                 raise Reject(f"the certificate does not have exactly one {k} goal")
+        if sum(g.kind == "projection" for g in self.compiled) != len(projections):
+            raise Reject(f"the certificate does not have the spec's {len(projections)} "
+                         f"controller-state limit goals")
 
     def goal(self, gj, at, kind):
         g = Goal(expr_of(gj["expr"]), gj["dims"], self)
@@ -589,7 +608,7 @@ class Check:
         for i, p in enumerate(ub.get("sublevel") or []):
             at = f"{g.at}, sublevel proof {i + 1}"
             name, side = p.get("coordinate"), p.get("side")
-            if name not in vg.dims or self.role.get(name) != "error":
+            if name not in vg.dims or self.role.get(name) not in ERROR_ROLES:
                 raise Reject(f"{at}: `{name}` is not an error of V")
             k = vg.dims.index(name)
             frm, lv = num(p["from"]), num(p["level"])
@@ -644,9 +663,11 @@ class Check:
                 raise Reject(f"the counterexample's {n} = {x!r} is outside its declared range")
 
     def feasible(self, dims, pt, every=False):
-        """The constraints over these coordinates (all of them: `every`) hold at the point."""
+        """The constraints over these coordinates (every gain constraint: `every`) hold at
+        the point."""
         box = [(x, x) for x in pt]
-        for gexp, strict in self.m.constraints:
+        cs = self.m.constraints[:self.m.gain_constraints] if every else self.m.constraints
+        for gexp, strict in cs:
             names = {s.name for s in gexp.free_symbols}
             if not names & set(dims) and not every:
                 continue
@@ -718,7 +739,7 @@ class Check:
         tries = [[lo + t * (hi - lo) for lo, hi in inner] for t in (0.5, 0.25, 0.75)]
         tries += [[inner[k][mask >> k & 1] for k in range(len(inner))]
                   for mask in range(1 << min(len(inner), 10))]
-        return not self.m.constraints or any(self.feasible(gains, p, True) for p in tries)
+        return not self.m.gain_constraints or any(self.feasible(gains, p, True) for p in tries)
 
     # R9 ---------------------------------------------------------------------------------
     def evidence(self, g):

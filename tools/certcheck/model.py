@@ -1,10 +1,12 @@
 """A spec read on its own: symbols, exact ranges, the closed loop, V, V-dot and the conditions
 under which the laws are defined, all in proof coordinates, with SymPy.
 
-Proof coordinates are the certificate's: each state `x` is its target plus the error `Δx`, an
-uncertain quantity's true value is `estimate*(1 + δq)` (relative) or `estimate + δq`
-(absolute) with `δq` a coordinate (a constant when its range is one point), parameters are
-the exact decimals written. Nothing here comes from lawsmith's own code.
+Proof coordinates are the certificate's: each state `x` is its target plus the error `Δx`,
+each controller state `ξ` what it settles at (a number, or the unknown it estimates) plus
+the error `Δξ`, an uncertain quantity's true value is `estimate*(1 + δq)` (relative) or
+`estimate + δq` (absolute) with `δq` a coordinate (named by its `error:` key when it has one;
+a constant when its range is one point), a constant unknown is a coordinate of its own,
+parameters are the exact decimals written. Nothing here comes from lawsmith's own code.
 """
 
 import re
@@ -86,25 +88,55 @@ class Model:
                 target[s] = R(v.get("equilibrium", 0))
             coords.append(("Δ" + s, "error", s, pair(v["error"], f"error box of {s}")))
         self.target = target
+        # the unknowns: each uncertain quantity's error (its own name, or δ and the quantity's)
+        # and each constant unknown, with its declared range
+        unknowns = {}
+        for n, v in sec("uncertain").items():
+            if "constant" in v:
+                unknowns[n] = pair(v["constant"], f"range of {n}")
+            else:
+                form = "relative" if "relative" in v else "absolute"
+                unknowns[v.get("error") or "δ" + n] = pair(v[form], f"error range of {n}")
+        value = lambda u: sym(u) if unknowns[u][0] != unknowns[u][1] else R(unknowns[u][0])
+        # controller states: the error from what each settles at, whose box is its limits
+        # less that value's range
+        self.memory, self.settle = sec("memory"), {}
+        for m, v in self.memory.items():
+            lo, hi = pair(v["limits"], f"limits of {m}")
+            if v.get("estimates") is not None:
+                u = v["estimates"]
+                if u not in unknowns:
+                    raise SpecError(f"`{m}` estimates `{u}`, which is not an unknown")
+                self.settle[m], (slo, shi) = value(u), unknowns[u]
+            else:
+                eq = v.get("equilibrium", Fraction(0))
+                self.settle[m], (slo, shi) = R(eq), (eq, eq)
+            coords.append(("Δ" + m, "controller-state error", m, (lo - shi, hi - slo)))
         for r, v in self.refs.items():
             coords.append((r, "reference", r, pair(v["range"], f"range of {r}")))
         for r, v in self.refs.items():
             coords.append((v["rate"], "rate", v["rate"], pair(v["rate_range"], f"rate of {r}")))
         for n, v in sec("signals").items():
             coords.append((n, "signal", n, pair(v["range"], f"range of {n}")))
-        self.true_value = {}
+        self.true_value, self.constants = {}, {}
         for n, v in sec("uncertain").items():
-            form = "relative" if "relative" in v else "absolute"
-            lo, hi = pair(v[form], f"error range of {n}")
-            err = sym("δ" + n) if lo != hi else R(lo)
+            if "constant" in v:
+                name, (lo, hi) = n, unknowns[n]
+            else:
+                form = "relative" if "relative" in v else "absolute"
+                name = v.get("error") or "δ" + n
+                lo, hi = unknowns[name]
+                est = sym(v["estimate"])
+                err = value(name)
+                self.true_value[n] = est * (1 + err) if form == "relative" else est + err
             if lo != hi:
-                coords.append(("δ" + n, "uncertainty", n, (lo, hi)))
-            est = sym(v["estimate"])
-            self.true_value[n] = est * (1 + err) if form == "relative" else est + err
+                coords.append((name, "uncertainty", n, (lo, hi)))
+            else:
+                self.constants[name] = R(lo)
         for n, v in sec("gains").items():
             coords.append((n, "gain", n, pair(v["range"], f"range of {n}")))
         self.coords = coords
-        self.errors = ["Δ" + s for s in self.states]
+        self.errors = ["Δ" + s for s in self.states] + ["Δ" + m for m in self.memory]
         self.defs_text = dict(sec("energies"))
         self.defs_text.update((d.get("lyapunov") or {}).get("where") or {})
         self.defs, self.conds, self._source = {}, [], ""  # conds: (kind, expr, source)
@@ -119,6 +151,11 @@ class Model:
             e = self.convert(formula.parse(f))
             self.laws[n] = e.xreplace({sym(k): v for k, v in self.laws.items()})
         law_map = {sym(k): v for k, v in self.laws.items()}
+        # each controller state's update law (its rate), the laws substituted
+        self.updates = {}
+        for m, v in self.memory.items():
+            self._source = f"update law of `{m}`"
+            self.updates[m] = self.convert(formula.parse(v["update"])).xreplace(law_map)
         self.actuators = {}      # name: (command, lo, hi); `deg` limits in rad
         for n, a in sec("actuators").items():
             self._source = f"actuator `{n}`"
@@ -136,7 +173,18 @@ class Model:
             vdot += dv * self.closed[s]
         for r, rate in self.rate_of.items():
             vdot += sp.diff(self.V, sym(r)) * sym(rate)
+        for m, u in self.updates.items():
+            dv = sp.diff(self.V, sym(m))
+            self.walk(dv, "dV/dt")
+            vdot += dv * u
         self.Vdot = vdot
+        # holding a controller state at a limit never increases V: -dV/dm <= 0 at the upper
+        # limit, dV/dm <= 0 at the lower (in base symbols)
+        self.projections = []
+        for m, v in self.memory.items():
+            lo, hi = pair(v["limits"], f"limits of {m}")
+            dv = sp.diff(self.V, sym(m))
+            self.projections += [-dv.xreplace({sym(m): R(hi)}), dv.xreplace({sym(m): R(lo)})]
         self.claim = lyap.get("claim")
         # constraints relate gains; they are not part of the laws, so no condition of theirs
         # is required
@@ -145,8 +193,18 @@ class Model:
         del self.conds[kept:]
         # into proof coordinates
         sub = {sym(s): target[s] + sym("Δ" + s) for s in self.states}
+        sub.update({sym(m): self.settle[m] + sym("Δ" + m) for m in self.memory})
         sub.update({sym(p): R(v) for p, v in self.params.items()})
+        sub.update({sym(u): c for u, c in self.constants.items()})
         self.to_proof = lambda e: e.xreplace(sub)
+        # then each controller state's limits, `lo - m <= 0` and `m - hi <= 0`, in proof
+        # coordinates like the constraints
+        self.constraints = [(self.to_proof(g), st) for g, st in self.constraints]
+        self.gain_constraints = len(self.constraints)
+        for m, v in self.memory.items():
+            lo, hi = pair(v["limits"], f"limits of {m}")
+            x = self.to_proof(sym(m))
+            self.constraints += [(R(lo) - x, False), (x - R(hi), False)]
 
     # formulas ---------------------------------------------------------------------------
 
@@ -267,11 +325,21 @@ class Model:
         c = self.claim
         if c in ("negative_definite", "negative_semidefinite"):
             return c, None
+        if isinstance(c, dict) and "negative_definite_in" in c:
+            return "negative_definite_in", list(c["negative_definite_in"])
         if isinstance(c, dict) and "exponential" in c:
             return "exponential", c["exponential"]
         if isinstance(c, dict) and "ultimate_bound" in c:
             return "ultimate_bound", c["ultimate_bound"]
         raise SpecError(f"unknown claim {c!r}")
+
+    def exempt_errors(self):
+        """The error coordinates at whose joint zero the claim is exempt: those named by
+        negative_definite_in, else every error (the states' and the controller states')."""
+        kind, names = self.claim_kind()
+        if kind == "negative_definite_in":
+            return [e for e in self.errors if e[1:] in names]
+        return list(self.errors)
 
     def required_bounds(self):
         """An ultimate bound's required bounds: [(state, bound)] in state order."""

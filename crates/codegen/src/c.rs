@@ -191,6 +191,12 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         h,
         "    uint32_t status; /* what was repaired: the {up}_STATUS_* bits */"
     );
+    if !c.memory.is_empty() {
+        let _ = writeln!(
+            h,
+            "    uint32_t memory_limits; /* controller states held at a limit: the {up}_HELD_* bits */"
+        );
+    }
     let _ = writeln!(h, "}} {p}_commands;\n");
     for (i, a) in c.actuators.iter().enumerate() {
         let n = a.name.to_uppercase();
@@ -201,9 +207,21 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             2 * i + 1
         );
     }
+    for (j, m) in c.memory.iter().enumerate() {
+        let n = m.name.to_uppercase();
+        let _ = writeln!(h, "#define {up}_HELD_{n}_LOW (UINT32_C(1) << {})", 2 * j);
+        let _ = writeln!(
+            h,
+            "#define {up}_HELD_{n}_HIGH (UINT32_C(1) << {})",
+            2 * j + 1
+        );
+    }
     for (i, (n, what)) in crate::controller::STATUS.iter().enumerate() {
-        // the guidance bit only where there is guidance (an unused macro: MISRA C:2012 2.5)
-        if *n != "GUIDANCE_REPAIRED" || !c.filters.is_empty() {
+        // the guidance and memory bits only where there are guidance filters and controller
+        // states (an unused macro: MISRA C:2012 2.5)
+        let unused = (*n == "GUIDANCE_REPAIRED" && c.filters.is_empty())
+            || (*n == "MEMORY_REPAIRED" && c.memory.is_empty());
+        if !unused {
             let _ = writeln!(
                 h,
                 "#define {up}_STATUS_{n} (UINT32_C(1) << {i}) /* {what} */"
@@ -213,7 +231,21 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     let _ = writeln!(h);
     let _ = writeln!(h, "/* The spec's default gains; the generated code falls back to them. */\n{p}_gains {p}_default_gains(void);\n");
     let _ = writeln!(h, "/* Do the gains lie in their proved ranges and meet the constraints? */\nbool {p}_check_gains(const {p}_gains *g);\n");
-    let _ = writeln!(h, "/* The control law once: the actuator commands from this period's reading, saturated to\n   their limits. */\nvoid {p}_compute_commands(const {p}_reading *in, const {p}_gains *gains, {p}_commands *out);\n");
+    if c.memory.is_empty() {
+        let _ = writeln!(h, "/* The control law once: the actuator commands from this period's reading, saturated to\n   their limits. */\nvoid {p}_compute_commands(const {p}_reading *in, const {p}_gains *gains, {p}_commands *out);\n");
+    } else {
+        let _ = writeln!(h, "/* The controller states the law carries from one period to the next. Start them with\n   {p}_start_memory (and again to reset them); {p}_compute_commands advances them. */\ntypedef struct {{");
+        for m in &c.memory {
+            let _ = writeln!(
+                h,
+                "    {ty} {}; /* [{}], held within [{}, {}], starts at {} */",
+                m.name, m.unit, m.limits.0, m.limits.1, m.initial
+            );
+        }
+        let _ = writeln!(h, "}} {p}_memory;\n");
+        let _ = writeln!(h, "/* Sets every controller state to its initial value. */\nvoid {p}_start_memory({p}_memory *memory);\n");
+        let _ = writeln!(h, "/* The control law once: the actuator commands from this period's reading and the\n   controller states, saturated to their limits; then each controller state advanced over dt\n   seconds by forward Euler (x + dt*x', its update law x' at this period's values) and held\n   within its limits (a {up}_HELD_* bit when a limit acts). A state outside its limits is\n   clamped into them first (a NaN restarts at its initial value), with MEMORY_REPAIRED; a dt\n   that is not positive advances nothing. */\nvoid {p}_compute_commands(const {p}_reading *in, const {p}_gains *gains, {p}_memory *memory, {ty} dt, {p}_commands *out);\n");
+    }
     if !c.filters.is_empty() {
         let _ = writeln!(h, "/* The reference filters' state: each reference and its rate. Start it with\n   {p}_start_references. Each control period: {p}_compute_commands with the references\n   and rates of this state in its reading, then {p}_advance_references over the period. */\ntypedef struct {{");
         for f in &c.filters {
@@ -293,10 +325,22 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         "bool {p}_check_gains(const {p}_gains *g)\n{{\n    return {p}_gains_in_set(g);\n}}\n"
     );
 
-    let _ = writeln!(
-        s,
-        "void {p}_compute_commands(const {p}_reading *in, const {p}_gains *gains, {p}_commands *out)\n{{"
-    );
+    if !c.memory.is_empty() {
+        let _ = writeln!(s, "void {p}_start_memory({p}_memory *memory)\n{{");
+        for m in &c.memory {
+            let _ = writeln!(s, "    memory->{} = {};", m.name, e.lit(m.initial));
+        }
+        let _ = writeln!(s, "}}\n");
+        let _ = writeln!(
+            s,
+            "void {p}_compute_commands(const {p}_reading *in, const {p}_gains *gains, {p}_memory *memory, {ty} dt, {p}_commands *out)\n{{"
+        );
+    } else {
+        let _ = writeln!(
+            s,
+            "void {p}_compute_commands(const {p}_reading *in, const {p}_gains *gains, {p}_commands *out)\n{{"
+        );
+    }
     let _ = writeln!(
         s,
         "    uint32_t status = 0u;\n    uint32_t limits = 0u;\n    {p}_gains g;"
@@ -364,6 +408,11 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
             let _ = writeln!(s, "    {{\n        const {ty} e{i} = x{i} - {base};\n        if (!((e{i} >= {lo}) && (e{i} <= {hi}))) {{\n            status |= isfinite(e{i}) ? {up}_STATUS_OUTSIDE_ENVELOPE : {up}_STATUS_NONFINITE_INPUT;\n            x{i} = {base} + (isnan(e{i}) ? {zero} : {p}_clamp(e{i}, {lo}, {hi}));\n        }}\n    }}");
         }
     }
+    // each controller state within its limits (a NaN restarts at its initial value)
+    for (j, m) in c.memory.iter().enumerate() {
+        let (lo, hi) = e.ends(m.limits);
+        let _ = writeln!(s, "    {ty} m{j} = memory->{};\n    if (!((m{j} >= {lo}) && (m{j} <= {hi}))) {{\n        status |= {up}_STATUS_MEMORY_REPAIRED;\n        m{j} = isnan(m{j}) ? {} : {p}_clamp(m{j}, {lo}, {hi});\n    }}", m.name, e.lit(m.initial));
+    }
     let _ = writeln!(s, "    if ({p}_gains_in_set(gains)) {{\n        g = *gains;\n    }} else {{\n        status |= {up}_STATUS_GAINS_REJECTED;\n        g = {p}_default_gains();\n    }}");
     let _ = writeln!(s, "    /* the law (in the envelope) */");
     let louts = e.program(
@@ -371,10 +420,13 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         p,
         "    ",
         &|i| {
+            let n_mem = c.memory.len();
             if i < inputs.len() {
                 format!("x{i}")
+            } else if i < inputs.len() + n_mem {
+                format!("m{}", i - inputs.len())
             } else {
-                format!("g.{}", c.gains[i - inputs.len()].name)
+                format!("g.{}", c.gains[i - inputs.len() - n_mem].name)
             }
         },
         &mut s,
@@ -384,6 +436,20 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         let n = a.name.to_uppercase();
         let (lo, hi) = e.ends(a.limits);
         let _ = writeln!(s, "    {{\n        {ty} c{i} = {o};\n        if (!isfinite(c{i})) {{\n            status |= {up}_STATUS_NONFINITE_COMMAND;\n            c{i} = {};\n        }}\n        if (c{i} < {lo}) {{\n            c{i} = {lo};\n            limits |= {up}_LIMIT_{n}_LOW;\n        }} else if (c{i} > {hi}) {{\n            c{i} = {hi};\n            limits |= {up}_LIMIT_{n}_HIGH;\n        }} else {{\n            /* within its limits */\n        }}\n        out->{} = c{i};\n    }}", e.lit(a.safe), a.name);
+    }
+    if !c.memory.is_empty() {
+        // forward Euler over dt, then each state held within its limits
+        let _ = writeln!(
+            s,
+            "    /* the controller states over dt */\n    {{\n        uint32_t held = 0u;"
+        );
+        let rates = &louts[c.actuators.len()..];
+        for (j, (m, u)) in c.memory.iter().zip(rates).enumerate() {
+            let n = m.name.to_uppercase();
+            let (lo, hi) = e.ends(m.limits);
+            let _ = writeln!(s, "        if (dt > {zero}) {{\n            {ty} n{j} = m{j} + (dt * {u});\n            if (!isfinite(n{j})) {{\n                status |= {up}_STATUS_MEMORY_REPAIRED;\n                n{j} = m{j};\n            }}\n            if (n{j} < {lo}) {{\n                n{j} = {lo};\n                held |= {up}_HELD_{n}_LOW;\n            }} else if (n{j} > {hi}) {{\n                n{j} = {hi};\n                held |= {up}_HELD_{n}_HIGH;\n            }} else {{\n                /* within its limits */\n            }}\n            memory->{name} = n{j};\n        }} else {{\n            memory->{name} = m{j};\n        }}", zero = e.lit(0.0), name = m.name);
+        }
+        let _ = writeln!(s, "        out->memory_limits = held;\n    }}");
     }
     let _ = writeln!(
         s,

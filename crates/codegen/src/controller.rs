@@ -69,6 +69,20 @@ pub struct Actuator {
     pub safe: f64,
 }
 
+/// A controller state: a value the law carries from one period to the next (an integrator,
+/// an adaptive estimate), advanced by its update law and kept within its limits.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Memory {
+    /// Name (a field of the memory struct).
+    pub name: String,
+    /// Unit.
+    pub unit: String,
+    /// Its value at start and after a reset.
+    pub initial: f64,
+    /// The limits it is held in (its proof covers exactly them).
+    pub limits: (f64, f64),
+}
+
 /// A first-order reference filter with rate limits.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Filter {
@@ -106,8 +120,11 @@ pub struct Controller {
     pub constraints: (Program, Vec<bool>),
     /// Constraint texts, for comments.
     pub constraint_texts: Vec<String>,
-    /// Inputs: states, references, rates, signals, then gains; outputs: the commands.
+    /// Inputs: states, references, rates, signals, controller states, then gains; outputs:
+    /// the commands, then each controller state's update law (its rate).
     pub law: Program,
+    /// Controller states.
+    pub memory: Vec<Memory>,
     /// Actuators, in output order.
     pub actuators: Vec<Actuator>,
     /// Guidance filters.
@@ -125,14 +142,17 @@ pub struct StepOutput {
     /// any bit of `status`.
     pub domain: bool,
     /// What was repaired, the [`STATUS`] bits: a non-finite input, a finite input outside
-    /// the envelope, gains rejected, a non-finite command.
+    /// the envelope, gains rejected, a non-finite command, a controller state repaired.
     pub status: u32,
+    /// Bit `2j` set: controller state `j` was held at its lower limit; bit `2j+1`: at its
+    /// upper limit.
+    pub memory_limits: u32,
 }
 
 /// The `status` bits, by name and meaning, in bit order: the emitters print them as
-/// constants, the interpreter sets them (the first four in `step`, the last and
-/// `GAINS_REJECTED` in `update`).
-pub const STATUS: [(&str, &str); 5] = [
+/// constants, the interpreter sets them (`GUIDANCE_REPAIRED` and `GAINS_REJECTED` in
+/// `update`, the others in `step`).
+pub const STATUS: [(&str, &str); 6] = [
     (
         "NONFINITE_INPUT",
         "an input was NaN or infinite: a NaN evaluated at its range's midpoint (or zero error), an infinity at its range's edge",
@@ -153,6 +173,10 @@ pub const STATUS: [(&str, &str); 5] = [
         "GUIDANCE_REPAIRED",
         "a reference of the guidance state was not finite: its filter restarted at rest at its command",
     ),
+    (
+        "MEMORY_REPAIRED",
+        "a controller state was outside its limits (clamped into them) or not finite (restarted at its initial value), or its update was not finite (kept)",
+    ),
 ];
 
 /// The `status` bits of [`STATUS`], by name.
@@ -165,6 +189,8 @@ pub const STATUS_GAINS_REJECTED: u32 = 1 << 2;
 pub const STATUS_NONFINITE_COMMAND: u32 = 1 << 3;
 /// See [`STATUS`].
 pub const STATUS_GUIDANCE_REPAIRED: u32 = 1 << 4;
+/// See [`STATUS`].
+pub const STATUS_MEMORY_REPAIRED: u32 = 1 << 5;
 
 /// The `status` bit of a repaired input: non-finite, or finite and outside.
 fn repaired(v: f64) -> u32 {
@@ -194,9 +220,9 @@ impl From<IrError> for EmitError {
 }
 
 /// Names the generated structs use for themselves; an actuator may not take them.
-pub const OUTPUT_FIELDS: [&str; 3] = ["limits", "domain", "status"];
+pub const OUTPUT_FIELDS: [&str; 4] = ["limits", "domain", "status", "memory_limits"];
 
-/// Most actuators (two flag bits each in a 32-bit word).
+/// Most actuators (two flag bits each in a 32-bit word); the same for controller states.
 pub const MAX_ACTUATORS: usize = 16;
 
 /// A command saturated to its limits, as `step` saturates it.
@@ -300,6 +326,31 @@ impl Controller {
             )));
         }
 
+        let memory: Vec<Memory> = spec
+            .symbols
+            .iter()
+            .filter_map(|s| {
+                let Decl::Memory {
+                    initial, limits, ..
+                } = &s.decl
+                else {
+                    return None;
+                };
+                Some(Memory {
+                    name: s.name.clone(),
+                    unit: s.unit.clone(),
+                    initial: initial.value(),
+                    limits: limits.nearest(),
+                })
+            })
+            .collect();
+        if memory.len() > MAX_ACTUATORS {
+            return Err(EmitError(format!(
+                "{} controller states; their limit flags hold {MAX_ACTUATORS}",
+                memory.len()
+            )));
+        }
+
         // parameters are constants: the decimals the spec wrote
         let mut dag = spec.dag.clone();
         let params: HashMap<String, ExprId> = spec
@@ -315,6 +366,7 @@ impl Controller {
         law_inputs.extend(references.iter().map(|s| s.name.clone()));
         law_inputs.extend(rates.iter().map(|s| s.name.clone()));
         law_inputs.extend(signals.iter().map(|s| s.name.clone()));
+        law_inputs.extend(memory.iter().map(|s| s.name.clone()));
         law_inputs.extend(gains.iter().map(|s| s.name.clone()));
         let mut b = Builder::new(&law_inputs);
         for (input, e) in &spec.laws {
@@ -326,6 +378,12 @@ impl Controller {
             let e = dag.substitute(a.law, &params);
             let s = b.expr(&dag, e)?;
             b.output(&a.name, s);
+        }
+        // the update laws read the laws' values as the code has them (defined above)
+        for (m, u) in &spec.updates {
+            let e = dag.substitute(*u, &params);
+            let s = b.expr(&dag, e)?;
+            b.output(m, s);
         }
         let law = b.finish();
 
@@ -400,6 +458,7 @@ impl Controller {
             constraints,
             constraint_texts,
             law,
+            memory,
             actuators,
             filters,
         };
@@ -449,14 +508,42 @@ impl Controller {
             .all(|(&v, &s)| if s { v < 0.0 } else { v <= 0.0 })
     }
 
-    /// One control step, as the generated `step` computes it. `inputs` follows
+    /// One control step, as the generated `compute_commands` computes it, with the
+    /// controller states (if any) at their initial values and not advanced. `inputs` follows
     /// [`Controller::input_names`], `gains` the gains.
     pub fn step(&self, inputs: &[f64], gains: &[f64]) -> StepOutput {
         self.step_in(inputs, gains, &mut Workspace::default())
     }
 
-    /// [`Controller::step`] with reusable buffers (for simulation loops).
+    /// [`Controller::step`] with reusable buffers.
     pub fn step_in(&self, inputs: &[f64], gains: &[f64], ws: &mut Workspace) -> StepOutput {
+        let mut memory = self.start_memory();
+        self.run_in(inputs, gains, &mut memory, 0.0, ws)
+    }
+
+    /// The controller states at their initial values, in declaration order (as the generated
+    /// `start_memory` sets them).
+    pub fn start_memory(&self) -> Vec<f64> {
+        self.memory.iter().map(|m| m.initial).collect()
+    }
+
+    /// One control step, as the generated `compute_commands` computes it: the commands from
+    /// `inputs`, `gains` and the controller states `memory`, which are then advanced over
+    /// `dt` seconds by forward Euler, `x + dt·u` with `u` the update law at this step's
+    /// values, and held within their limits (a `dt` that is not positive advances nothing).
+    pub fn run(&self, inputs: &[f64], gains: &[f64], memory: &mut [f64], dt: f64) -> StepOutput {
+        self.run_in(inputs, gains, memory, dt, &mut Workspace::default())
+    }
+
+    /// [`Controller::run`] with reusable buffers (for simulation loops).
+    pub fn run_in(
+        &self,
+        inputs: &[f64],
+        gains: &[f64],
+        memory: &mut [f64],
+        dt: f64,
+        ws: &mut Workspace,
+    ) -> StepOutput {
         let mut status = 0u32;
         let ns = self.states.len();
         let (nr, nt) = (self.references.len(), self.rates.len());
@@ -511,6 +598,19 @@ impl Controller {
             }
         }
         ws.bases = raw;
+        // a controller state outside its limits is clamped into them, a NaN restarts
+        for (m, v) in self.memory.iter().zip(memory.iter_mut()) {
+            let (lo, hi) = m.limits;
+            if !(*v >= lo && *v <= hi) {
+                status |= STATUS_MEMORY_REPAIRED;
+                *v = if v.is_nan() {
+                    m.initial
+                } else {
+                    clamp(*v, lo, hi)
+                };
+            }
+            x.push(*v);
+        }
         if self.gains_valid_in(gains, ws) {
             x.extend_from_slice(gains);
         } else {
@@ -538,12 +638,39 @@ impl Controller {
             }
             commands.push(c);
         }
+        // the controller states over dt: forward Euler, held within their limits
+        let mut memory_limits = 0u32;
+        let rates = &raw[self.actuators.len()..];
+        for (j, ((m, v), &u)) in self
+            .memory
+            .iter()
+            .zip(memory.iter_mut())
+            .zip(rates)
+            .enumerate()
+        {
+            if dt > 0.0 {
+                let mut next = *v + dt * u;
+                if !next.is_finite() {
+                    status |= STATUS_MEMORY_REPAIRED;
+                    next = *v;
+                }
+                if next < m.limits.0 {
+                    next = m.limits.0;
+                    memory_limits |= 1 << (2 * j);
+                } else if next > m.limits.1 {
+                    next = m.limits.1;
+                    memory_limits |= 1 << (2 * j + 1);
+                }
+                *v = next;
+            }
+        }
         ws.out = raw;
         StepOutput {
             commands,
             limits,
             domain: status != 0,
             status,
+            memory_limits,
         }
     }
 

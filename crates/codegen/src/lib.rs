@@ -31,8 +31,8 @@ mod ir;
 mod rust;
 
 pub use controller::{
-    clamp_command, Actuator, Controller, EmitError, Filter, Gain, Ranged, State, StepOutput,
-    Workspace, MAX_ACTUATORS, OUTPUT_FIELDS,
+    clamp_command, Actuator, Controller, EmitError, Filter, Gain, Memory, Ranged, State,
+    StepOutput, Workspace, MAX_ACTUATORS, OUTPUT_FIELDS,
 };
 pub use header::{float_literal, Provenance, MARKER};
 pub use ir::{Builder, IrError, Op, Program, Slot};

@@ -190,6 +190,9 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
     // flags
     let mut flag_items = TokenStream::new();
     for (i, (n, what)) in crate::controller::STATUS.iter().enumerate() {
+        if *n == "MEMORY_REPAIRED" && c.memory.is_empty() {
+            continue;
+        }
         let name = format_ident!("STATUS_{}", n);
         let bit = proc_macro2::Literal::u32_unsuffixed(1u32 << i);
         let doc = format!("`status` bit: {what}.");
@@ -314,16 +317,88 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
         quote!(#(#checks)&&*)
     };
 
+    // the controller states, each within its limits (a NaN restarts at its initial value)
+    let n_mem = c.memory.len();
+    let mut memory_guards = TokenStream::new();
+    for (j, m) in c.memory.iter().enumerate() {
+        let (mj, f) = (format_ident!("m{}", j), field(&m.name));
+        let (lo, hi) = e.ends(m.limits);
+        let init = e.lit(m.initial);
+        memory_guards.extend(quote! {
+            let mut #mj: #ty = memory.#f;
+            if !(#mj >= #lo && #mj <= #hi) {
+                status |= STATUS_MEMORY_REPAIRED;
+                #mj = if #mj.is_nan() { #init } else { clamp_to(#mj, #lo, #hi) };
+            }
+        });
+    }
+
     // the law
     let (lbody, louts) = e.program(&c.law, &|i| {
         if i < inputs.len() {
             let xi = x(i);
             quote!(#xi)
+        } else if i < inputs.len() + n_mem {
+            let mj = format_ident!("m{}", i - inputs.len());
+            quote!(#mj)
         } else {
-            let f = field(&c.gains[i - inputs.len()].name);
+            let f = field(&c.gains[i - inputs.len() - n_mem].name);
             quote!(g.#f)
         }
     });
+    // the controller states over dt: forward Euler, held within their limits
+    let mut advance = TokenStream::new();
+    let mut held_items = TokenStream::new();
+    for (j, (m, u)) in c.memory.iter().zip(&louts[c.actuators.len()..]).enumerate() {
+        let (mj, nj, f) = (
+            format_ident!("m{}", j),
+            format_ident!("n{}", j),
+            field(&m.name),
+        );
+        let (lo, hi) = e.ends(m.limits);
+        let (hl, hh) = (
+            format_ident!("HELD_{}_LOW", m.name.to_uppercase()),
+            format_ident!("HELD_{}_HIGH", m.name.to_uppercase()),
+        );
+        let zero = e.lit(0.0);
+        advance.extend(quote! {
+            if dt > #zero {
+                let mut #nj: #ty = #mj + dt * #u;
+                if !#nj.is_finite() {
+                    status |= STATUS_MEMORY_REPAIRED;
+                    #nj = #mj;
+                }
+                if #nj < #lo {
+                    #nj = #lo;
+                    memory_limits |= #hl;
+                } else if #nj > #hi {
+                    #nj = #hi;
+                    memory_limits |= #hh;
+                }
+                memory.#f = #nj;
+            } else {
+                memory.#f = #mj;
+            }
+        });
+        let (bl, bh) = (
+            proc_macro2::Literal::u32_unsuffixed(1u32 << (2 * j)),
+            proc_macro2::Literal::u32_unsuffixed(1u32 << (2 * j + 1)),
+        );
+        let dl = format!(
+            "`memory_limits` bit: `{}` was held at its lower limit {}.",
+            m.name, m.limits.0
+        );
+        let dh = format!(
+            "`memory_limits` bit: `{}` was held at its upper limit {}.",
+            m.name, m.limits.1
+        );
+        held_items.extend(quote! {
+            #[doc = #dl]
+            pub const #hl: u32 = #bl;
+            #[doc = #dh]
+            pub const #hh: u32 = #bh;
+        });
+    }
     let mut saturate = TokenStream::new();
     let mut cmd_names = Vec::new();
     for (i, (a, out)) in c.actuators.iter().zip(&louts).enumerate() {
@@ -497,6 +572,81 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
     }
 
     let unsuffixed = proc_macro2::Literal::usize_unsuffixed;
+    // the controller states' struct, and what compute_commands takes and gives for them
+    let (memory_items, memory_params, memory_field, memory_init, memory_out) = if n_mem == 0 {
+        let none = TokenStream::new();
+        (none.clone(), none.clone(), none.clone(), none.clone(), none)
+    } else {
+        let mfields: Vec<Ident> = c.memory.iter().map(|m| field(&m.name)).collect();
+        let mdocs: Vec<String> = c
+            .memory
+            .iter()
+            .map(|m| {
+                format!(
+                    "Controller state `{}` [{}], held within [{}, {}], starts at {}.",
+                    m.name, m.unit, m.limits.0, m.limits.1, m.initial
+                )
+            })
+            .collect();
+        let minit: Vec<TokenStream> = c.memory.iter().map(|m| e.lit(m.initial)).collect();
+        let mnames: Vec<&str> = c.memory.iter().map(|m| m.name.as_str()).collect();
+        let nm = unsuffixed(n_mem);
+        let midx: Vec<proc_macro2::Literal> = (0..n_mem).map(unsuffixed).collect();
+        (
+            quote! {
+                /// The controller states the law carries from one period to the next. Start
+                /// them with [`Memory::START`] (and again to reset them);
+                /// [`compute_commands`] advances them.
+                #[derive(Clone, Copy, Debug, PartialEq)]
+                #[repr(C)]
+                pub struct Memory {
+                    #( #[doc = #mdocs] pub #mfields: #ty, )*
+                }
+
+                impl Memory {
+                    /// Every controller state at its initial value.
+                    pub const START: Memory = Memory { #( #mfields: #minit, )* };
+
+                    /// The field names, in the order of [`Memory::from_array`].
+                    pub const NAMES: [&'static str; #nm] = [#(#mnames),*];
+
+                    /// The states from an array in the order of [`Memory::NAMES`].
+                    pub fn from_array(a: [#ty; #nm]) -> Memory {
+                        Memory { #( #mfields: a[#midx], )* }
+                    }
+
+                    /// The states as an array in the order of [`Memory::NAMES`].
+                    pub fn to_array(&self) -> [#ty; #nm] {
+                        [#( self.#mfields, )*]
+                    }
+                }
+
+                #held_items
+            },
+            quote!(memory: &mut Memory, dt: #ty,),
+            quote! {
+                /// Controller states held at a limit: the `HELD_*` bits.
+                pub memory_limits: u32,
+            },
+            quote!(let mut memory_limits: u32 = 0u32;),
+            quote!(memory_limits,),
+        )
+    };
+    let step_doc: &[&str] = if n_mem == 0 {
+        &[
+            " The control law once: the actuator commands from this period's reading, saturated",
+            " to their limits.",
+        ]
+    } else {
+        &[
+            " The control law once: the actuator commands from this period's reading and the",
+            " controller states, saturated to their limits; then each controller state advanced",
+            " over `dt` seconds by forward Euler (`x + dt·x'`, its update law `x'` at this",
+            " period's values) and held within its limits (a `HELD_*` bit when a limit acts). A",
+            " state outside its limits is clamped into them first (a NaN restarts at its initial",
+            " value), with `STATUS_MEMORY_REPAIRED`; a `dt` that is not positive advances nothing.",
+        ]
+    };
     let n_in = unsuffixed(inputs.len());
     let n_gain = unsuffixed(c.gains.len());
     let n_act = unsuffixed(c.actuators.len());
@@ -577,6 +727,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             pub domain: bool,
             /// What was repaired: the `STATUS_*` bits.
             pub status: u32,
+            #memory_field
         }
 
         #flag_items
@@ -597,11 +748,11 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             #checks
         }
 
-        /// The control law once: the actuator commands from this period's reading, saturated
-        /// to their limits.
-        pub fn compute_commands(reading: &Reading, gains: &Gains) -> Commands {
+        #( #[doc = #step_doc] )*
+        pub fn compute_commands(reading: &Reading, gains: &Gains, #memory_params) -> Commands {
             let mut status: u32 = #zero_u;
             #guards
+            #memory_guards
             let g: Gains = if check_gains(gains) {
                 *gains
             } else {
@@ -611,8 +762,12 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
             #lbody
             let mut limits: u32 = #zero_u;
             #saturate
-            Commands { #( #act_fields: #cmd_names, )* limits, domain: status != #zero_u, status }
+            #memory_init
+            #advance
+            Commands { #( #act_fields: #cmd_names, )* limits, domain: status != #zero_u, status, #memory_out }
         }
+
+        #memory_items
 
         #guidance_items
     };

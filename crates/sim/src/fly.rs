@@ -54,6 +54,11 @@ pub struct Sample {
     pub throttle_saturated: bool,
     /// The state error is outside the spec's proved error box.
     pub outside_box: bool,
+    /// The law's estimate of the relative drag error (NaN for a law without one).
+    pub drag_error_estimate: f64,
+    /// The relative error of the drag the law was told: the truth airframe's drag at the
+    /// true angle of attack over it, minus one (NaN for a controller told no drag).
+    pub drag_error: f64,
 }
 
 /// The recorded flight of one controller.
@@ -171,6 +176,12 @@ pub fn fly(
             uw: (s.u, s.w),
         };
         let (c, notes): (Controls, _) = pilot.step(&m, &r, dtc);
+        let truth_drag = 0.5
+            * air.density
+            * air.airspeed
+            * air.airspeed
+            * truth.area
+            * truth.cd(truth.cl0 + truth.cl_alpha * air.alpha);
         let elevator_saturated = c.elevator.abs() >= truth.elevator_limit - 1e-12;
         let throttle_saturated = c.throttle <= 0.0 || c.throttle >= 1.0;
         let ek = (r.va * r.va - air.airspeed * air.airspeed) / (2.0 * G0);
@@ -199,6 +210,8 @@ pub fn fly(
             elevator_saturated,
             throttle_saturated,
             outside_box,
+            drag_error_estimate: notes.drag_error_estimate,
+            drag_error: truth_drag / notes.drag_estimate - 1.0,
         });
         if k == steps {
             break;
@@ -237,7 +250,7 @@ pub fn fly(
 /// the first peak beyond the commanded value after the response first reaches it (a later
 /// excursion, a gust's, is not an overshoot); settling is into 5% of the step and staying
 /// there; both per step of the command, the worst step reported.
-pub const METRICS: [(&str, &str, &str); 14] = [
+pub const METRICS: [(&str, &str, &str); 15] = [
     (
         "peak_airspeed_deviation_in_altitude_change",
         "m/s",
@@ -256,6 +269,11 @@ pub const METRICS: [(&str, &str, &str); 14] = [
         "airspeed settling time, to 5% of the step",
     ),
     ("energy_error_rms", "m", "energy error rms"),
+    (
+        "steady_energy_error",
+        "m",
+        "steady energy error, mean magnitude over the last 20%",
+    ),
     ("balance_error_rms", "m", "balance error rms"),
     ("elevator_rate_rms", "rad/s", "elevator rate rms"),
     ("throttle_rate_rms", "1/s", "throttle rate rms"),
@@ -403,6 +421,14 @@ pub fn metrics(f: &Flight) -> BTreeMap<String, f64> {
     m.insert(
         "energy_error_rms".into(),
         rms(s.iter().map(|x| x.energy_error)),
+    );
+    // the steady error an estimate error leaves: the energy error (a height: the total-energy
+    // error over m·g) averaged in magnitude over the last fifth of the flight
+    let tail = s.len() - s.len() / 5;
+    let last = &s[tail.min(s.len().saturating_sub(1))..];
+    m.insert(
+        "steady_energy_error".into(),
+        last.iter().map(|x| x.energy_error.abs()).sum::<f64>() / last.len().max(1) as f64,
     );
     m.insert(
         "balance_error_rms".into(),

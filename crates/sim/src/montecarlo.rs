@@ -4,7 +4,7 @@
 use crate::fly::Perturbation;
 use crate::fly::{metric_label, metrics, METRICS};
 use crate::plot::histogram;
-use crate::run::{Setup, Variant, PILOTS};
+use crate::run::{Setup, Variant};
 use crate::turbulence::Noise;
 use rayon::prelude::*;
 use serde_json::{json, Map, Value};
@@ -25,6 +25,8 @@ pub struct Campaign {
     pub seed: u64,
     /// Per controller, per metric, the value of every run (run order).
     pub values: BTreeMap<String, BTreeMap<String, Vec<f64>>>,
+    /// The controllers, in report order.
+    pub pilots: Vec<String>,
 }
 
 /// Run `i` of a campaign: its dispersed variant, drawn from `seed + i`.
@@ -55,11 +57,12 @@ pub fn variant(setup: &Setup, seed: u64, i: usize) -> Variant {
 /// Flies `runs` dispersed runs of every controller, in parallel. The result does not depend
 /// on the number of threads.
 pub fn campaign(setup: &Setup, runs: usize, seed: u64) -> Result<Campaign, String> {
+    let pilots = setup.pilots();
     let results: Vec<Result<RunMetrics, String>> = (0..runs)
         .into_par_iter()
         .map(|i| {
             let v = variant(setup, seed, i);
-            PILOTS
+            pilots
                 .iter()
                 .map(|p| setup.fly(p, &v).map(|f| (p.to_string(), metrics(&f))))
                 .collect()
@@ -78,6 +81,7 @@ pub fn campaign(setup: &Setup, runs: usize, seed: u64) -> Result<Campaign, Strin
         scenario: setup.scenario.name.clone(),
         runs,
         seed,
+        pilots,
         values,
     })
 }
@@ -175,11 +179,12 @@ impl Campaign {
         s
     }
 
-    /// The controllers in the order of the nominal tables (energy, pid, lqr).
+    /// The controllers in the order of the nominal tables (energy, the compared laws, pid,
+    /// lqr).
     pub fn in_order(&self) -> impl Iterator<Item = (&str, &BTreeMap<String, Vec<f64>>)> {
-        PILOTS
+        self.pilots
             .iter()
-            .filter_map(|p| self.values.get(*p).map(|m| (*p, m)))
+            .filter_map(|p| self.values.get(p).map(|m| (p.as_str(), m)))
     }
 
     /// `{"scenario", "runs", "seed", "controllers": {name: {metric: {p5, p50, p95, max,

@@ -108,7 +108,7 @@ pub fn plots(r: &ScenarioRun) -> Vec<(String, String)> {
             None,
         ),
     ];
-    quantities
+    let mut out: Vec<(String, String)> = quantities
         .iter()
         .map(|(file, title, unit, pick, cmd)| {
             let mut series: Vec<Series> = r
@@ -132,7 +132,39 @@ pub fn plots(r: &ScenarioRun) -> Vec<(String, String)> {
                 lines(&format!("{title}: {}", r.name), "time (s)", unit, &series),
             )
         })
-        .collect()
+        .collect();
+    // a law's estimate of the drag error beside the truth, where a law has one
+    let estimating: Vec<&Flight> = r
+        .flights
+        .iter()
+        .map(|(f, _)| f)
+        .filter(|f| f.samples.iter().any(|x| x.drag_error_estimate.is_finite()))
+        .collect();
+    if let Some(first) = estimating.first() {
+        let mut series: Vec<Series> = estimating
+            .iter()
+            .map(|f| Series {
+                label: f.pilot.clone(),
+                points: thin(f, |x| x.drag_error_estimate),
+                dashed: false,
+            })
+            .collect();
+        series.push(Series {
+            label: "true".into(),
+            points: thin(first, |x| x.drag_error),
+            dashed: true,
+        });
+        out.push((
+            "drag_error_estimate.svg".into(),
+            lines(
+                &format!("Relative drag error, estimated and true: {}", r.name),
+                "time (s)",
+                "δ (1)",
+                &series,
+            ),
+        ));
+    }
+    out
 }
 
 fn cell(v: f64) -> String {

@@ -48,18 +48,34 @@ pub struct References {
 }
 
 /// What a controller did in one step, besides the controls.
-#[derive(Clone, Copy, Debug, Default, PartialEq)]
+#[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Notes {
     /// The energy law's domain flag.
     pub domain: bool,
     /// The energy law's limit bits.
     pub limits: u32,
+    /// The law's estimate of the relative drag error (a controller state that estimates it),
+    /// NaN for a law without one.
+    pub drag_error_estimate: f64,
+    /// The drag the law was told, N (NaN for a controller that is told none).
+    pub drag_estimate: f64,
+}
+
+impl Default for Notes {
+    fn default() -> Self {
+        Notes {
+            domain: false,
+            limits: 0,
+            drag_error_estimate: f64::NAN,
+            drag_estimate: f64::NAN,
+        }
+    }
 }
 
 /// A controller of the simulation.
 pub trait Pilot {
     /// Its name in reports.
-    fn name(&self) -> &'static str;
+    fn name(&self) -> &str;
     /// The controls for one step of `dt` seconds.
     fn step(&mut self, m: &Measured, r: &References, dt: f64) -> (Controls, Notes);
 }
@@ -102,7 +118,12 @@ impl PitchLoop {
 
 /// The energy law of a spec.
 pub struct EnergyPilot {
+    name: String,
     law: Controller,
+    /// The controller states, carried from step to step.
+    memory: Vec<f64>,
+    /// The controller state that estimates the relative drag error, if one does.
+    drag_error_state: Option<usize>,
     gains: Vec<f64>,
     slots: Vec<usize>,
     pitch_out: usize,
@@ -112,6 +133,7 @@ pub struct EnergyPilot {
     pitch: PitchLoop,
     ws: lawsmith_codegen::Workspace,
     inputs: Vec<f64>,
+    memory_before: Vec<f64>,
     last: Option<lawsmith_codegen::StepOutput>,
 }
 
@@ -121,8 +143,11 @@ pub const ENERGY_INPUTS: [&str; 8] = [
 ];
 
 impl EnergyPilot {
-    /// The pilot for a spec's controller with these gains (in the spec's gain order).
+    /// The pilot `name` for a spec's controller with these gains (in the spec's gain order);
+    /// `drag_error_state` is the controller state that estimates the relative drag error.
     pub fn new(
+        name: &str,
+        drag_error_state: Option<usize>,
         law: Controller,
         gains: Vec<f64>,
         model: Airframe,
@@ -151,6 +176,9 @@ impl EnergyPilot {
         let pitch_out = out("pitch_cmd")?;
         let thrust_out = out("thrust_cmd")?;
         Ok(EnergyPilot {
+            name: name.to_string(),
+            memory: law.start_memory(),
+            drag_error_state,
             law,
             gains,
             slots,
@@ -161,6 +189,7 @@ impl EnergyPilot {
             pitch,
             ws: lawsmith_codegen::Workspace::default(),
             inputs: Vec::new(),
+            memory_before: Vec::new(),
             last: None,
         })
     }
@@ -168,6 +197,16 @@ impl EnergyPilot {
     /// The law's inputs of the last step, in the spec's input order.
     pub fn last_inputs(&self) -> &[f64] {
         &self.inputs
+    }
+
+    /// The controller states after the last step (before it: see [`EnergyPilot::last_memory`]).
+    pub fn memory(&self) -> &[f64] {
+        &self.memory
+    }
+
+    /// The controller states the last step started from.
+    pub fn last_memory(&self) -> &[f64] {
+        &self.memory_before
     }
 
     /// What the law computed in the last step.
@@ -178,6 +217,11 @@ impl EnergyPilot {
     /// The gains it flies.
     pub fn gains(&self) -> &[f64] {
         &self.gains
+    }
+
+    /// The generated law it flies.
+    pub fn law(&self) -> &Controller {
+        &self.law
     }
 
     /// The drag the law is told: the model's polar at the estimated α, times the estimate's
@@ -191,25 +235,24 @@ impl EnergyPilot {
 }
 
 impl Pilot for EnergyPilot {
-    fn name(&self) -> &'static str {
-        "energy"
+    fn name(&self) -> &str {
+        &self.name
     }
 
     fn step(&mut self, m: &Measured, r: &References, dt: f64) -> (Controls, Notes) {
         let alpha = m.alpha + self.estimates.alpha_bias;
-        let values = [
-            m.h,
-            m.va,
-            r.h,
-            r.va,
-            r.hdot,
-            r.vadot,
-            self.drag_estimate(m, alpha),
-            alpha,
-        ];
+        let drag = self.drag_estimate(m, alpha);
+        let values = [m.h, m.va, r.h, r.va, r.hdot, r.vadot, drag, alpha];
         self.inputs.clear();
         self.inputs.extend(self.slots.iter().map(|&k| values[k]));
-        let out = self.law.step_in(&self.inputs, &self.gains, &mut self.ws);
+        self.memory_before.clone_from(&self.memory);
+        let out = self.law.run_in(
+            &self.inputs,
+            &self.gains,
+            &mut self.memory,
+            dt,
+            &mut self.ws,
+        );
         let theta_cmd = out.commands[self.pitch_out];
         let thrust = out.commands[self.thrust_out];
         let per_throttle = self.estimates.thrust * self.model.thrust(1.0, m.va);
@@ -223,6 +266,11 @@ impl Pilot for EnergyPilot {
         let notes = Notes {
             domain: out.domain,
             limits: out.limits,
+            // what the state estimates at this step (the value the commands used)
+            drag_error_estimate: self
+                .drag_error_state
+                .map_or(f64::NAN, |j| self.memory_before[j]),
+            drag_estimate: drag,
         };
         self.last = Some(out);
         (Controls { elevator, throttle }, notes)
@@ -256,7 +304,7 @@ impl PidPilot {
 }
 
 impl Pilot for PidPilot {
-    fn name(&self) -> &'static str {
+    fn name(&self) -> &str {
         "pid"
     }
 
@@ -324,7 +372,7 @@ impl LqrPilot {
 }
 
 impl Pilot for LqrPilot {
-    fn name(&self) -> &'static str {
+    fn name(&self) -> &str {
         "lqr"
     }
 

@@ -7,8 +7,22 @@ use crate::pilots::{EnergyPilot, LqrPilot, PidPilot, PitchLoop};
 use crate::scenario::{Estimates, Scenario};
 use lawsmith_codegen::Controller;
 
-/// The controllers every scenario flies, in report order.
+/// The controllers every scenario flies, in report order: the scenario's energy law, then
+/// the laws it compares ([`Setup::pilots`] lists them between), then the baselines.
 pub const PILOTS: [&str; 3] = ["energy", "pid", "lqr"];
+
+/// A further law a scenario flies beside its own (the scenario's `compare:`).
+#[derive(Clone, Debug)]
+pub struct Compared {
+    /// Its name in reports: the spec's name.
+    pub name: String,
+    /// The generated controller.
+    pub law: Controller,
+    /// Its gains (the spec's defaults).
+    pub gains: Vec<f64>,
+    /// The controller state that estimates the relative drag error, if one does.
+    pub drag_error_state: Option<usize>,
+}
 
 /// A scenario with its law, airframe and trim.
 #[derive(Clone, Debug)]
@@ -21,6 +35,30 @@ pub struct Setup {
     pub gains: Vec<f64>,
     /// The airframe the controllers' models assume.
     pub model: Airframe,
+    /// The controller state of the scenario's law that estimates the relative drag error.
+    pub drag_error_state: Option<usize>,
+    /// The laws flown beside it.
+    pub compare: Vec<Compared>,
+}
+
+/// The controller state of a spec that estimates the relative error of the drag estimate
+/// (`estimates:` an error of an uncertain quantity `relative` to the signal `drag`), by its
+/// index among the controller states.
+fn drag_error_state(spec: &lawsmith_spec::Spec) -> Option<usize> {
+    use lawsmith_spec::{Decl, ErrorForm, Settle, SymbolKind};
+    spec.symbols_of(SymbolKind::Memory).position(|m| {
+        let Decl::Memory {
+            settle: Settle::Unknown(u),
+            ..
+        } = &m.decl
+        else {
+            return false;
+        };
+        spec.symbols.iter().any(|q| {
+            matches!(&q.decl, Decl::Uncertain { estimate, form: ErrorForm::Relative, delta, .. }
+                if estimate == "drag" && delta == u)
+        })
+    })
 }
 
 /// One flight's variations: the truth airframe and the estimate errors.
@@ -84,7 +122,44 @@ impl Setup {
             law,
             gains,
             model: Airframe::default(),
+            drag_error_state: drag_error_state(spec),
+            compare: Vec::new(),
         })
+    }
+
+    /// The setup with the laws of `specs` flown beside the scenario's own (its `compare:`,
+    /// read by the caller), each with its spec's default gains.
+    pub fn comparing(mut self, specs: &[&lawsmith_spec::Spec]) -> Result<Setup, SetupError> {
+        for spec in specs {
+            let law = Controller::new(spec).map_err(|e| SetupError::Unsupported(e.0))?;
+            let name = spec.name.clone();
+            if self.pilots().contains(&name) {
+                return Err(SetupError::Invalid(format!(
+                    "`{name}` is flown twice (a compared spec has the name of another controller)"
+                )));
+            }
+            crate::fly::proved_box(&law).ok_or_else(|| {
+                SetupError::Unsupported(format!(
+                    "the compared spec `{name}` must have states `h` and `va` for the simulation"
+                ))
+            })?;
+            self.compare.push(Compared {
+                name,
+                gains: law.gains.iter().map(|g| g.default).collect(),
+                drag_error_state: drag_error_state(spec),
+                law,
+            });
+        }
+        Ok(self)
+    }
+
+    /// The controllers this scenario flies, in report order: `energy` (its own law), each
+    /// compared law, `pid`, `lqr`.
+    pub fn pilots(&self) -> Vec<String> {
+        let mut out = vec![PILOTS[0].to_string()];
+        out.extend(self.compare.iter().map(|c| c.name.clone()));
+        out.extend(PILOTS[1..].iter().map(|p| p.to_string()));
+        out
     }
 
     /// The nominal variant: truth = model, the scenario's estimates.
@@ -107,10 +182,11 @@ impl Setup {
         .map_err(|e| e.0)
     }
 
-    /// The controller `pilot` ("energy", "pid", "lqr") for a variant, designed on the model.
+    /// The controller `pilot` (one of [`Setup::pilots`]) for a variant, designed on the
+    /// model.
     pub fn pilot(&self, pilot: &str, v: &Variant) -> Result<Box<dyn crate::pilots::Pilot>, String> {
-        if pilot == "energy" {
-            return Ok(Box::new(self.energy_pilot(v)?));
+        if let Some(p) = self.law_pilot_named(pilot, v) {
+            return Ok(Box::new(p?));
         }
         // the controllers are designed on the model, not the (dispersed) truth
         let model_trim = self.trim(&self.model)?;
@@ -139,8 +215,30 @@ impl Setup {
         }
     }
 
+    /// The generated law `pilot` flies (`energy` or a compared law's name) as a controller
+    /// for a variant; None for a baseline.
+    pub fn law_pilot_named(&self, pilot: &str, v: &Variant) -> Option<Result<EnergyPilot, String>> {
+        if pilot == PILOTS[0] {
+            return Some(self.energy_pilot(v));
+        }
+        let c = self.compare.iter().find(|c| c.name == pilot)?;
+        Some(self.law_pilot(&c.name, c.drag_error_state, &c.law, &c.gains, v))
+    }
+
     /// The energy-law controller for a variant.
     pub fn energy_pilot(&self, v: &Variant) -> Result<EnergyPilot, String> {
+        self.law_pilot(PILOTS[0], self.drag_error_state, &self.law, &self.gains, v)
+    }
+
+    /// A generated law as a controller for a variant.
+    fn law_pilot(
+        &self,
+        name: &str,
+        drag_error_state: Option<usize>,
+        law: &Controller,
+        gains: &[f64],
+        v: &Variant,
+    ) -> Result<EnergyPilot, String> {
         let model_trim = self.trim(&self.model)?;
         let pitch = PitchLoop::new(
             self.scenario.tuning.pitch,
@@ -148,8 +246,10 @@ impl Setup {
             self.model.elevator_limit,
         );
         EnergyPilot::new(
-            self.law.clone(),
-            self.gains.clone(),
+            name,
+            drag_error_state,
+            law.clone(),
+            gains.to_vec(),
             self.model.clone(),
             v.estimates,
             pitch,

@@ -355,6 +355,10 @@ pub struct Scenario {
     pub summary: Option<String>,
     /// The spec of the energy law, relative to the scenario file.
     pub spec: String,
+    /// Further laws flown beside it, each under its spec's name (paths relative to the
+    /// scenario file; their spec's default gains).
+    #[serde(default)]
+    pub compare: Vec<String>,
     /// Length, s.
     pub duration: f64,
     /// Initial trimmed flight.

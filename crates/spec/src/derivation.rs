@@ -2,7 +2,7 @@
 //! syntax over the base symbols (so another tool can evaluate it).
 
 use crate::derive::Derivation;
-use crate::model::{uncertainty_name, Decl, ErrorForm, Range, Spec, Target};
+use crate::model::{Decl, ErrorForm, Range, Settle, Spec, Target};
 use lawsmith_expr::{to_latex, to_text};
 use serde_json::{json, Map, Value};
 
@@ -31,6 +31,12 @@ pub fn text(spec: &Spec, d: &Derivation, file: &str) -> String {
             s.push_str(&format!("  {n} = {}\n", to_text(dag, *e)));
         }
     }
+    if !d.updates.is_empty() {
+        s.push_str("controller states (update laws, in base symbols):\n");
+        for (n, e) in &d.updates {
+            s.push_str(&format!("  d{n}/dt = {}\n", to_text(dag, *e)));
+        }
+    }
     if !d.assumptions.is_empty() {
         s.push_str("simplification assumed (to be proved over the envelope by `check`):\n");
         for (rule, c) in &d.assumptions {
@@ -52,6 +58,13 @@ pub fn latex(spec: &Spec, d: &Derivation) -> String {
     for (n, e) in &d.laws {
         s.push_str(&format!(
             " \\\\\n\\mathrm{{{}}} &= {}",
+            n.replace('_', "\\_"),
+            to_latex(dag, *e)
+        ));
+    }
+    for (n, e) in &d.updates {
+        s.push_str(&format!(
+            " \\\\\n\\dot{{\\mathrm{{{}}}}} &= {}",
             n.replace('_', "\\_"),
             to_latex(dag, *e)
         ));
@@ -78,6 +91,7 @@ pub fn json(spec: &Spec, d: &Derivation, file: &str) -> Value {
         o.insert("unit".into(), json!(s.unit));
         let range = match &s.decl {
             Decl::State { .. } => spec.state_span(s),
+            Decl::Memory { limits, .. } => Some(limits.nearest()),
             _ => s.range().map(Range::nearest),
         };
         o.insert(
@@ -104,14 +118,28 @@ pub fn json(spec: &Spec, d: &Derivation, file: &str) -> Value {
             Decl::Reference { rate, .. } => {
                 o.insert("rate".into(), json!(rate));
             }
-            Decl::Uncertain { estimate, form, .. } => {
+            Decl::Uncertain {
+                estimate,
+                form,
+                delta,
+                ..
+            } => {
                 o.insert("estimate".into(), json!(estimate));
                 let form = match form {
                     ErrorForm::Relative => "relative",
                     ErrorForm::Absolute => "absolute",
                 };
                 o.insert("form".into(), json!(form));
-                o.insert("error_symbol".into(), json!(uncertainty_name(&s.name)));
+                o.insert("error_symbol".into(), json!(delta));
+            }
+            Decl::Memory {
+                initial, settle, ..
+            } => {
+                o.insert("initial".into(), json!(initial.value()));
+                match settle {
+                    Settle::Value(v) => o.insert("equilibrium".into(), json!(v.value())),
+                    Settle::Unknown(u) => o.insert("estimates".into(), json!(u)),
+                };
             }
             _ => {}
         }
@@ -136,6 +164,11 @@ pub fn json(spec: &Spec, d: &Derivation, file: &str) -> Value {
         "vdot": to_text(dag, d.vdot),
         "laws": laws,
         "actuators": actuators,
+        "updates": d
+            .updates
+            .iter()
+            .map(|(n, e)| (n.clone(), Value::String(to_text(dag, *e))))
+            .collect::<Map<String, Value>>(),
         "constraints": spec.constraints.iter().map(|c| c.text.clone()).collect::<Vec<_>>(),
         "symbols": symbols,
         "assumptions": assumptions,

@@ -416,7 +416,7 @@ fn follows(spec: &Spec) -> Vec<String> {
     let mut out = vec![
         "assumed: the trajectory stays in the proof domain (references, rates and signals in \
          their ranges, errors in their boxes); every unknown is constant; each controller \
-         state is held at its limits when its update law points outward (proved above not to \
+         state is held at its limits when its update law points outward (proved not to \
          increase V)"
             .to_string(),
     ];

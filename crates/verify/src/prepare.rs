@@ -60,6 +60,10 @@ fn root_of(problem: &Problem, dims: &[usize]) -> Vec<Interval> {
         .collect()
 }
 
+/// A controller state's limit goal: the state, the limit, the quantity the goal's expression
+/// is (see [`PreparedGoal::face`]).
+type Face = (String, f64, String);
+
 /// For each controller state, the goals that make its limits harmless to the claim: at the
 /// upper limit `∂V/∂ξ ≥ 0` (goal `−∂V/∂ξ ≤ 0` with ξ there), at the lower `∂V/∂ξ ≤ 0`. Where
 /// the generated code holds ξ at a limit against its update law `u` (which points outward),
@@ -69,7 +73,7 @@ fn projections(
     spec: &Spec,
     problem: &mut Problem,
     d: &lawsmith_spec::Derivation,
-) -> Vec<(GoalKind, String, Goal, Option<(String, f64, String)>)> {
+) -> Vec<(GoalKind, String, Goal, Option<Face>)> {
     let mut out = Vec::new();
     for s in spec.symbols_of(lawsmith_spec::SymbolKind::Memory) {
         let lawsmith_spec::Decl::Memory { limits, .. } = &s.decl else {
@@ -130,7 +134,7 @@ pub struct PreparedGoal {
     /// For a controller state's limit goal: the state, the limit it is asked at (its
     /// coordinate is not the goal's; a counterexample shows the state there), and the
     /// quantity the goal's expression is (`-dV/d(xi)` at an upper limit).
-    pub face: Option<(String, f64, String)>,
+    pub face: Option<Face>,
 }
 
 /// An actuator's command within its limits, as a goal: `lo <= command <= hi` over the whole
@@ -204,7 +208,7 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
             region: None,
         },
     ));
-    let mut faces: Vec<Option<(String, f64, String)>> = vec![None; goals.len()];
+    let mut faces: Vec<Option<Face>> = vec![None; goals.len()];
     for (kind, source, goal, face) in projections(spec, &mut problem, &derivation) {
         goals.push((kind, source, goal));
         faces.push(face);

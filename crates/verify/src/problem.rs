@@ -194,7 +194,8 @@ impl Problem {
                 Decl::Uncertain { .. } | Decl::Unknown { of: None, .. }
             )
         };
-        let kinds: [(&dyn Fn(&Symbol) -> bool, Role); 5] = [
+        type Pick<'a> = &'a dyn Fn(&Symbol) -> bool;
+        let kinds: [(Pick, Role); 5] = [
             (&|s| s.kind() == SymbolKind::Reference, Role::Reference),
             (&|s| s.kind() == SymbolKind::Rate, Role::Rate),
             (&|s| s.kind() == SymbolKind::Signal, Role::Signal),

@@ -11,11 +11,15 @@
 //! for a violation on its own, by sampling; any mutant it shows false must not be `proven`,
 //! and must be `falsified`.
 //!
+//! Mutants of the laws with controller states (`specs/energy_adaptive.yaml`,
+//! `specs/energy_integral.yaml`): an update law's sign flipped or a term of it dropped, the
+//! estimate's term of a law dropped; each must be falsified, its counterexample confirmed.
+//!
 //! Limit mutants: an actuator that is saturation-free as written, its limit tightened below
 //! its largest command over the box (elementary), must never be reported saturation-free.
 
 use lawsmith_expr::{parse, Ast, AstKind};
-use lawsmith_verify::{check, Budget, GoalKind, Settings, Verdict};
+use lawsmith_verify::{check, Budget, Settings, Verdict};
 use serde_json::json;
 use std::path::PathBuf;
 use std::process::Command;
@@ -173,6 +177,63 @@ fn mutants_of(spec: &'static str) -> Vec<Mutant> {
     out
 }
 
+/// Mutants of the laws with controller states: an update law's sign flipped, a term of an
+/// update law dropped, the estimate's term of a law dropped. Each leaves a cross term between
+/// the energy errors and a controller state's error in dV/dt that takes both signs
+/// (elementary), so each is false.
+fn memory_mutants() -> Vec<Mutant> {
+    let edits: [(&'static str, &str, &str, &str); 6] = [
+        (
+            "energy_adaptive.yaml",
+            "update: gamma_d * va * drag * (et - eb)",
+            "update: -gamma_d * va * drag * (et - eb)",
+            "update law of dhat: sign flipped",
+        ),
+        (
+            "energy_adaptive.yaml",
+            "update: gamma_d * va * drag * (et - eb)",
+            "update: gamma_d * va * drag * et",
+            "update law of dhat: `- eb` dropped",
+        ),
+        (
+            "energy_adaptive.yaml",
+            "thrust: drag * (1 + dhat) + ",
+            "thrust: drag + ",
+            "law thrust: the estimate dhat dropped",
+        ),
+        (
+            "energy_integral.yaml",
+            "update: k_t * (et - eb)",
+            "update: -k_t * (et - eb)",
+            "update law of xi_t: sign flipped",
+        ),
+        (
+            "energy_integral.yaml",
+            "update: k_t * (et - eb)",
+            "update: k_t * et",
+            "update law of xi_t: `- eb` dropped",
+        ),
+        (
+            "energy_integral.yaml",
+            "update: k_b * eb,",
+            "update: -k_b * eb,",
+            "update law of xi_b: sign flipped",
+        ),
+    ];
+    edits
+        .iter()
+        .map(|(spec, from, to, what)| {
+            let yaml = std::fs::read_to_string(root().join("specs").join(spec)).unwrap();
+            assert!(yaml.contains(from), "{spec}: `{from}`");
+            Mutant {
+                spec,
+                what: what.to_string(),
+                yaml: yaml.replacen(from, to, 1),
+            }
+        })
+        .collect()
+}
+
 #[test]
 fn no_false_mutant_is_proven_and_every_counterexample_is_real() {
     let settings = Settings {
@@ -190,6 +251,7 @@ fn no_false_mutant_is_proven_and_every_counterexample_is_real() {
     let mut mutants = mutants_of("energy_longitudinal.yaml");
     mutants.extend(mutants_of("energy_pitch.yaml"));
     assert!(mutants.len() >= 30, "only {} mutants", mutants.len());
+    mutants.extend(memory_mutants());
     // two falsified cases of tests/data/check whose counterexamples SymPy can judge too: a
     // semidefinite V̇ under a definite claim, and a candidate that is not positive definite
     for (file, what) in [
@@ -268,6 +330,13 @@ fn no_false_mutant_is_proven_and_every_counterexample_is_real() {
         .filter(|c| c["well_posed"] == json!(false))
         .count();
     assert!(ill_posed >= 2, "the widened error boxes must be ill-posed");
+    // every mutant of a law with controller states is false, and shown so
+    for c in cases
+        .iter()
+        .filter(|c| c["spec"] == "energy_adaptive.yaml" || c["spec"] == "energy_integral.yaml")
+    {
+        assert_eq!(c["verdict"], "falsified", "{}: {}", c["spec"], c["what"]);
+    }
 }
 
 /// A spec with one actuator's limits replaced by `[lo, hi]`.

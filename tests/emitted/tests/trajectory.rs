@@ -11,15 +11,23 @@ fn root() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../..")
 }
 
-/// The simulation's energy pilot, recording each step's law inputs and outputs.
+/// A generated law's pilot, recording each step's inputs, the controller states it started
+/// from, its output and the controller states it ended with.
 struct Recorder {
     inner: EnergyPilot,
-    steps: Vec<(Vec<f64>, lawsmith_codegen::StepOutput)>,
+    steps: Vec<Step>,
+}
+
+struct Step {
+    inputs: Vec<f64>,
+    memory: Vec<f64>,
+    out: lawsmith_codegen::StepOutput,
+    memory_after: Vec<f64>,
 }
 
 impl Pilot for Recorder {
-    fn name(&self) -> &'static str {
-        "energy"
+    fn name(&self) -> &str {
+        self.inner.name()
     }
     fn step(
         &mut self,
@@ -28,10 +36,12 @@ impl Pilot for Recorder {
         dt: f64,
     ) -> (lawsmith_sim::airframe::Controls, Notes) {
         let out = self.inner.step(m, r, dt);
-        self.steps.push((
-            self.inner.last_inputs().to_vec(),
-            self.inner.last_output().expect("a step").clone(),
-        ));
+        self.steps.push(Step {
+            inputs: self.inner.last_inputs().to_vec(),
+            memory: self.inner.last_memory().to_vec(),
+            out: self.inner.last_output().expect("a step").clone(),
+            memory_after: self.inner.memory().to_vec(),
+        });
         out
     }
 }
@@ -39,38 +49,59 @@ impl Pilot for Recorder {
 #[test]
 fn the_simulated_energy_law_is_the_emitted_rust_bit_for_bit() {
     let mut total = 0;
+    let mut with_memory = 0;
     for file in ["combined.yaml", "gusts.yaml", "drag_mismatch.yaml"] {
         let text = std::fs::read_to_string(root().join("specs/scenarios").join(file)).unwrap();
         let sc = Scenario::parse(&text).unwrap();
-        let spec_name = sc
-            .spec
-            .trim_start_matches("../")
-            .trim_end_matches(".yaml")
-            .to_string();
-        let spec = lawsmith_spec::load(
-            &std::fs::read_to_string(root().join("specs").join(format!("{spec_name}.yaml")))
-                .unwrap(),
-        )
-        .unwrap();
-        let setup = Setup::new(sc, &spec).unwrap();
-        let v = setup.nominal();
-        let mut rec = Recorder {
-            inner: setup.energy_pilot(&v).unwrap(),
-            steps: Vec::new(),
+        let spec_of = |path: &str| {
+            let text = std::fs::read_to_string(root().join("specs/scenarios").join(path)).unwrap();
+            lawsmith_spec::load(&text).unwrap()
         };
-        let flight = setup.fly_with(&mut rec, &v).unwrap();
-        assert_eq!(rec.steps.len(), flight.samples.len());
-        let gains = rec.inner.gains().to_vec();
-        for (inputs, want) in &rec.steps {
-            let (cmds, limits, domain, _) = lawsmith_emitted::step(&spec_name, inputs, &gains)
-                .expect("generated code for the spec");
-            assert_eq!((limits, domain), (want.limits, want.domain), "{file}");
-            for (a, b) in cmds.iter().zip(&want.commands) {
-                assert_eq!(a.to_bits(), b.to_bits(), "{file}: {inputs:?}");
+        let spec = spec_of(&sc.spec);
+        let compared: Vec<lawsmith_spec::Spec> = sc.compare.iter().map(|c| spec_of(c)).collect();
+        let refs: Vec<&lawsmith_spec::Spec> = compared.iter().collect();
+        let setup = Setup::new(sc, &spec).unwrap().comparing(&refs).unwrap();
+        let v = setup.nominal();
+        // every generated law the scenario flies, its controller states carried from step to
+        // step: the emitted Rust, given the same inputs and states, computes the same
+        // commands and the same next states
+        for pilot in setup.pilots() {
+            let Some(p) = setup.law_pilot_named(&pilot, &v) else {
+                continue;
+            };
+            let mut rec = Recorder {
+                inner: p.unwrap(),
+                steps: Vec::new(),
+            };
+            let flight = setup.fly_with(&mut rec, &v).unwrap();
+            assert_eq!(rec.steps.len(), flight.samples.len());
+            let gains = rec.inner.gains().to_vec();
+            let name = rec.inner.law().name.clone();
+            let dt = 1.0 / setup.scenario.rates.control;
+            for st in &rec.steps {
+                let mut memory = st.memory.clone();
+                let (cmds, limits, domain, _, memory_limits) =
+                    lawsmith_emitted::step(&name, &st.inputs, &gains, &mut memory, dt)
+                        .expect("generated code for the spec");
+                assert_eq!((limits, domain), (st.out.limits, st.out.domain), "{file}");
+                assert_eq!(memory_limits, st.out.memory_limits, "{file}");
+                for (a, b) in cmds.iter().zip(&st.out.commands) {
+                    assert_eq!(a.to_bits(), b.to_bits(), "{file} {name}: {:?}", st.inputs);
+                }
+                for (a, b) in memory.iter().zip(&st.memory_after) {
+                    assert_eq!(a.to_bits(), b.to_bits(), "{file} {name}: controller states");
+                }
             }
+            if !rec.inner.memory().is_empty() {
+                with_memory += rec.steps.len();
+            }
+            total += rec.steps.len();
         }
         // the guidance filters along the scenario's commands
         let law = &setup.law;
+        let spec_name = law.name.clone();
+        let gains = setup.gains.clone();
+        let flight = setup.fly("energy", &v).unwrap();
         let mut refs = vec![setup.scenario.initial.h, setup.scenario.initial.va];
         let mut rates = vec![0.0; 2];
         let mut state = vec![refs[0], 0.0, refs[1], 0.0];
@@ -83,7 +114,11 @@ fn the_simulated_energy_law_is_the_emitted_rust_bit_for_bit() {
             assert_eq!(state[2].to_bits(), refs[1].to_bits());
             assert_eq!(state[3].to_bits(), rates[1].to_bits());
         }
-        total += rec.steps.len();
     }
-    println!("{total} control steps of simulated flight: the interpreter equals the emitted Rust bit for bit");
+    // the adaptive and integral laws of drag_mismatch fly with their states
+    assert!(
+        with_memory >= 2 * 4500,
+        "{with_memory} steps with controller states"
+    );
+    println!("{total} control steps of simulated flight ({with_memory} with controller states): the interpreter equals the emitted Rust bit for bit");
 }

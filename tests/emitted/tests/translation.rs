@@ -11,6 +11,11 @@
 //! - limit bits and the domain flag must be identical;
 //! - outside the envelope the domain flag is raised and no output is NaN.
 //!
+//! A law with controller states is validated step by step (random states, some broken, and
+//! random `dt`, some not positive or not finite) and over 40 sequences of 250 steps each,
+//! the states carried from one step to the next from the values `start_memory` sets, by the
+//! interpreter, the Rust and the C alike.
+//!
 //! Independently of the code generator, the commands are also compared with the spec's laws
 //! in the prover's canonical (expanded) form, evaluated by the expression engine: the two
 //! are the same rational functions, so they may differ only by rounding.
@@ -111,23 +116,59 @@ const STRICT: [&str; 7] = [
     "-Wshadow",
 ];
 
-/// A C harness for spec `name`: reads points (inputs then gains) as doubles on stdin and
-/// writes, per point, the commands, the limit bits and the domain flag as doubles; then for
-/// the guidance points (state, commands, gains, dt) the new state.
+/// A C harness for spec `name`: reads cases (inputs, gains, and for a law with controller
+/// states the states and dt) as doubles on stdin and writes, per case, the commands, the limit
+/// bits, the domain flag and the status bits (and the memory limit bits and the new states);
+/// then for the guidance points (state, commands, gains, dt) the new state; then, for a law
+/// with controller states, sequences of steps from the states `start_memory` sets, each step's
+/// output as a case's.
 fn harness(c: &Controller) -> String {
     let p = &c.name;
-    let mut s = format!("#include \"{p}.h\"\n#include <stdio.h>\n\nstatic double rd(void) {{ double v = 0.0; if (fread(&v, sizeof v, 1, stdin) != 1) return 0.0; return v; }}\nstatic void wr(double v) {{ fwrite(&v, sizeof v, 1, stdout); }}\n\nint main(void) {{\n    long n = (long)rd();\n    long m;\n    long i;\n    for (i = 0; i < n; i++) {{\n        {p}_reading in;\n        {p}_gains g;\n        {p}_commands out;\n");
+    let mem = !c.memory.is_empty();
+    let mut s = format!("#include \"{p}.h\"\n#include <stdio.h>\n\nstatic double rd(void) {{ double v = 0.0; if (fread(&v, sizeof v, 1, stdin) != 1) return 0.0; return v; }}\nstatic void wr(double v) {{ fwrite(&v, sizeof v, 1, stdout); }}\n\n");
+    // one step: read the reading and gains (and dt), compute, write the outputs
+    let _ = writeln!(s, "static void step_once({}) {{\n    {p}_reading in;\n    {p}_gains g;\n    {p}_commands out;", if mem { format!("{p}_memory *memory, int read_memory") } else { "void".into() });
     for name in c.input_names() {
-        let _ = writeln!(s, "        in.{name} = rd();");
+        let _ = writeln!(s, "    in.{name} = rd();");
     }
     for g in &c.gains {
-        let _ = writeln!(s, "        g.{} = rd();", g.name);
+        let _ = writeln!(s, "    g.{} = rd();", g.name);
     }
-    let _ = writeln!(s, "        {p}_compute_commands(&in, &g, &out);");
+    if mem {
+        let _ = writeln!(s, "    if (read_memory) {{");
+        for m in &c.memory {
+            let _ = writeln!(s, "        memory->{} = rd();", m.name);
+        }
+        let _ = writeln!(s, "    }}\n    {{\n        double dt = rd();\n        {p}_compute_commands(&in, &g, memory, dt, &out);\n    }}");
+    } else {
+        let _ = writeln!(s, "    {p}_compute_commands(&in, &g, &out);");
+    }
     for a in &c.actuators {
-        let _ = writeln!(s, "        wr(out.{});", a.name);
+        let _ = writeln!(s, "    wr(out.{});", a.name);
     }
-    let _ = writeln!(s, "        wr((double)out.limits);\n        wr(out.domain ? 1.0 : 0.0);\n        wr((double)out.status);\n    }}\n    m = (long)rd();");
+    let _ = writeln!(
+        s,
+        "    wr((double)out.limits);\n    wr(out.domain ? 1.0 : 0.0);\n    wr((double)out.status);"
+    );
+    if mem {
+        let _ = writeln!(s, "    wr((double)out.memory_limits);");
+        for m in &c.memory {
+            let _ = writeln!(s, "    wr(memory->{});", m.name);
+        }
+    }
+    let _ = writeln!(
+        s,
+        "}}\n\nint main(void) {{\n    long n = (long)rd();\n    long m;\n    long i;"
+    );
+    if mem {
+        let _ = writeln!(s, "    {p}_memory memory;\n    for (i = 0; i < n; i++) {{\n        step_once(&memory, 1);\n    }}");
+    } else {
+        let _ = writeln!(
+            s,
+            "    for (i = 0; i < n; i++) {{\n        step_once();\n    }}"
+        );
+    }
+    let _ = writeln!(s, "    m = (long)rd();");
     if !c.filters.is_empty() {
         let _ = writeln!(s, "    for (i = 0; i < m; i++) {{\n        {p}_references st;\n        {p}_targets cm;\n        {p}_gains g;\n        double dt;\n        uint32_t u;");
         for f in &c.filters {
@@ -156,8 +197,68 @@ fn harness(c: &Controller) -> String {
         }
         let _ = writeln!(s, "        wr((double)u);\n    }}");
     }
+    if mem {
+        let _ = writeln!(s, "    {{\n        long q = (long)rd();\n        long len = (long)rd();\n        long k;\n        for (i = 0; i < q; i++) {{\n            {p}_start_memory(&memory);\n            for (k = 0; k < len; k++) {{\n                step_once(&memory, 0);\n            }}\n        }}\n    }}");
+    }
     s.push_str("    return 0;\n}\n");
     s
+}
+
+/// What the harness reads for one case: the inputs, the gains, and for a law with controller
+/// states the states (unless it is a step of a sequence) and dt.
+fn case_values(c: &Controller, x: &[f64], g: &[f64], memory: Option<&[f64]>, dt: f64) -> Vec<f64> {
+    let mut v = x.to_vec();
+    v.extend(g);
+    if !c.memory.is_empty() {
+        v.extend(memory.unwrap_or(&[]));
+        v.push(dt);
+    }
+    v
+}
+
+/// How many numbers the harness writes per case.
+fn per_case(c: &Controller) -> usize {
+    let mem = if c.memory.is_empty() {
+        0
+    } else {
+        1 + c.memory.len()
+    };
+    c.actuators.len() + 3 + mem
+}
+
+/// A harness output row against the interpreter's step: the flags exactly; returns the worst
+/// difference of the commands (relative) and the controller states (as a share of their
+/// limits' width).
+fn compare_row(
+    c: &Controller,
+    row: &[f64],
+    want: &lawsmith_codegen::StepOutput,
+    memory: &[f64],
+    at: &str,
+) -> f64 {
+    let na = c.actuators.len();
+    let mut worst: f64 = 0.0;
+    for ((a, b), act) in row.iter().zip(&want.commands).zip(&c.actuators) {
+        // relative, but a command within a thousandth of its range of zero (where the law's
+        // terms cancel) against that thousandth
+        let floor = 1e-3 * (act.limits.1 - act.limits.0);
+        worst = worst.max((a - b).abs() / a.abs().max(b.abs()).max(floor));
+    }
+    assert_eq!(row[na] as u32, want.limits, "{at}: limit bits");
+    assert_eq!(row[na + 1] != 0.0, want.domain, "{at}: domain flag");
+    assert_eq!(row[na + 2] as u32, want.status, "{at}: status bits");
+    if !c.memory.is_empty() {
+        assert_eq!(
+            row[na + 3] as u32,
+            want.memory_limits,
+            "{at}: memory limit bits"
+        );
+        // a state near zero after cancelling terms: measured against its limits' width
+        for ((a, b), m) in row[na + 4..].iter().zip(memory).zip(&c.memory) {
+            worst = worst.max((a - b).abs() / (m.limits.1 - m.limits.0));
+        }
+    }
+    worst
 }
 
 fn build_c(cc: &str, dir: &Path, gen: &Path, c: &Controller, extra: &[&str]) -> PathBuf {
@@ -218,7 +319,25 @@ fn run_c(exe: &Path, input: &[f64]) -> Vec<f64> {
 struct Case {
     inputs: Vec<f64>,
     gains: Vec<f64>,
+    /// The controller states the step starts from (empty without).
+    memory: Vec<f64>,
+    dt: f64,
     inside: bool,
+}
+
+/// Controller states within their limits; `broken` now and then NaN or beyond a limit.
+fn memory_at(c: &Controller, rng: &mut Rng, broken: bool) -> Vec<f64> {
+    c.memory
+        .iter()
+        .map(|m| {
+            let v = uniform(rng, m.limits);
+            match (broken, rng.below(4)) {
+                (true, 0) => f64::NAN,
+                (true, 1) => m.limits.1 + (m.limits.1 - m.limits.0) * rng.unit(),
+                _ => v,
+            }
+        })
+        .collect()
 }
 
 /// Guidance points: (state [r, rate, …], commands, gains, dt).
@@ -263,6 +382,7 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
     let dir = std::env::temp_dir().join(format!("lawsmith-translation-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     assert!(!lawsmith_emitted::SPECS.is_empty());
+    let mut laws_with_memory = 0;
     for &name in lawsmith_emitted::SPECS {
         let spec = load(name);
         let c = Controller::new(&spec).unwrap();
@@ -275,9 +395,17 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
                 } else {
                     outside(&c, &mut rng)
                 };
+                let memory = memory_at(&c, &mut rng, !inside_pt);
+                let dt = if inside_pt {
+                    [0.02, 0.01, 0.1, 0.0][i % 4]
+                } else {
+                    [0.02, -0.02, f64::NAN, 1e300][i % 4]
+                };
                 Case {
                     inputs,
                     gains,
+                    memory,
+                    dt,
                     inside: inside_pt,
                 }
             })
@@ -287,9 +415,11 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
         // the interpreter and the generated Rust
         let mut expected = Vec::new();
         for case in &cases {
-            let want = c.step(&case.inputs, &case.gains);
-            let (cmds, limits, domain, status) =
-                lawsmith_emitted::step(name, &case.inputs, &case.gains)
+            let mut mine = case.memory.clone();
+            let want = c.run(&case.inputs, &case.gains, &mut mine, case.dt);
+            let mut theirs = case.memory.clone();
+            let (cmds, limits, domain, status, memory_limits) =
+                lawsmith_emitted::step(name, &case.inputs, &case.gains, &mut theirs, case.dt)
                     .expect("a generated module");
             assert_eq!(
                 status, want.status,
@@ -298,7 +428,8 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
             );
             assert_eq!(domain, status != 0, "{name}: domain is any status bit");
             assert_eq!(
-                limits, want.limits,
+                (limits, memory_limits),
+                (want.limits, want.memory_limits),
                 "{name}: limit bits at {:?}",
                 case.inputs
             );
@@ -307,18 +438,27 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
                 "{name}: domain flag at {:?}",
                 case.inputs
             );
-            for (a, b) in cmds.iter().zip(&want.commands) {
+            for (a, b) in cmds
+                .iter()
+                .zip(&want.commands)
+                .chain(theirs.iter().zip(&mine))
+            {
                 assert_eq!(
                     a.to_bits(),
                     b.to_bits(),
-                    "{name}: Rust differs at {:?}",
-                    case.inputs
+                    "{name}: Rust differs at {:?} {:?}",
+                    case.inputs,
+                    case.memory
                 );
                 assert!(
                     b.is_finite(),
-                    "{name}: non-finite command at {:?}",
+                    "{name}: non-finite command or state at {:?}",
                     case.inputs
                 );
+            }
+            // every state within its limits after the step
+            for (m, v) in c.memory.iter().zip(&mine) {
+                assert!(*v >= m.limits.0 && *v <= m.limits.1, "{name}: {v} escapes");
             }
             if case.inside {
                 assert!(
@@ -330,6 +470,7 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
                 .inputs
                 .iter()
                 .chain(&case.gains)
+                .chain(&case.memory)
                 .any(|v| !v.is_finite())
             {
                 assert!(
@@ -338,8 +479,41 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
                     case.inputs, case.gains
                 );
             }
-            expected.push(want);
+            expected.push((want, mine));
         }
+        // sequences of steps, the controller states carried from one to the next from the
+        // values start_memory sets: every reader stays on the same trajectory
+        let (sequences, length) = if c.memory.is_empty() {
+            (0, 0)
+        } else {
+            (40, 250)
+        };
+        let mut seq_cases = Vec::new();
+        let mut seq_expected = Vec::new();
+        for _ in 0..sequences {
+            let (mut mine, mut theirs) = (c.start_memory(), c.start_memory());
+            for k in 0..length {
+                let (inputs, gains) = if k % 50 == 49 {
+                    outside(&c, &mut rng)
+                } else {
+                    inside(&c, &mut rng)
+                };
+                let want = c.run(&inputs, &gains, &mut mine, 0.02);
+                let (cmds, _, _, status, _) =
+                    lawsmith_emitted::step(name, &inputs, &gains, &mut theirs, 0.02).unwrap();
+                assert_eq!(status, want.status, "{name}: sequence status");
+                for (a, b) in cmds
+                    .iter()
+                    .zip(&want.commands)
+                    .chain(theirs.iter().zip(&mine))
+                {
+                    assert_eq!(a.to_bits(), b.to_bits(), "{name}: Rust leaves the sequence");
+                }
+                seq_cases.push((inputs, gains));
+                seq_expected.push((want, mine.clone()));
+            }
+        }
+        laws_with_memory += usize::from(sequences > 0);
         let mut gexpected = Vec::new();
         let mut repaired = 0;
         for (st, cm, g, dt) in &gpoints {
@@ -382,8 +556,13 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
         // the generated C, through each compiler
         let mut input = vec![cases.len() as f64];
         for case in &cases {
-            input.extend(&case.inputs);
-            input.extend(&case.gains);
+            input.extend(case_values(
+                &c,
+                &case.inputs,
+                &case.gains,
+                Some(&case.memory),
+                case.dt,
+            ));
         }
         input.push(gpoints.len() as f64);
         for (st, cm, g, dt) in &gpoints {
@@ -392,19 +571,20 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
             input.extend(g);
             input.push(*dt);
         }
+        if !c.memory.is_empty() {
+            input.extend([sequences as f64, length as f64]);
+            for (x, g) in &seq_cases {
+                input.extend(case_values(&c, x, g, None, 0.02));
+            }
+        }
         for cc in compilers() {
             let exe = build_c(&cc, &dir, &gen, &c, &[]);
             let out = run_c(&exe, &input);
-            let per = c.actuators.len() + 3;
+            let per = per_case(&c);
             let mut worst: f64 = 0.0;
-            for (k, want) in expected.iter().enumerate() {
+            for (k, (want, mine)) in expected.iter().enumerate() {
                 let row = &out[k * per..(k + 1) * per];
-                for (a, b) in row.iter().zip(&want.commands) {
-                    worst = worst.max(rel(*a, *b));
-                }
-                assert_eq!(row[per - 3] as u32, want.limits, "{name}/{cc}: limit bits");
-                assert_eq!(row[per - 2] != 0.0, want.domain, "{name}/{cc}: domain flag");
-                assert_eq!(row[per - 1] as u32, want.status, "{name}/{cc}: status bits");
+                worst = worst.max(compare_row(&c, row, want, mine, &format!("{name}/{cc}")));
             }
             let mut gworst: f64 = 0.0;
             let goff = expected.len() * per;
@@ -418,13 +598,23 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
                     assert_eq!(row[gper - 1] as u32, *status, "{name}/{cc}: update status");
                 }
             }
+            // the sequences, whose states the C carries itself from start_memory
+            let soff = goff + if gper > 1 { gexpected.len() * gper } else { 0 };
+            let mut sworst: f64 = 0.0;
+            for (k, (want, mine)) in seq_expected.iter().enumerate() {
+                let row = &out[soff + k * per..soff + (k + 1) * per];
+                let at = format!("{name}/{cc}: sequence step {k}");
+                sworst = sworst.max(compare_row(&c, row, want, mine, &at));
+            }
+            assert_eq!(out.len(), soff + seq_expected.len() * per, "{name}/{cc}");
             println!(
-                "{name}: C ({cc}) vs interpreter over {} points: max relative difference {worst:.3e} (step), {gworst:.3e} (guidance update); Rust: bit for bit",
-                expected.len()
+                "{name}: C ({cc}) vs interpreter over {} points: max relative difference {worst:.3e} (step), {gworst:.3e} (guidance update), {sworst:.3e} over {} sequence steps; Rust: bit for bit",
+                expected.len(),
+                seq_expected.len()
             );
             assert!(
-                worst <= 1e-12 && gworst <= 1e-12,
-                "{name}/{cc}: {worst:e} {gworst:e}"
+                worst <= 1e-12 && gworst <= 1e-12 && sworst <= 1e-12,
+                "{name}/{cc}: {worst:e} {gworst:e} {sworst:e}"
             );
         }
 
@@ -452,6 +642,7 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
             .map(|(_, e)| spec.dag.substitute(*e, &params))
             .collect();
         let mut vars = c.input_names();
+        vars.extend(c.memory.iter().map(|m| m.name.clone()));
         vars.extend(c.gains.iter().map(|g| g.name.clone()));
         let refs: Vec<&str> = vars.iter().map(String::as_str).collect();
         let tape = Tape::compile(&spec.dag, &roots, &refs).unwrap();
@@ -461,8 +652,9 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
         let (mut worst, mut worst_rel): (f64, f64) = (0.0, 0.0);
         let mut scratch = Vec::new();
         let mut out = vec![0.0; roots.len()];
-        for (case, want) in cases.iter().zip(&expected).filter(|(c, _)| c.inside) {
+        for (case, (want, _)) in cases.iter().zip(&expected).filter(|(c, _)| c.inside) {
             let mut x = case.inputs.clone();
+            x.extend(&case.memory);
             x.extend(&case.gains);
             tape.eval_into(&x, &mut scratch, &mut out);
             for ((v, a), w) in out.iter().zip(&c.actuators).zip(&want.commands) {
@@ -474,6 +666,8 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
         println!("{name}: generated law vs the prover's canonical form over {INSIDE} points: max difference {worst:.3e} of the command range ({worst_rel:.3e} relative)");
         assert!(worst <= 1e-12, "{name}: {worst:e}");
     }
+    // the adaptive and the integral example carry controller states
+    assert!(laws_with_memory >= 2, "{laws_with_memory} laws with states");
     std::fs::remove_dir_all(&dir).unwrap();
 }
 
@@ -508,13 +702,14 @@ fn f32_code_compiles_clean_and_stays_close() {
         let exe = build_c(&compilers()[0], &dir, &dir, &c, &[]);
         let cases: Vec<(Vec<f64>, Vec<f64>)> = (0..2000).map(|_| inside(&c, &mut rng)).collect();
         let mut input = vec![cases.len() as f64];
+        let start = c.start_memory();
         for (x, g) in &cases {
-            input.extend(x);
-            input.extend(g);
+            input.extend(case_values(&c, x, g, Some(&start), 0.0));
         }
-        input.push(0.0);
+        // no guidance points, no sequences
+        input.extend([0.0, 0.0, 0.0]);
         let out = run_c(&exe, &input);
-        let per = c.actuators.len() + 3;
+        let per = per_case(&c);
         let mut worst: f64 = 0.0;
         for (k, (x, g)) in cases.iter().enumerate() {
             let want = c.step(x, g);
@@ -596,7 +791,8 @@ fn outside_the_envelope_every_reader_evaluates_the_nearest_envelope_point() {
         assert_eq!(got.commands, want.commands, "{given:?}");
         // the test tells the two readings apart: a full-box error commands something else
         assert_ne!(c.step(full_box, &gains).commands, want.commands);
-        let (cmds, _, domain, status) = lawsmith_emitted::step(name, given, &gains).unwrap();
+        let (cmds, _, domain, status, _) =
+            lawsmith_emitted::step(name, given, &gains, &mut [], 0.0).unwrap();
         assert!(domain);
         assert_eq!(status, got.status);
         let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
