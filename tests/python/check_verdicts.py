@@ -64,6 +64,8 @@ class Case:
         for n, d in (s.get("references") or {}).items():
             self.ranges[n] = d["range"]
             self.ranges[d["rate"]] = d["rate_range"]
+            if d.get("accel"):
+                self.ranges[d["accel"]] = d["accel_range"]
         # the unknowns: constant ones, and the errors of uncertain quantities (named or δ)
         for n, d in (s.get("uncertain") or {}).items():
             if "constant" in d:

@@ -51,6 +51,7 @@ def sympy_derivation(spec):
         else:
             state_target[sym(s)] = sp.nsimplify(str(d.get("equilibrium", 0)))
     rate_of = {sym(r): sym(d["rate"]) for r, d in refs.items()}
+    rate_of.update({sym(d["rate"]): sym(d["accel"]) for d in refs.values() if d.get("accel")})
 
     dynamics = {}
     definitions = {}
@@ -73,6 +74,8 @@ def sympy_derivation(spec):
                 local.setdefault(n, sym(n))
         for d in refs.values():
             local.setdefault(d["rate"], sym(d["rate"]))
+            if d.get("accel"):
+                local.setdefault(d["accel"], sym(d["accel"]))
         # the plant's true value of an estimate: estimate*(1 + error) or estimate + error,
         # the error a symbol named with a leading delta
         # (named by its `error:` key when it has one); a constant unknown is a symbol

@@ -78,6 +78,8 @@ class Model:
         self.states = sec("states")
         self.refs = sec("references")
         self.rate_of = {r: v["rate"] for r, v in self.refs.items()}
+        # a rate with its own rate (`accel`)
+        self.rate_of.update({v["rate"]: v["accel"] for v in self.refs.values() if v.get("accel")})
         # coordinates: (name, role, symbol, declared range), in the certificate's order
         coords = []
         target = {}
@@ -116,6 +118,9 @@ class Model:
             coords.append((r, "reference", r, pair(v["range"], f"range of {r}")))
         for r, v in self.refs.items():
             coords.append((v["rate"], "rate", v["rate"], pair(v["rate_range"], f"rate of {r}")))
+            if v.get("accel"):
+                coords.append((v["accel"], "rate", v["accel"],
+                               pair(v["accel_range"], f"accel of {r}")))
         for n, v in sec("signals").items():
             coords.append((n, "signal", n, pair(v["range"], f"range of {n}")))
         self.true_value, self.constants = {}, {}

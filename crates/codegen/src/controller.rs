@@ -35,7 +35,8 @@ pub struct State {
     pub name: String,
     /// Unit.
     pub unit: String,
-    /// Index of its reference among [`Controller::references`], if it tracks one.
+    /// Index of what it tracks among the references then the rates ([`Controller::references`]
+    /// chained with [`Controller::rates`]), if it tracks one.
     pub reference: Option<usize>,
     /// Its equilibrium when it tracks no reference.
     pub equilibrium: f64,
@@ -267,8 +268,12 @@ impl Controller {
                 let Decl::State { target, error } = &s.decl else {
                     return None;
                 };
+                // a reference, or a reference's rate: its place among the ranged inputs
                 let (reference, equilibrium) = match target {
-                    Target::Reference(r) => (references.iter().position(|x| &x.name == r), 0.0),
+                    Target::Reference(r) => (
+                        references.iter().chain(&rates).position(|x| &x.name == r),
+                        0.0,
+                    ),
                     Target::Equilibrium(eq) => (None, eq.value()),
                 };
                 Some(State {

@@ -153,7 +153,10 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
                         None,
                     )
                 })?,
-            Decl::Reference { rate, .. } => dag.sym(rate),
+            Decl::Reference { rate, .. }
+            | Decl::Rate {
+                rate: Some(rate), ..
+            } => dag.sym(rate),
             Decl::Memory { .. } => updates
                 .iter()
                 .find(|(m, _)| *m == name)

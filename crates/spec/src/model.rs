@@ -140,12 +140,14 @@ pub enum Decl {
         /// The name of its rate.
         rate: String,
     },
-    /// The time derivative of a reference.
+    /// The time derivative of a reference (or of a reference's rate).
     Rate {
         /// Its range.
         range: Range,
-        /// The reference it is the rate of.
+        /// The reference (or rate) it is the rate of.
         reference: String,
+        /// The name of its own rate, when the spec declares one (`accel`).
+        rate: Option<String>,
     },
     /// Measured or estimated each cycle.
     Signal {

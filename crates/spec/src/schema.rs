@@ -235,6 +235,15 @@ pub struct RawReference {
     pub rate: SpannedStr,
     #[schemars(with = "[f64; 2]")]
     pub rate_range: RawRange,
+    /// The name of the rate's own time derivative (with `accel_range`), for laws that need
+    /// `ddt` of the reference's rate.
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub accel: Option<SpannedStr>,
+    /// The range of `accel`.
+    #[serde(default)]
+    #[schemars(with = "Option<[f64; 2]>")]
+    pub accel_range: Option<RawRange>,
 }
 
 #[derive(Debug, Deserialize, JsonSchema)]

@@ -91,6 +91,29 @@ impl Loader<'_> {
             let range = self.pair(&r.range, "reference range");
             let rate_range = self.pair(&r.rate_range, "rate range");
             let rate_ok = self.declare(&r.rate, SymbolKind::Rate);
+            // the rate's own rate, when the laws need ddt of it
+            let accel = match (&r.accel, &r.accel_range) {
+                (Some(a), Some(ar)) => {
+                    let range = self.pair(ar, "accel range");
+                    self.declare(a, SymbolKind::Rate).then_some((a, range))
+                }
+                (None, None) => None,
+                (a, _) => {
+                    let at = self.name_span(a.as_ref().unwrap_or(n));
+                    self.err(
+                        Diagnostic::new(
+                            "bad-range",
+                            format!(
+                                "reference `{}` needs both `accel:` (the name of its rate's rate) and `accel_range:`",
+                                n.value
+                            ),
+                            at,
+                        )
+                        .hint("e.g. accel: hddot_r, accel_range: [-0.5, 0.5]"),
+                    );
+                    None
+                }
+            };
             if ok {
                 self.push_symbol(
                     &n.value,
@@ -118,6 +141,27 @@ impl Loader<'_> {
                     Decl::Rate {
                         range: rate_range.unwrap_or_else(placeholder),
                         reference: n.value.clone(),
+                        rate: accel.as_ref().map(|(a, _)| a.value.clone()),
+                    },
+                );
+            }
+            if let (Some((a, range)), true) = (&accel, rate_ok) {
+                let u = r.unit.value.trim();
+                let unit = if u.chars().all(|c| c.is_ascii_alphanumeric() || c == '^') {
+                    format!("{u}/s^2")
+                } else {
+                    format!("({u})/s^2")
+                };
+                let s = parse_unit("s").expect("s is a unit");
+                let ad = dim.div(&s).div(&s);
+                self.push_symbol(
+                    &a.value,
+                    &unit,
+                    ad,
+                    Decl::Rate {
+                        range: range.clone().unwrap_or_else(placeholder),
+                        reference: r.rate.value.clone(),
+                        rate: None,
                     },
                 );
             }
@@ -165,7 +209,23 @@ impl Loader<'_> {
             }
             if let Some(r) = &s.reference {
                 let span = self.name_span(r);
-                match raw.references.0.iter().find(|(k, _)| k.value == r.value) {
+                // a state may track a reference, or a reference's rate (a velocity tracking
+                // the rate of a position reference): its unit then the reference's per second
+                let of_rate = raw
+                    .references
+                    .0
+                    .iter()
+                    .find(|(_, v)| v.rate.value == r.value);
+                let found = match of_rate {
+                    Some((k, v)) => Some((k, v, true)),
+                    None => raw
+                        .references
+                        .0
+                        .iter()
+                        .find(|(k, _)| k.value == r.value)
+                        .map(|(k, v)| (k, v, false)),
+                };
+                match found {
                     None => {
                         let names = raw.references.0.iter().map(|(k, _)| k.value.as_str());
                         let mut d = Diagnostic::new(
@@ -182,7 +242,7 @@ impl Loader<'_> {
                         }
                         self.err(d);
                     }
-                    Some((_, rr)) => {
+                    Some((_, rr, is_rate)) => {
                         if !tracked.insert(r.value.clone()) {
                             self.err(Diagnostic::new(
                                 "duplicate-name",
@@ -190,7 +250,10 @@ impl Loader<'_> {
                                 span.clone(),
                             ));
                         }
-                        let rdim = parse_unit(&rr.unit.value).unwrap_or_default();
+                        let mut rdim = parse_unit(&rr.unit.value).unwrap_or_default();
+                        if is_rate {
+                            rdim = rdim.div(&parse_unit("s").expect("s is a unit"));
+                        }
                         if rdim != dim {
                             self.err(
                                 Diagnostic::new(

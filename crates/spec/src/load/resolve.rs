@@ -175,6 +175,7 @@ impl SpecResolver<'_, '_, '_> {
                 .map(|s| {
                     let rate = match &s.decl {
                         Decl::Reference { rate, .. } => Some(rate.clone()),
+                        Decl::Rate { rate, .. } => rate.clone(),
                         _ => None,
                     };
                     (s.kind(), rate)
@@ -184,7 +185,7 @@ impl SpecResolver<'_, '_, '_> {
                 Some((SymbolKind::Parameter | SymbolKind::Gain | SymbolKind::Unknown, _)) => {
                     continue
                 }
-                Some((SymbolKind::Reference, Some(rate))) => dag.sym(&rate),
+                Some((SymbolKind::Reference | SymbolKind::Rate, Some(rate))) => dag.sym(&rate),
                 Some((SymbolKind::State, _)) => match self.ctx.dynamics.and_then(|d| d.get(&name)) {
                     Some(&f) => f,
                     None => {
@@ -201,7 +202,7 @@ impl SpecResolver<'_, '_, '_> {
                         class: "no-rate",
                         message: format!("ddt(…) needs the time derivative of `{name}`, a {} with no declared rate", k.name()),
                         span,
-                        hint: Some("only states (through their dynamics), references (through their rates), gains and parameters can be differentiated".into()),
+                        hint: Some("only states (through their dynamics), references (through their rates), rates that declare an `accel`, gains, parameters and unknowns can be differentiated".into()),
                     })
                 }
                 None => continue,
