@@ -44,6 +44,8 @@ pub fn build_cmd(
     let mut notes: Vec<String> = Vec::new();
     // what the proofs of the laws with controller states imply
     let mut follows: Vec<String> = Vec::new();
+    // the guidance rates that keep every command within its limits, per spec with guidance
+    let mut rate_notes: Vec<String> = Vec::new();
     let mut md = String::from("# lawsmith report\n\nWritten by `lawsmith build`. The airframe and the scenarios are the invented demo\nairframe and scenarios of lawsmith's examples, not a real aircraft.\n\n## Specs\n\n| spec | claim | verdict | boxes | worst sampled margin | ops/step | saturation (verdict over the envelope; share of sampled points beyond the limits) | independent checker |\n|---|---|---|---:|---:|---:|---|---|\n");
     let mut code = 0u8;
     // proved ultimate bounds, by spec file, for the scenarios' cross-checks
@@ -117,6 +119,11 @@ pub fn build_cmd(
                 {
                     bounds.insert(p, b.clone());
                 }
+                if e.report.verdict == Verdict::Proven && e.report.bound.is_none() {
+                    if let Some(note) = guidance_rates(spec, settings, &progress) {
+                        rate_notes.push(format!("- **{name}**: {note}"));
+                    }
+                }
                 if !e.report.follows.is_empty() {
                     follows.push(format!(
                         "- **{name}** ({}):\n{}",
@@ -175,6 +182,13 @@ pub fn build_cmd(
     if !notes.is_empty() {
         md.push_str("\nUltimate bounds (the law with wrong estimates; the errors are bounded, not driven to zero):\n\n");
         for n in &notes {
+            md.push_str(n);
+            md.push('\n');
+        }
+    }
+    if !rate_notes.is_empty() {
+        md.push_str("\nGuidance rates that keep every command within its limits (`lawsmith check SPEC --rates --within …`, with each error within a fiftieth of its proved box; a proof over the sublevel set of V inside those errors, which no trajectory leaves, so the law as flown is the law proved there):\n\n");
+        for n in &rate_notes {
             md.push_str(n);
             md.push('\n');
         }
@@ -320,4 +334,87 @@ pub fn build_cmd(
         );
     }
     ExitCode::from(code)
+}
+
+/// Share of each state's error box the guidance-rate proofs of `build` keep the errors
+/// within: the sublevel set they are over lies inside it.
+pub const RATES_WITHIN: f64 = 1.0 / 50.0;
+
+/// The proved guidance rates of a spec with guidance filters, as a line of the report (the
+/// errors within [`RATES_WITHIN`] of their boxes); None for a spec without guidance.
+fn guidance_rates(spec: &Path, settings: &Settings, progress: &Progress) -> Option<String> {
+    let mut loaded = crate::read_spec(spec)?;
+    let memory = loaded
+        .spec
+        .symbols_of(lawsmith_spec::SymbolKind::Memory)
+        .count();
+    if loaded.spec.guidance.is_empty() {
+        return None;
+    }
+    if memory > 0 {
+        // the sublevel set of a candidate with controller-state errors is thin in them (a
+        // small gain divides their weight), and its proofs take minutes: `check --rates` for it
+        return Some("not sought by build for a law with controller states (minutes of proofs: run `lawsmith check SPEC --rates`)".into());
+    }
+    let within: Vec<(String, f64)> = loaded
+        .spec
+        .symbols_of(lawsmith_spec::SymbolKind::State)
+        .filter_map(|s| {
+            let (lo, hi) = s.error()?.nearest();
+            Some((s.name.clone(), RATES_WITHIN * lo.abs().max(hi.abs())))
+        })
+        .collect();
+    let flags: Vec<String> = within
+        .iter()
+        .map(|(s, b)| format!("{s}={}", lawsmith_verify::report::short(*b)))
+        .collect();
+    let settings = Settings {
+        rates: Some(within),
+        ..settings.clone()
+    };
+    let r = lawsmith_verify::check(&mut loaded.spec, &settings, &|l, b, o| {
+        progress.boxes(l, b, o)
+    });
+    progress.finish();
+    let text = match r.ok()?.0.rates? {
+        Err(why) => why,
+        Ok(rates) => match &rates.outcome {
+            lawsmith_verify::RatesOutcome::Proven => {
+                let each: Vec<String> = rates
+                    .rates
+                    .iter()
+                    .map(|p| {
+                        format!(
+                            "{} in [{}, {}] (declared [{}, {}])",
+                            p.name,
+                            lawsmith_verify::report::short(p.proved.0),
+                            lawsmith_verify::report::short(p.proved.1),
+                            lawsmith_verify::report::short(p.declared.0),
+                            lawsmith_verify::report::short(p.declared.1)
+                        )
+                    })
+                    .collect();
+                format!(
+                    "{} (`--within {}`, V <= {}; {} proofs, {} boxes){}",
+                    each.join(", "),
+                    flags.join(","),
+                    lawsmith_verify::report::short(rates.level),
+                    rates.steps,
+                    rates.boxes,
+                    if rates.warnings.is_empty() {
+                        String::new()
+                    } else {
+                        "; the spec's guidance filters allow faster rates".into()
+                    }
+                )
+            }
+            lawsmith_verify::RatesOutcome::Refuted(a, cx) => format!(
+                "none (`--within {}`): with every rate at zero, {a} leaves its limits ({a} = {})",
+                flags.join(","),
+                lawsmith_verify::report::short(cx.value)
+            ),
+            lawsmith_verify::RatesOutcome::Inconclusive(why) => format!("undecided: {why}"),
+        },
+    };
+    Some(text)
 }

@@ -37,6 +37,35 @@ impl ExprLimits {
     }
 }
 
+/// The guidance rates that keep the commands within their limits, as options.
+#[derive(clap::Args, Clone, Debug)]
+pub struct RateOptions {
+    /// Also prove the guidance rates that keep every command within its limits, on the
+    /// sublevel set of V within --within (a set no trajectory leaves).
+    #[arg(long)]
+    rates: bool,
+    /// With --rates: the error bounds that set must lie within, e.g. h=0.5,va=0.2 (default:
+    /// each state's error box).
+    #[arg(long, value_name = "STATE=BOUND,...", requires = "rates", value_parser = parse_within)]
+    within: Option<Within>,
+}
+
+/// Error bounds, `h=0.5,va=0.2`.
+#[derive(Clone, Debug)]
+pub struct Within(Vec<(String, f64)>);
+
+fn parse_within(text: &str) -> Result<Within, String> {
+    crate::margin_cmd::parse_bounds(text).map(Within)
+}
+
+impl RateOptions {
+    /// The error bounds of --rates (empty for the error box), or None without --rates.
+    pub fn within(&self) -> Option<Vec<(String, f64)>> {
+        self.rates
+            .then(|| self.within.clone().map(|w| w.0).unwrap_or_default())
+    }
+}
+
 /// The prover's limits, as options.
 #[derive(clap::Args, Clone, Debug)]
 pub struct Limits {
@@ -57,6 +86,9 @@ pub struct Limits {
     level_tolerance: f64,
     #[command(flatten)]
     expr: ExprLimits,
+    /// Set by `with_rates`: the error bounds of --rates.
+    #[arg(skip)]
+    rates: Option<Vec<(String, f64)>>,
 }
 
 impl Limits {
@@ -74,6 +106,15 @@ impl Limits {
             },
             dag: self.expr.dag(),
             actuators: true,
+            rates: self.rates.clone(),
+        }
+    }
+
+    /// These limits with the rate options (`check --rates`).
+    pub fn with_rates(&self, r: &RateOptions) -> Limits {
+        Limits {
+            rates: r.within(),
+            ..self.clone()
         }
     }
 
@@ -229,6 +270,10 @@ pub fn recheck_cmd(
                 "leaf_boxes": r.leaves,
                 "counterexamples": r.counterexamples,
                 "verdict": r.verdict.name(),
+                "rate_limits": r.rates.as_ref().map(|(level, rates)| json!({
+                    "level": level,
+                    "rates": rates.iter().map(|(n, (lo, hi))| (n.clone(), json!([lo, hi]))).collect::<serde_json::Map<_, _>>(),
+                })),
             }),
             Err(e) => json!({
                 "certificate": cert_path.display().to_string(),
@@ -257,6 +302,16 @@ pub fn recheck_cmd(
                 r.verdict.name(),
                 if actuators.is_empty() { "none".to_string() } else { actuators.join(", ") }
             );
+            if let Some((level, rates)) = &r.rates {
+                let list: Vec<String> = rates
+                    .iter()
+                    .map(|(n, (lo, hi))| format!("{n} in [{lo}, {hi}]"))
+                    .collect();
+                println!(
+                    "guidance rates re-checked: every command within its limits wherever V <= {level} for {}",
+                    list.join(", ")
+                );
+            }
             ExitCode::SUCCESS
         }
         Err(e) => {

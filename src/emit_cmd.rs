@@ -70,10 +70,37 @@ pub fn emit_one(
         );
         return Err(EXIT_UNPROVEN);
     }
-    let controller = Controller::new(&loaded.spec).map_err(|e| {
+    let mut controller = Controller::new(&loaded.spec).map_err(|e| {
         eprintln!("error[emit]: {}: {e}", path.display());
         EXIT_INVALID
     })?;
+    // with --rates: the guidance filters limited to the proved rates
+    if let Some(r) = &report.rates {
+        let rates = match r {
+            Ok(r) if matches!(r.outcome, lawsmith_verify::RatesOutcome::Proven) => r,
+            Ok(_) => {
+                eprintln!(
+                    "error[rates]: {}: no guidance rates are proved (see `lawsmith check {} --rates`); no code is emitted with --rates",
+                    path.display(),
+                    path.display()
+                );
+                return Err(EXIT_UNPROVEN);
+            }
+            Err(why) => {
+                eprintln!("error[rates]: {}: {why}", path.display());
+                return Err(EXIT_UNPROVEN);
+            }
+        };
+        let limits: Vec<(String, (f64, f64))> = rates
+            .rates
+            .iter()
+            .map(|p| (p.name.clone(), p.proved))
+            .collect();
+        controller = controller.with_rate_limits(&limits).map_err(|e| {
+            eprintln!("error[rates]: {}: {e}", path.display());
+            EXIT_INVALID
+        })?;
+    }
     let prov = Provenance {
         spec_file: display_path(path),
         spec_sha256: sha256_hex(&loaded.bytes),

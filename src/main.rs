@@ -107,6 +107,8 @@ enum Command {
         #[arg(long, value_name = "PATH")]
         certificate: Option<PathBuf>,
         #[command(flatten)]
+        rates: check_cmd::RateOptions,
+        #[command(flatten)]
         limits: check_cmd::Limits,
     },
     /// Prove each spec and write its generated code (Rust, C99). An unproven law is refused
@@ -143,6 +145,9 @@ enum Command {
         /// Output format of the summary (and, with --check, of the differences).
         #[arg(long, value_enum, default_value_t = ReportFormat::Text)]
         format: ReportFormat,
+        /// With --rates: the guidance filters emitted with the proved rate limits.
+        #[command(flatten)]
+        rates: check_cmd::RateOptions,
         #[command(flatten)]
         limits: check_cmd::Limits,
     },
@@ -366,8 +371,14 @@ fn dispatch(command: Command) -> ExitCode {
             specs,
             format,
             certificate,
+            rates,
             limits,
-        } => check_cmd::check_cmd(&specs, format, certificate.as_deref(), &limits),
+        } => check_cmd::check_cmd(
+            &specs,
+            format,
+            certificate.as_deref(),
+            &limits.with_rates(&rates),
+        ),
         Command::Recheck {
             certificate,
             spec,
@@ -421,9 +432,10 @@ fn dispatch(command: Command) -> ExitCode {
             specs_dir,
             generated,
             format,
+            rates,
             limits,
         } => {
-            let settings = limits.settings();
+            let settings = limits.with_rates(&rates).settings();
             if check {
                 return emit_cmd::check_cmd(&specs_dir, &generated, &settings, format);
             }

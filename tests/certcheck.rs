@@ -22,6 +22,11 @@ fn scratch(name: &str) -> PathBuf {
 
 /// `lawsmith check SPEC --certificate …`: the certificate and the verdict's exit code.
 fn certify(spec: &Path) -> (Value, i32) {
+    certify_with(spec, &[])
+}
+
+/// [`certify`] with more options of `check`.
+fn certify_with(spec: &Path, options: &[&str]) -> (Value, i32) {
     let out = scratch(&format!(
         "{}.cert.json",
         spec.file_stem().unwrap().to_string_lossy()
@@ -32,6 +37,7 @@ fn certify(spec: &Path) -> (Value, i32) {
         .arg("--certificate")
         .arg(&out)
         .arg("--quiet")
+        .args(options)
         .output()
         .unwrap();
     let text = std::fs::read_to_string(&out).unwrap();
@@ -124,8 +130,13 @@ fn first_leaf(cert: &Value, goal: usize, evidence: &str) -> usize {
 
 /// Applies each edit to a fresh copy and asserts the checker rejects it with the reason.
 fn rejects(spec: &str, edits: Vec<(&str, &str, Edit)>) -> usize {
+    rejects_with(spec, &[], edits)
+}
+
+/// [`rejects`] for a certificate `check` writes with more options.
+fn rejects_with(spec: &str, options: &[&str], edits: Vec<(&str, &str, Edit)>) -> usize {
     let path = root().join(spec);
-    let (cert, _) = certify(&path);
+    let (cert, _) = certify_with(&path, options);
     let (c, text) = checker(&cert, &path, "unedited");
     assert_eq!(c, 0, "{spec}: {text}");
     for (what, reason, edit) in &edits {
@@ -508,6 +519,46 @@ fn edited_certificates_of_a_law_with_controller_states_are_rejected() {
 }
 
 #[test]
+fn certificates_of_guidance_rates_are_accepted_and_edited_ones_rejected() {
+    // the tracking loop proves |xdot_r| <= 2.5 on {V <= level} within |e| <= 0.5
+    let spec = "tests/data/rates/tracking_rate.yaml";
+    let options = ["--rates", "--within", "x=0.5"];
+    let (cert, code) = certify_with(&root().join(spec), &options);
+    assert_eq!(code, 0);
+    let (c, text) = checker(&cert, &root().join(spec), "rates");
+    assert_eq!(c, 0, "{text}");
+    assert!(
+        text.contains("guidance rates: xdot_r in [-2.5, 2.5]"),
+        "{text}"
+    );
+    let edits: Vec<(&str, &str, Edit)> = vec![
+        (
+            "a proved rate widened",
+            "is not the one its tree position gives",
+            Box::new(|c| c["rate_limits"]["rates"][0]["proved"] = json!([-2.5, 3.0])),
+        ),
+        (
+            "a face proof dropped",
+            "no proof that V >",
+            Box::new(|c| {
+                c["rate_limits"]["faces"].as_array_mut().unwrap().pop();
+            }),
+        ),
+        (
+            "the level raised above its face proofs",
+            "not a face of the box at the level",
+            Box::new(|c| c["rate_limits"]["level"] = json!(0.2)),
+        ),
+        (
+            "the stated bounds widened",
+            "not a face of the box at the level",
+            Box::new(|c| c["rate_limits"]["within"]["x"] = json!(0.6)),
+        ),
+    ];
+    assert_eq!(rejects_with(spec, &options, edits), 4);
+}
+
+#[test]
 fn unreadable_inputs_exit_3() {
     let spec = root().join("specs/pendulum_damping.yaml");
     let bad = scratch("not.json");
@@ -559,8 +610,9 @@ fn the_checker_imports_nothing_from_the_project() {
         assert!(!text.contains("lawsmith_"), "{}", p.display());
     }
     println!("tools/certcheck: {lines} lines");
-    // aim: small enough to read (under 1,500 lines before controller states, which added 90)
-    assert!(lines < 1600, "{lines} lines");
+    // aim: small enough to read (under 1,500 lines before controller states and guidance
+    // rates, which added 185)
+    assert!(lines < 1700, "{lines} lines");
     // the size the checker's README and the project's README state is the size it has
     for doc in ["tools/certcheck/README.md", "README.md"] {
         let text = std::fs::read_to_string(root().join(doc)).unwrap();

@@ -621,3 +621,48 @@ fn an_interrupted_build_leaves_generated_as_it_was() {
     }
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+#[test]
+fn the_descent_flown_with_proved_rates_uses_rates_check_proves() {
+    // specs/scenarios/descent_proved_rates.yaml limits its guidance filters to the rates
+    // `check --rates --within h=0.1,va=0.04` proves for its spec: each scenario limit must lie
+    // within what is proved now, so the scenario stays honest when the law changes
+    let out = lawsmith(&[
+        "check",
+        "specs/energy_longitudinal.yaml",
+        "--rates",
+        "--within",
+        "h=0.1,va=0.04",
+        "--format",
+        "json",
+    ]);
+    assert_eq!(out.status.code(), Some(0));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let r = &v["rate_limits"];
+    assert_eq!(r["outcome"], "proven");
+    let scenario =
+        std::fs::read_to_string(root().join("specs/scenarios/descent_proved_rates.yaml")).unwrap();
+    for (reference, rate) in [("h_r", "hdot_r"), ("va_r", "vadot_r")] {
+        let line = scenario
+            .lines()
+            .find(|l| l.trim_start().starts_with(&format!("{reference}:")))
+            .unwrap();
+        let inner = line.split('[').nth(1).unwrap().split(']').next().unwrap();
+        let ends: Vec<f64> = inner
+            .split(',')
+            .map(|x| x.trim().parse().unwrap())
+            .collect();
+        let proved = r["rates"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|p| p["name"] == rate)
+            .unwrap()["proved"]
+            .clone();
+        let (lo, hi) = (proved[0].as_f64().unwrap(), proved[1].as_f64().unwrap());
+        assert!(
+            ends[0] >= lo && ends[1] <= hi,
+            "{reference}: scenario {ends:?}, proved [{lo}, {hi}]"
+        );
+    }
+}

@@ -4,7 +4,7 @@
 // spec SHA-256: 49848b3dc15eddbb5efcf3865e94efa63d17d72be17af1fcb70b6d8b89860f9b
 // lawsmith version: 0.1.0
 // proof: PROVEN (negative_definite_in(h, va)) over the declared envelope by `lawsmith check`.
-// proof evidence: 4061 boxes of branch and bound; certificate SHA-256: 26129188da2cbe3f649c4ef50e6918d2c4b0718a00d36c221d1b5743cb2ad5cc
+// proof evidence: 4061 boxes of branch and bound; certificate SHA-256: fe6363a4f22a26137125e4d136d4fd476b79baa4ce8f5c114a4d9de82eac10ae
 // (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
 // saturation over the envelope (the proof assumes the unsaturated law): pitch_cmd saturates, thrust_cmd saturates
 //

@@ -5,7 +5,7 @@
  * spec SHA-256: 82e52fa887e4f5fbe595c73ab4de6a3daa6da922e50ccc88880480a7b8c657a7
  * lawsmith version: 0.1.0
  * proof: PROVEN (negative_definite_in(h, va)) over the declared envelope by `lawsmith check`.
- * proof evidence: 3945 boxes of branch and bound; certificate SHA-256: 9ad6ad5e915deb1044069733b5fcf339f3361289a8f77944a33ddea519c6ab50
+ * proof evidence: 3945 boxes of branch and bound; certificate SHA-256: 28c91802ef9ed00cc73efb53f66dd24ccd4b52883ed25f8fda40525aedb01e40
  * (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
  * saturation over the envelope (the proof assumes the unsaturated law): pitch_cmd saturates, thrust_cmd saturates
  *

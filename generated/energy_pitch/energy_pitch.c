@@ -5,7 +5,7 @@
  * spec SHA-256: 42cd1e7bfbb460ab31463ca9b54148b1bcd74fd9bfd483751ca4f8d78fd77800
  * lawsmith version: 0.1.0
  * proof: PROVEN (negative_definite) over the declared envelope by `lawsmith check`.
- * proof evidence: 1033 boxes of branch and bound; certificate SHA-256: 471b8b56a9413a037b7f9e5bd66aec74f6e0c2f1337ec25414d73e0031bf5cb9
+ * proof evidence: 1033 boxes of branch and bound; certificate SHA-256: bcf74fb4854e7afcaaf70ad512625685f8fd81b425dd882579ce7b6a70fd3bfd
  * (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
  * saturation over the envelope (the proof assumes the unsaturated law): pitch_cmd saturates, thrust_cmd saturates
  *

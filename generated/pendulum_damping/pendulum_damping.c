@@ -5,7 +5,7 @@
  * spec SHA-256: c3aab3edd1b1160400e102a06721b2cc9249e32df348c7a0f6efbc8c9b3b50b9
  * lawsmith version: 0.1.0
  * proof: PROVEN (negative_semidefinite) over the declared envelope by `lawsmith check`.
- * proof evidence: 3 boxes of branch and bound; certificate SHA-256: 58c8304d20cfd5a3abcc6140f1fcaee03e1a5dff8562d246b6d5444902565596
+ * proof evidence: 3 boxes of branch and bound; certificate SHA-256: df314a94a763e3c0ae161bc43a48ae94e90670ef4b499c0901bb7cf2b010c7ff
  * (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
  * saturation over the envelope (the proof assumes the unsaturated law): torque_cmd saturation-free
  *

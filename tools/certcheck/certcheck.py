@@ -5,7 +5,7 @@
 
 Exit 0: accepted; 1: rejected, with the reason; 3: an input cannot be read. It shares no code
 with lawsmith: it reads the spec itself, derives what it needs with SymPy and re-evaluates
-every leaf with its own interval arithmetic. The rules it checks, R1 to R10, are in README.md
+every leaf with its own interval arithmetic. The rules it checks, R1 to R11, are in README.md
 beside this file; each function below names the rule it implements.
 """
 
@@ -341,6 +341,7 @@ class Check:
         except (model.SpecError, formula.FormulaError, KeyError, TypeError) as e:
             raise Unreadable(f"the spec cannot be read: {e}") from e
         self.role, self.leaves, self.jobs, self.below, self.limits = {}, 0, 1, None, []
+        self.proved_rates = None
 
     # R2 ---------------------------------------------------------------------------------
     def domain(self):
@@ -553,10 +554,20 @@ class Check:
                 return f"no constraint {i}"
             gexp, strict = self.m.constraints[i]
             try:
-                c = iv.Compiled([gexp], g.dims)(bx)[0]
+                f = iv.Compiled([gexp], g.dims)
             except iv.Undefined:
                 return f"constraint {i} cannot be evaluated on the box"
-            if not (c[0] >= 0.0 if strict else c[0] > 0.0):
+
+            def fails(box, depth):
+                # the constraint fails on the box, or on each half (halved at most `depth` times)
+                try:
+                    c = f(box)[0]
+                    if c[0] >= 0.0 if strict else c[0] > 0.0:
+                        return True
+                except iv.Undefined:
+                    pass
+                return depth > 0 and all(fails(h, depth - 1) for h in self.halves(g, box))
+            if not fails(bx, SPLIT_DEPTH):
                 return f"constraint {i} does not fail everywhere on the box"
             return None
         if "below_level" in leaf:
@@ -654,6 +665,84 @@ class Check:
                 raise Reject(f"{g.at}: the proved bound {stated[s]} on `{s}` exceeds the "
                              f"spec's required {float(need)}")
         return level
+
+    # R11 --------------------------------------------------------------------------------
+    def rates(self, verdict):
+        """The proved guidance rates: V > level on every face of the error box cut to the
+        stated bounds, and each command within its limits wherever V <= level over those
+        bounds and the proved rates. Returns the rates as text (None without them)."""
+        r = self.cert.get("rate_limits")
+        if r is None:
+            return None
+        at = "guidance rates"
+        if verdict != "proven" or self.kind == "ultimate_bound":
+            raise Reject(f"{at}: they rest on a proven claim with V-dot <= 0")
+        within = {s: num(b) for s, b in r["within"].items()}
+        if any(s not in self.m.states or not 0.0 < b < math.inf for s, b in within.items()):
+            raise Reject(f"{at}: the bounds are not positive bounds on states")
+        level = num(r["level"])
+        if not 0.0 < level < math.inf:
+            raise Reject(f"{at}: malformed level")
+        cand = r["candidate"]
+        vg = Goal(expr_of(cand["expr"]), cand["dims"], self)
+        if not same(vg.expr, self.V):
+            raise Reject(f"{at}: the candidate is not V")
+
+        def cut(n, rates):
+            lo, hi = self.box[n]
+            if self.role.get(n) == "error" and n[1:] in within:
+                lo, hi = max(lo, -within[n[1:]]), min(hi, within[n[1:]])
+            return rates.get(n, (lo, hi))
+        root = [cut(n, {}) for n in vg.dims]
+        faces = set()
+        for i, p in enumerate(r["faces"]):
+            name, frm, lv = p["coordinate"], num(p["from"]), num(p["level"])
+            if name not in vg.dims or self.role.get(name) not in ERROR_ROLES:
+                raise Reject(f"{at}, face proof {i + 1}: `{name}` is not an error of V")
+            k = vg.dims.index(name)
+            if p["side"] != "face" or lv < level or frm not in root[k]:
+                raise Reject(f"{at}, face proof {i + 1}: not a face of the box at the level")
+            box = list(root)
+            box[k] = (frm, frm)
+            self.tree(p, vg, box, ("within", math.nextafter(lv, math.inf), math.inf),
+                      f"{at}, face proof {i + 1}")
+            faces.add((name, frm))
+        for k, n in enumerate(vg.dims):
+            if self.role.get(n) in ERROR_ROLES:
+                for end in root[k]:
+                    if end != 0.0 and (n, end) not in faces:
+                        raise Reject(f"{at}: no proof that V > {level} on the face {n} = {end}")
+        # the proved rates, each within its declared range, in the domain's order
+        names = [n for n, role, _, _ in self.m.coords if role == "rate"]
+        listed = r["rates"]
+        if [x["name"] for x in listed] != names:
+            raise Reject(f"{at}: the rates are not the spec's")
+        proved = {}
+        for x in listed:
+            lo, hi = interval(x["proved"])
+            if Fraction(lo) < self.declared[x["name"]][0] or Fraction(hi) > self.declared[x["name"]][1]:
+                raise Reject(f"{at}: `{x['name']}` is proved beyond its declared range")
+            proved[x["name"]] = (lo, hi)
+        # each command within its limits wherever V <= level: that constraint after the others
+        if r["sublevel_constraint"] != len(self.m.constraints):
+            raise Reject(f"{at}: the sublevel constraint is not after the spec's")
+        self.m.constraints.append((sp.expand(self.V - model.R(Fraction(level))), False))
+        try:
+            acts = r["actuators"]
+            if [a.get("actuator") for a in acts] != list(self.m.actuators):
+                raise Reject(f"{at}: the actuators are not the spec's, in its order")
+            for aj in acts:
+                e, lo, hi = self.m.actuators[aj["actuator"]]
+                g = self.goal(aj, f"{at}, actuator `{aj['actuator']}`", "rates")
+                t = g.test
+                if t[0] != "within" or g.origin or not (model.R(t[1]) >= lo and model.R(t[2]) <= hi):
+                    raise Reject(f"{g.at}: its test is not within the declared limits")
+                if not same(g.expr, self.m.to_proof(e)) or g.status != "proven":
+                    raise Reject(f"{g.at}: not a proof of the spec's command")
+                self.tree(aj, g, [cut(n, proved) for n in g.dims], t, g.at)
+        finally:
+            self.m.constraints.pop()
+        return ", ".join(f"{n} in [{lo!r}, {hi!r}]" for n, (lo, hi) in proved.items())
 
     # R8 ---------------------------------------------------------------------------------
     def declared_point(self, dims, pt):
@@ -771,6 +860,7 @@ class Check:
                 kind, u, source = missing[0]
                 raise Reject(f"no proven goal shows the {kind} condition on {u} ({source})")
         self.limits = self.actuators()
+        self.proved_rates = self.rates(implied)
         return implied
 
 
@@ -810,7 +900,8 @@ def main(argv=None):
         print(f"rejected: malformed certificate ({type(e).__name__}: {e})")
         return 1
     print(f"accepted: {verdict} ({len(c.compiled)} goals, {c.leaves} leaves re-evaluated; "
-          f"actuators: {', '.join(c.limits) or 'none'})")
+          f"actuators: {', '.join(c.limits) or 'none'}"
+          + (f"; guidance rates: {c.proved_rates}" if c.proved_rates else "") + ")")
     return 0
 
 

@@ -476,6 +476,31 @@ impl Controller {
         Ok(c)
     }
 
+    /// The controller with each guidance filter's rate limits cut to `limits` (rate name →
+    /// range, e.g. the proved guidance rates): the filter's limits become their intersection.
+    /// A filter left no room to move (a limit of zero where it had one) is an error.
+    pub fn with_rate_limits(
+        &self,
+        limits: &[(String, (f64, f64))],
+    ) -> Result<Controller, EmitError> {
+        let mut c = self.clone();
+        for f in &mut c.filters {
+            let Some((_, (lo, hi))) = limits.iter().find(|(n, _)| *n == f.rate) else {
+                continue;
+            };
+            let (lo, hi) = (f.rate_limit.0.max(*lo), f.rate_limit.1.min(*hi));
+            if !(lo < 0.0 && hi > 0.0) {
+                return Err(EmitError(format!(
+                    "the rate limits [{lo}, {hi}] left to the filter of `{}` do not hold zero inside: it could not move its reference both ways",
+                    c.references[f.reference].name
+                )));
+            }
+            f.rate_limit = (lo, hi);
+            f.program = filter_program(lo, hi);
+        }
+        Ok(c)
+    }
+
     /// Inputs of `step`, in order: states, references, rates, signals.
     pub fn input_names(&self) -> Vec<String> {
         let mut v: Vec<String> = self.states.iter().map(|s| s.name.clone()).collect();

@@ -93,7 +93,26 @@ impl std::fmt::Display for SetupError {
 impl Setup {
     /// Prepares a scenario flying the law of `spec` on the demo airframe.
     pub fn new(scenario: Scenario, spec: &lawsmith_spec::Spec) -> Result<Setup, SetupError> {
-        let law = Controller::new(spec).map_err(|e| SetupError::Unsupported(e.0))?;
+        let mut law = Controller::new(spec).map_err(|e| SetupError::Unsupported(e.0))?;
+        // the guidance filters' rate limits the scenario sets
+        let mut limits = Vec::new();
+        for (reference, [lo, hi]) in &scenario.rate_limits {
+            let f = law
+                .filters
+                .iter()
+                .find(|f| &law.references[f.reference].name == reference)
+                .ok_or_else(|| {
+                    SetupError::Invalid(format!(
+                        "the scenario limits the rate of `{reference}`, which no guidance filter of the spec produces"
+                    ))
+                })?;
+            limits.push((f.rate.clone(), (*lo, *hi)));
+        }
+        if !limits.is_empty() {
+            law = law
+                .with_rate_limits(&limits)
+                .map_err(|e| SetupError::Invalid(e.0))?;
+        }
         let mut gains: Vec<f64> = law.gains.iter().map(|g| g.default).collect();
         for (name, v) in &scenario.gains {
             let i = law

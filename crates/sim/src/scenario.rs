@@ -387,6 +387,10 @@ pub struct Scenario {
     /// Energy-law gains (defaults: the spec's).
     #[serde(default)]
     pub gains: BTreeMap<String, f64>,
+    /// Rate limits of the guidance filters by reference, `[lo, hi]`, cut into the spec's
+    /// (e.g. the rates `check --rates` proves keep every command within its limits).
+    #[serde(default)]
+    pub rate_limits: BTreeMap<String, [f64; 2]>,
     /// Monte Carlo dispersions.
     #[serde(default)]
     pub dispersions: Dispersions,

@@ -647,6 +647,30 @@ fn attraction(
     }
 }
 
+/// The largest level with V > level on every face of `root`'s error coordinates (bisection,
+/// each step a proof), its face proofs, and the boxes spent: the connected part of
+/// {V ≤ level} around zero error lies inside `root`.
+pub(crate) fn level_inside(
+    sub: &Compiled,
+    root: &[Interval],
+    settings: &Settings,
+) -> (f64, Vec<SublevelProof>, usize) {
+    let mut run = Run {
+        settings,
+        tol: &settings.bound,
+        progress: &|_, _, _| {},
+        boxes: 0,
+    };
+    let errors: Vec<(usize, String, String)> = sub
+        .errors
+        .iter()
+        .map(|&k| (k, String::new(), String::new()))
+        .collect();
+    let mut proofs = Vec::new();
+    let a = attraction(&mut run, sub, root, &errors, &mut proofs);
+    (a, proofs, run.boxes)
+}
+
 /// The smallest `b` with V > level wherever the error is beyond `b` on one side: bisection,
 /// keeping the proof at the final `b`. None when even the face is not proved.
 fn extent(

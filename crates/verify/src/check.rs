@@ -7,6 +7,7 @@ use crate::interval::Interval;
 use crate::plan::Strategy;
 use crate::prepare::{prepare, Prepared};
 use crate::problem::Variable;
+use crate::rates::{rate_limits, RateLimits};
 use crate::sample::{falsify, Sampled, Sequence};
 use crate::search::{search, Counter, Outcome, Report};
 use crate::settings::Settings;
@@ -199,6 +200,9 @@ pub struct CheckReport {
     /// What a proven claim implies, in plain words, with its assumptions and what it does not
     /// imply (for a law with controller states); empty otherwise.
     pub follows: Vec<String>,
+    /// When asked (`Settings::rates`): the guidance rates that keep every actuator within its
+    /// limits, or why they were not sought.
+    pub rates: Option<Result<RateLimits, String>>,
 }
 
 /// A check that could not run (the spec is unusable for a proof).
@@ -245,7 +249,7 @@ pub fn check(
 ) -> Result<(CheckReport, Prepared), CheckError> {
     let start = Instant::now();
     spec.dag.set_limits(settings.dag.clone());
-    let prepared = prepare(spec)?;
+    let mut prepared = prepare(spec)?;
     let mut results = Vec::new();
     let mut failed = false;
     let mut boxes = 0;
@@ -365,6 +369,43 @@ pub fn check(
         .filter_map(|a| a.search.as_ref())
         .map(|s| s.boxes)
         .sum::<usize>();
+    let rates = settings.rates.as_ref().map(|within| {
+        if verdict != Verdict::Proven {
+            return Err(format!(
+                "not sought: the claim is {}, and the set no trajectory leaves rests on it",
+                verdict.name()
+            ));
+        }
+        if matches!(prepared.strategy, Strategy::Level { .. }) {
+            return Err(
+                "not sought for an ultimate-bound claim: V decreases only above its level".into(),
+            );
+        }
+        let mut r = rate_limits(&mut prepared, within, settings).map_err(|e| e.message)?;
+        if matches!(r.outcome, crate::rates::RatesOutcome::Proven) {
+            // a guidance filter that lets its rate beyond the proved range
+            for g in &spec.guidance {
+                let rate = spec.symbol(&g.reference).and_then(|s| match &s.decl {
+                    lawsmith_spec::Decl::Reference { rate, .. } => Some(rate.clone()),
+                    _ => None,
+                });
+                let Some(p) = rate.and_then(|q| r.rates.iter().find(|p| p.name == q)) else {
+                    continue;
+                };
+                let (lo, hi) = g.rate_limit;
+                if lo < p.proved.0 || hi > p.proved.1 {
+                    r.warnings.push(format!(
+                        "the guidance filter of `{}` limits its rate `{}` to [{lo}, {hi}], beyond the proved [{}, {}]",
+                        g.reference,
+                        p.name,
+                        crate::report::sig(p.proved.0),
+                        crate::report::sig(p.proved.1)
+                    ));
+                }
+            }
+        }
+        Ok(r)
+    });
     let report = CheckReport {
         name: spec.name.clone(),
         claim: spec.claim.clone(),
@@ -390,6 +431,7 @@ pub fn check(
         } else {
             Vec::new()
         },
+        rates,
     };
     Ok((report, prepared))
 }

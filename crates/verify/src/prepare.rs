@@ -335,6 +335,12 @@ impl Prepared {
         self.counterexample_of(&self.actuators[k].compiled, None, cx)
     }
 
+    /// A counterexample of an actuator's goal compiled elsewhere (over a sublevel set), in
+    /// every symbol.
+    pub(crate) fn counterexample_of_goal(&self, c: &Compiled, cx: &Counter) -> Counterexample {
+        self.counterexample_of(c, None, cx)
+    }
+
     /// A counterexample of a compiled goal of this kind (None: an actuator's limits).
     fn counterexample_of(
         &self,

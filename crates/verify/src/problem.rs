@@ -106,7 +106,7 @@ pub struct ProofConstraint {
 }
 
 /// The envelope and the expressions of one spec in proof coordinates.
-#[derive(Debug)]
+#[derive(Clone, Debug)]
 pub struct Problem {
     /// The expression arena (a copy of the spec's, grown by the rewriting).
     pub dag: Dag,

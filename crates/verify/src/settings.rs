@@ -21,6 +21,10 @@ pub struct Settings {
     /// (a proof, or a point where it leaves them); `margin` turns it off, since it asks only
     /// for bounds.
     pub actuators: bool,
+    /// Find the guidance rates that keep every actuator within its limits on the sublevel set
+    /// of V within these error bounds (state, bound; the error box for a state not named):
+    /// `check --rates [--within …]`. None: not asked.
+    pub rates: Option<Vec<(String, f64)>>,
 }
 
 impl Default for Settings {
@@ -33,6 +37,7 @@ impl Default for Settings {
             bound: BoundSettings::default(),
             dag: DagLimits::default(),
             actuators: true,
+            rates: None,
         }
     }
 }

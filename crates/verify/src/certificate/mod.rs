@@ -133,18 +133,10 @@ fn bound_json(b: &BoundReport, prepared: &Prepared) -> (Value, usize) {
     let proofs: Vec<Value> = b
         .sublevel
         .iter()
-        .map(|p| {
-            let mut o = Map::new();
-            let name = sub.map_or("?", |g| g.names[p.coordinate].as_str());
-            o.insert("coordinate".into(), json!(name));
-            o.insert("side".into(), json!(p.side.name()));
-            o.insert("from".into(), num(p.from));
-            o.insert("level".into(), num(p.level));
-            o.insert("boxes".into(), json!(p.report.boxes));
-            if let Some(t) = &p.report.tree {
-                leaves += tree_json(&mut o, t);
-            }
-            Value::Object(o)
+        .filter_map(|p| {
+            let (v, n) = sublevel_json(p, sub?);
+            leaves += n;
+            Some(v)
         })
         .collect();
     let v = json!({
@@ -268,6 +260,15 @@ pub fn certificate(report: &CheckReport, prepared: &Prepared, origin: &Origin) -
         leaves_total += goal_json(&mut o, &ag.compiled, &s.status, s.search.as_ref());
         actuators.push(Value::Object(o));
     }
+    // the guidance rates that keep every command within its limits, when asked and proved
+    let rates = match &report.rates {
+        Some(Ok(r)) if matches!(r.outcome, crate::rates::RatesOutcome::Proven) => {
+            let (v, n) = rates_json(r);
+            leaves_total += n;
+            v
+        }
+        _ => Value::Null,
+    };
     json!({
         "certificate": "lawsmith proof certificate",
         "version": CERTIFICATE_VERSION,
@@ -284,7 +285,60 @@ pub fn certificate(report: &CheckReport, prepared: &Prepared, origin: &Origin) -
         "min_margin": report.min_margin.map(num),
         "goals": goals,
         "actuators": actuators,
+        "rate_limits": rates,
     })
+}
+
+/// A sublevel proof (`V > level` on part of the domain) as the certificate writes it; returns
+/// its leaves.
+fn sublevel_json(p: &crate::bound::SublevelProof, sub: &Compiled) -> (Value, usize) {
+    let mut o = Map::new();
+    o.insert("coordinate".into(), json!(sub.names[p.coordinate]));
+    o.insert("side".into(), json!(p.side.name()));
+    o.insert("from".into(), num(p.from));
+    o.insert("level".into(), num(p.level));
+    o.insert("boxes".into(), json!(p.report.boxes));
+    let n = p.report.tree.as_ref().map_or(0, |t| tree_json(&mut o, t));
+    (Value::Object(o), n)
+}
+
+/// The proved guidance rates: the error bounds, the level with its face proofs, each rate's
+/// declared and proved range, and each actuator's proof over the proved rates wherever
+/// V ≤ level (the level is the constraint at `sublevel_constraint`). Returns the leaves.
+fn rates_json(r: &crate::rates::RateLimits) -> (Value, usize) {
+    let mut leaves = 0;
+    let faces: Vec<Value> = r
+        .faces
+        .iter()
+        .map(|p| {
+            let (v, n) = sublevel_json(p, &r.sub);
+            leaves += n;
+            v
+        })
+        .collect();
+    let actuators: Vec<Value> = r
+        .actuators
+        .iter()
+        .map(|(name, g, rep)| {
+            let mut o = Map::new();
+            o.insert("actuator".into(), json!(name));
+            leaves += goal_json(&mut o, g, &Status::Proven, Some(rep));
+            Value::Object(o)
+        })
+        .collect();
+    let v = json!({
+        "within": r.within.iter().map(|(s, b)| (s.clone(), num(*b))).collect::<Map<String, Value>>(),
+        "level": num(r.level),
+        "candidate": {"expr": r.sub.text, "dims": r.sub.names},
+        "faces": faces,
+        "rates": r.rates.iter().map(|p| json!({
+            "name": p.name, "declared": [num(p.declared.0), num(p.declared.1)],
+            "proved": [num(p.proved.0), num(p.proved.1)],
+        })).collect::<Vec<_>>(),
+        "sublevel_constraint": r.sublevel_constraint,
+        "actuators": actuators,
+    });
+    (v, leaves)
 }
 
 /// An actuator's declared limits as exact decimals.

@@ -17,7 +17,13 @@ pub struct Rechecked {
     /// Each actuator's command against its limits as re-checked: `saturation-free` (its
     /// proof re-evaluated), `saturates` (its point re-confirmed), `undecided`, `not checked`.
     pub actuators: Vec<(String, &'static str)>,
+    /// The proved guidance rates, when the certificate has them: the level and each rate's
+    /// proved range.
+    pub rates: Option<ProvedRates>,
 }
+
+/// Proved guidance rates as re-checked: the level, and each rate's name and proved range.
+pub type ProvedRates = (f64, Vec<(String, (f64, f64))>);
 
 /// Why a certificate was rejected.
 #[derive(Clone, Debug, PartialEq, Eq)]
@@ -106,6 +112,7 @@ pub fn recheck(
         leaves: 0,
         counterexamples: 0,
         actuators: Vec::new(),
+        rates: None,
     };
     let mut statuses = Vec::new();
     for (gi, (gj, pg)) in goals.iter().zip(&prepared.goals).enumerate() {
@@ -149,6 +156,7 @@ pub fn recheck(
         let status = statement(aj, c, &at)?;
         let mut tally = Rechecked {
             actuators: Vec::new(),
+            rates: None,
             ..out
         };
         let root = prepared.actuator_root(k);
@@ -186,7 +194,156 @@ pub fn recheck(
         ));
     }
     out.verdict = implied;
+    if let Some(r) = cert.get("rate_limits").filter(|v| !v.is_null()) {
+        if implied != Verdict::Proven {
+            return reject("guidance rates rest on a proven claim; this one is not proven");
+        }
+        let (rates, leaves) = recheck_rates(r, prepared)?;
+        out.leaves += leaves;
+        out.rates = Some(rates);
+    }
     Ok(out)
+}
+
+/// Re-checks the proved guidance rates: the level's face proofs (V > level on every face of
+/// the error box cut to the stated bounds), and each actuator's proof within its limits
+/// wherever V ≤ level, over those bounds and the proved rates. Returns the level and the
+/// rates, and the leaves re-evaluated.
+fn recheck_rates(r: &Value, prepared: &Prepared) -> Result<(ProvedRates, usize), Rejection> {
+    let at = "guidance rates";
+    let bad = |what: &str| Rejection(format!("{at}: malformed ({what})"));
+    if matches!(prepared.strategy, crate::plan::Strategy::Level { .. }) {
+        return reject(format!("{at}: not for an ultimate-bound claim"));
+    }
+    let within: Vec<(String, f64)> = field(r, "within", at)?
+        .as_object()
+        .ok_or_else(|| bad("within"))?
+        .iter()
+        .map(|(k, v)| Some((k.clone(), parse_num(v)?)))
+        .collect::<Option<_>>()
+        .ok_or_else(|| bad("within"))?;
+    for (s, b) in &within {
+        let is_state = prepared
+            .problem
+            .variables
+            .iter()
+            .any(|v| v.role == crate::problem::Role::Error && &v.symbol == s);
+        if !(is_state && *b > 0.0 && b.is_finite()) {
+            return Err(bad("within"));
+        }
+    }
+    let level = field(r, "level", at)
+        .ok()
+        .and_then(parse_num)
+        .filter(|l| *l > 0.0 && l.is_finite())
+        .ok_or_else(|| bad("level"))?;
+    let mut problem = prepared.problem.clone();
+    let sub = crate::rates::sublevel_goal_on(&mut problem, prepared.forms.candidate)
+        .map_err(|e| Rejection(e.message))?;
+    let cand = field(r, "candidate", at)?;
+    if cand.get("expr").and_then(Value::as_str) != Some(sub.text.as_str())
+        || cand.get("dims") != Some(&json!(sub.names))
+    {
+        return reject(format!("{at}: the candidate is not the spec's V"));
+    }
+    let root = crate::rates::root_within(prepared, &sub.dims, &within, &[]);
+    let mut leaves = 0;
+    let mut faces: Vec<(usize, f64)> = Vec::new();
+    for (i, p) in field(r, "faces", at)?
+        .as_array()
+        .ok_or_else(|| bad("faces"))?
+        .iter()
+        .enumerate()
+    {
+        let name = p.get("coordinate").and_then(Value::as_str).unwrap_or("");
+        let k = sub
+            .names
+            .iter()
+            .position(|n| n == name)
+            .filter(|k| sub.errors.contains(k))
+            .ok_or_else(|| bad("coordinate"))?;
+        let from = p
+            .get("from")
+            .and_then(parse_num)
+            .ok_or_else(|| bad("from"))?;
+        let lv = p
+            .get("level")
+            .and_then(parse_num)
+            .ok_or_else(|| bad("level"))?;
+        if p.get("side").and_then(Value::as_str) != Some("face") || lv < level {
+            return Err(bad("face"));
+        }
+        if from != root[k].lo() && from != root[k].hi() {
+            return Err(bad("from"));
+        }
+        let g = above(&sub, lv);
+        let rr = sublevel_root(&root, k, Side::Face, from);
+        leaves += recheck_tree(p, &g, rr, &format!("{at}, face proof {}", i + 1))?;
+        faces.push((k, from));
+    }
+    for &k in &sub.errors {
+        for end in [root[k].lo(), root[k].hi()] {
+            if end != 0.0 && !faces.contains(&(k, end)) {
+                return reject(format!(
+                    "{at}: no proof that V > {level} on the face {} = {end}",
+                    sub.names[k]
+                ));
+            }
+        }
+    }
+    // the proved rates, each within its declared range
+    let declared: Vec<(usize, &crate::problem::Variable)> = prepared
+        .problem
+        .variables
+        .iter()
+        .enumerate()
+        .filter(|(_, v)| v.role == crate::problem::Role::Rate)
+        .collect();
+    let listed = field(r, "rates", at)?
+        .as_array()
+        .ok_or_else(|| bad("rates"))?;
+    if listed.len() != declared.len() {
+        return Err(bad("rates"));
+    }
+    let mut rates = Vec::new();
+    let mut boxes = Vec::new();
+    for (rj, (i, v)) in listed.iter().zip(&declared) {
+        let proved = rj
+            .get("proved")
+            .and_then(parse_pair)
+            .ok_or_else(|| bad("rates"))?;
+        if rj.get("name").and_then(Value::as_str) != Some(v.name.as_str())
+            || proved.lo() < v.lo
+            || proved.hi() > v.hi
+        {
+            return Err(bad("rates"));
+        }
+        rates.push((v.name.clone(), (proved.lo(), proved.hi())));
+        boxes.push((*i, (proved.lo(), proved.hi())));
+    }
+    let (goals, index) =
+        crate::rates::actuator_goals(prepared, level).map_err(|e| Rejection(e.message))?;
+    if field(r, "sublevel_constraint", at)?.as_u64() != Some(index as u64) {
+        return Err(bad("sublevel_constraint"));
+    }
+    let acts = field(r, "actuators", at)?
+        .as_array()
+        .ok_or_else(|| bad("actuators"))?;
+    if acts.len() != goals.len() {
+        return reject(format!("{at}: not every actuator is proved"));
+    }
+    for ((aj, g), ag) in acts.iter().zip(&goals).zip(&prepared.actuators) {
+        let at = format!("{at}, actuator `{}`", ag.actuator);
+        if aj.get("actuator").and_then(Value::as_str) != Some(ag.actuator.as_str()) {
+            return reject(format!("{at}: the certificate names another actuator here"));
+        }
+        if statement(aj, g, &at)? != "proven" {
+            return reject(format!("{at}: not proven"));
+        }
+        let rr = crate::rates::root_within(prepared, &g.dims, &within, &boxes);
+        leaves += recheck_tree(aj, g, rr, &at)?;
+    }
+    Ok(((level, rates), leaves))
 }
 
 /// A goal's statement in the certificate must be the spec's: its expression, test and

@@ -15,7 +15,12 @@ fn plain(x: f64) -> String {
 }
 
 /// A number with 4 significant digits, in plain or scientific notation as fits.
-fn sig(x: f64) -> String {
+/// A number with four significant digits, as the reports print them.
+pub fn short(x: f64) -> String {
+    sig(x)
+}
+
+pub(crate) fn sig(x: f64) -> String {
     if x == 0.0 || !x.is_finite() {
         // negative zero (a margin of −0·…) reads as 0
         return plain(x);
@@ -269,6 +274,9 @@ pub fn text(r: &CheckReport, path: &str, timings: bool) -> String {
             }
         }
     }
+    if let Some(rates) = &r.rates {
+        rates_text(&mut s, rates);
+    }
     if let Some(cx) = &r.counterexample {
         let _ = writeln!(s, "\ncounterexample: `{}` fails at", cx.goal);
         for (n, v) in &cx.point {
@@ -356,6 +364,21 @@ pub fn proof_figures(r: &CheckReport, certificate_sha256: &str) -> Vec<String> {
             "saturation over the envelope (the proof assumes the unsaturated law): {}",
             each.join(", ")
         ));
+    }
+    if let Some(Ok(rates)) = &r.rates {
+        if matches!(rates.outcome, crate::rates::RatesOutcome::Proven) {
+            let each: Vec<String> = rates
+                .rates
+                .iter()
+                .map(|p| format!("{} in [{}, {}]", p.name, sig(p.proved.0), sig(p.proved.1)))
+                .collect();
+            v.push(format!(
+                "guidance rates proved to keep every command within its limits wherever V <= {} (within {}): {}",
+                sig(rates.level),
+                within_text(rates),
+                each.join(", ")
+            ));
+        }
     }
     v
 }
@@ -562,8 +585,120 @@ pub fn json(r: &CheckReport, path: &str) -> Value {
         "boxes": r.boxes,
         "min_margin": r.min_margin,
         "follows": r.follows,
+        "rate_limits": r.rates.as_ref().map(rates_json),
         "seconds": r.seconds,
         "goals": goals,
         "ultimate_bound": r.bound.as_ref().map(bound_json),
+    })
+}
+
+/// The within bounds in words (ASCII: they go into generated headers): `|h error| <= 0.5,
+/// |va error| <= 0.25`, or the error box.
+fn within_text(r: &crate::rates::RateLimits) -> String {
+    if r.within.is_empty() {
+        return "the error box".into();
+    }
+    r.within
+        .iter()
+        .map(|(st, b)| format!("|{st} error| <= {}", sig(*b)))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// The guidance rates that keep every command within its limits, as text.
+fn rates_text(s: &mut String, rates: &Result<crate::rates::RateLimits, String>) {
+    use crate::rates::RatesOutcome;
+    let r = match rates {
+        Ok(r) => r,
+        Err(why) => {
+            let _ = writeln!(s, "\nguidance rates: {why}");
+            return;
+        }
+    };
+    let _ = writeln!(
+        s,
+        "\nguidance rates (each command within its limits wherever V <= {}, a set within {} that \
+         no trajectory leaves):",
+        sig(r.level),
+        within_text(r)
+    );
+    match &r.outcome {
+        RatesOutcome::Proven => {
+            let width = r.rates.iter().map(|p| p.name.len()).max().unwrap_or(1);
+            for p in &r.rates {
+                let proved = format!("[{}, {}]", sig(p.proved.0), sig(p.proved.1));
+                let _ = writeln!(
+                    s,
+                    "  {:<width$}  proved {:<20} declared [{}, {}] {}",
+                    p.name,
+                    proved,
+                    sig(p.declared.0),
+                    sig(p.declared.1),
+                    p.unit
+                );
+            }
+            let _ = writeln!(
+                s,
+                "  {} proofs of every actuator, {} boxes; so {{V <= {}}} is a region of attraction \
+                 of the law as flown (saturated): no command leaves its limits there",
+                r.steps,
+                r.boxes,
+                sig(r.level)
+            );
+            for w in &r.warnings {
+                let _ = writeln!(s, "  warning: {w}");
+            }
+        }
+        RatesOutcome::Refuted(actuator, cx) => {
+            let point: Vec<String> = cx
+                .point
+                .iter()
+                .map(|(n, v)| format!("{n} = {}", sig(*v)))
+                .collect();
+            let _ = writeln!(
+                s,
+                "  none: with every rate held at zero, {actuator} = {} at {} (every digit in \
+                 --format json); narrow the set (--within) or the envelope",
+                sig(cx.value),
+                point.join(", ")
+            );
+        }
+        RatesOutcome::Inconclusive(why) => {
+            let _ = writeln!(s, "  undecided: {why}");
+        }
+    }
+}
+
+/// The guidance rates as JSON: `{"within", "level", "outcome", "rates": [{"name", "unit",
+/// "declared", "proved"}], "steps", "boxes", "warnings", "point" | "reason"}`.
+fn rates_json(rates: &Result<crate::rates::RateLimits, String>) -> Value {
+    use crate::rates::RatesOutcome;
+    let r = match rates {
+        Ok(r) => r,
+        Err(why) => return json!({"outcome": "not sought", "reason": why}),
+    };
+    let (outcome, point, reason) = match &r.outcome {
+        RatesOutcome::Proven => ("proven", Value::Null, Value::Null),
+        RatesOutcome::Refuted(a, cx) => (
+            "saturates",
+            json!({"actuator": a, "point": counterexample_json(cx)}),
+            Value::Null,
+        ),
+        RatesOutcome::Inconclusive(why) => ("inconclusive", Value::Null, json!(why)),
+    };
+    json!({
+        "within": r.within.iter().map(|(st, b)| (st.clone(), json!(b))).collect::<Map<String, Value>>(),
+        "level": r.level,
+        "outcome": outcome,
+        "rates": r.rates.iter().map(|p| json!({
+            "name": p.name, "unit": p.unit,
+            "declared": [p.declared.0, p.declared.1],
+            "proved": [p.proved.0, p.proved.1],
+        })).collect::<Vec<_>>(),
+        "steps": r.steps,
+        "boxes": r.boxes,
+        "warnings": r.warnings,
+        "saturates": point,
+        "reason": reason,
     })
 }
