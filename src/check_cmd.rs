@@ -89,6 +89,9 @@ pub struct Limits {
     /// Set by `with_rates`: the error bounds of --rates.
     #[arg(skip)]
     rates: Option<Vec<(String, f64)>>,
+    /// Set by `with_saturated`: `check --saturated`.
+    #[arg(skip)]
+    saturated: bool,
 }
 
 impl Limits {
@@ -107,6 +110,7 @@ impl Limits {
             dag: self.expr.dag(),
             actuators: true,
             rates: self.rates.clone(),
+            saturated: self.saturated,
         }
     }
 
@@ -114,6 +118,14 @@ impl Limits {
     pub fn with_rates(&self, r: &RateOptions) -> Limits {
         Limits {
             rates: r.within(),
+            ..self.clone()
+        }
+    }
+
+    /// These limits with the saturated law's region asked for (`check --saturated`).
+    pub fn with_saturated(&self, saturated: bool) -> Limits {
+        Limits {
+            saturated,
             ..self.clone()
         }
     }
@@ -274,6 +286,10 @@ pub fn recheck_cmd(
                     "level": level,
                     "rates": rates.iter().map(|(n, (lo, hi))| (n.clone(), json!([lo, hi]))).collect::<serde_json::Map<_, _>>(),
                 })),
+                "saturated": r.saturated.as_ref().map(|(level, bounds)| json!({
+                    "level": level,
+                    "bounds": bounds.iter().map(|(n, (lo, hi))| (n.clone(), json!([lo, hi]))).collect::<serde_json::Map<_, _>>(),
+                })),
             }),
             Err(e) => json!({
                 "certificate": cert_path.display().to_string(),
@@ -309,6 +325,16 @@ pub fn recheck_cmd(
                     .collect();
                 println!(
                     "guidance rates re-checked: every command within its limits wherever V <= {level} for {}",
+                    list.join(", ")
+                );
+            }
+            if let Some((level, bounds)) = &r.saturated {
+                let list: Vec<String> = bounds
+                    .iter()
+                    .map(|(n, (lo, hi))| format!("{n} error in [{lo}, {hi}]"))
+                    .collect();
+                println!(
+                    "saturated law re-checked: {{V <= {level}}} is a region of attraction with the commands clamped, inside it {}",
                     list.join(", ")
                 );
             }

@@ -108,6 +108,11 @@ enum Command {
         certificate: Option<PathBuf>,
         #[command(flatten)]
         rates: check_cmd::RateOptions,
+        /// With --rates: also prove a region of attraction of the law as flown, each command
+        /// clamped to its limits, beyond the saturation-free set (up to 12 proofs of 100,000
+        /// boxes each).
+        #[arg(long, requires = "rates")]
+        saturated: bool,
         #[command(flatten)]
         limits: check_cmd::Limits,
     },
@@ -372,12 +377,13 @@ fn dispatch(command: Command) -> ExitCode {
             format,
             certificate,
             rates,
+            saturated,
             limits,
         } => check_cmd::check_cmd(
             &specs,
             format,
             certificate.as_deref(),
-            &limits.with_rates(&rates),
+            &limits.with_rates(&rates).with_saturated(saturated),
         ),
         Command::Recheck {
             certificate,

@@ -5,11 +5,12 @@
 
 Exit 0: accepted; 1: rejected, with the reason; 3: an input cannot be read. It shares no code
 with lawsmith: it reads the spec itself, derives what it needs with SymPy and re-evaluates
-every leaf with its own interval arithmetic. The rules it checks, R1 to R11, are in README.md
+every leaf with its own interval arithmetic. The rules it checks, R1 to R12, are in README.md
 beside this file; each function below names the rule it implements.
 """
 
 import argparse
+import functools
 import hashlib
 import json
 import math
@@ -80,6 +81,22 @@ def same(a, b):
     return sp.simplify(d) == 0
 
 
+def canon(e):
+    """Every function's arguments in SymPy's canonical rational form, inside out, so that two
+    equal clamps (Min, Max) are one atom when `same` compares expressions holding them."""
+    if not e.args or isinstance(e, sp.Number):
+        return e
+    args = [canon(a) for a in e.args]
+    return e.func(*[sp.cancel(a) for a in args]) if isinstance(e, sp.Function) else e.func(*args)
+
+
+def inward(q, toward):
+    """The double nearest the exact number q on the side of `toward` (or q itself)."""
+    q = Fraction(int(sp.Rational(q).p), int(sp.Rational(q).q))
+    x = float(q)
+    return x if (Fraction(x) >= q if toward > 0 else Fraction(x) <= q) else math.nextafter(x, toward)
+
+
 def num(v):
     return float({"inf": "inf", "-inf": "-inf", "nan": "nan"}[v] if isinstance(v, str) else v)
 
@@ -145,6 +162,8 @@ class Goal:
         self.errors = [k for k, n in enumerate(self.dims) if check.role.get(n) in ERROR_ROLES]
         self._value = self._hessian = self._affine = self._closable = None
         self._grad = {}
+        # the saturated law's goal: each command with its test, and the claim's exempt errors
+        self.unclamped, self.exempt = [], []
 
     def value(self, box):
         if self._value is None:
@@ -158,8 +177,13 @@ class Goal:
             try:
                 # each component as one cancelled fraction: the quotient rule's raw form
                 # loses the correlation of a variable in numerator and denominator
+                # min and max through |.|, whose derivative is the sign (with [-1, 1] where
+                # its argument may vanish): a generalized gradient, as the mean-value form needs
+                lo = lambda *a: functools.reduce(lambda x, y: (x + y - sp.Abs(x - y)) / 2, a)
+                hi = lambda *a: functools.reduce(lambda x, y: (x + y + sp.Abs(x - y)) / 2, a)
+                e = self.expr.replace(sp.Min, lo).replace(sp.Max, hi)
                 self._grad[ks] = iv.Compiled(
-                    [sp.cancel(sp.diff(self.expr, sym(self.dims[k]))) for k in ks], self.dims)
+                    [sp.cancel(sp.diff(e, sym(self.dims[k]))) for k in ks], self.dims)
             except iv.Undefined:
                 self._grad[ks] = None
         if self._grad[ks] is None:
@@ -341,7 +365,7 @@ class Check:
         except (model.SpecError, formula.FormulaError, KeyError, TypeError) as e:
             raise Unreadable(f"the spec cannot be read: {e}") from e
         self.role, self.leaves, self.jobs, self.below, self.limits = {}, 0, 1, None, []
-        self.proved_rates = None
+        self.proved_rates = self.region_text = None
 
     # R2 ---------------------------------------------------------------------------------
     def domain(self):
@@ -570,6 +594,16 @@ class Check:
             if not fails(bx, SPLIT_DEPTH):
                 return f"constraint {i} does not fail everywhere on the box"
             return None
+        if "unclamped" in leaf:
+            # every command within its limits: the clamps are the identity and the goal's
+            # expression is the claim's V-dot, proven < 0 away from its exempt zero
+            if not g.unclamped:
+                return "`unclamped` outside the saturated law's goal of a strict claim"
+            if all(bx[k][0] <= 0.0 <= bx[k][1] for k in g.exempt):
+                return "the box holds the claim's exempt zero"
+            if not all(self.show(c, bx, t, SPLIT_DEPTH) for c, t in g.unclamped):
+                return "a command may leave its limits on the box"
+            return None
         if "below_level" in leaf:
             if level is None or level <= 0.0:
                 return "`below_level` outside an ultimate bound's level proof"
@@ -615,29 +649,9 @@ class Check:
         if not same(vg.expr, self.V):
             raise Reject(f"{g.at}: the sublevel proofs' candidate is not V")
         root = [self.box[n] for n in vg.dims]
-        proved = []
-        for i, p in enumerate(ub.get("sublevel") or []):
-            at = f"{g.at}, sublevel proof {i + 1}"
-            name, side = p.get("coordinate"), p.get("side")
-            if name not in vg.dims or self.role.get(name) not in ERROR_ROLES:
-                raise Reject(f"{at}: `{name}` is not an error of V")
-            k = vg.dims.index(name)
-            frm, lv = num(p["from"]), num(p["level"])
-            if not (root[k][0] <= frm <= root[k][1]) or side not in ("upper", "lower", "face"):
-                raise Reject(f"{at}: malformed part of the box")
-            r = list(root)
-            r[k] = {"upper": (frm, root[k][1]), "lower": (root[k][0], frm), "face": (frm, frm)}[side]
-            self.tree(p, vg, r, ("within", math.nextafter(lv, math.inf), math.inf), at)
-            proved.append((name, side, frm, lv))
-        for name in self.m.errors:
-            k = vg.dims.index(name) if name in vg.dims else None
-            if k is None:
-                raise Reject(f"{g.at}: V does not depend on `{name}`")
-            for end in root[k]:
-                if end != 0.0 and a > 0.0 and not any(
-                        (n, sd, f) == (name, "face", end) and lv >= a
-                        for n, sd, f, lv in proved):
-                    raise Reject(f"{g.at}: no proof that V > {a} on the face {name} = {end}")
+        proved = self.sublevels(ub.get("sublevel") or [], vg, root, f"{g.at}, sublevel proof")
+        if a > 0.0:
+            self.faces_shown(proved, vg, root, a, g.at)
         if level > 0.0 and not level < a:
             raise Reject(f"{g.at}: the level {level} is not below the region of attraction {a}")
         stated = {}
@@ -649,12 +663,8 @@ class Check:
             k = vg.dims.index(name)
             lower, upper = num(e["lower"]), num(e["upper"])
 
-            def shown(side, b, end):
-                if b == 0.0 and (level == 0.0 or end == 0.0):
-                    return True
-                return any(n == name and sd == side and l >= level and
-                           (f <= b if side == "upper" else f >= b) for n, sd, f, l in proved)
-            if not (shown("upper", upper, root[k][1]) and shown("lower", lower, root[k][0])):
+            if not (level == 0.0 and lower == upper == 0.0) and not self.bounds_shown(
+                    proved, name, (lower, upper), root[k], level):
                 raise Reject(f"{g.at}: the bound [{lower}, {upper}] on `{s}` is not proved at "
                              f"level {level}")
             stated[s] = max(abs(lower), abs(upper))
@@ -665,6 +675,43 @@ class Check:
                 raise Reject(f"{g.at}: the proved bound {stated[s]} on `{s}` exceeds the "
                              f"spec's required {float(need)}")
         return level
+
+    def sublevels(self, proofs, vg, root, at):
+        """R5, R6 for proofs that V > a level on part of the root box (one side of an error
+        coordinate from a point, or that face): [(coordinate, side, from, level)]."""
+        out = []
+        for i, p in enumerate(proofs):
+            a = f"{at} {i + 1}"
+            name, side = p.get("coordinate"), p.get("side")
+            if name not in vg.dims or self.role.get(name) not in ERROR_ROLES:
+                raise Reject(f"{a}: `{name}` is not an error of V")
+            k = vg.dims.index(name)
+            frm, lv = num(p["from"]), num(p["level"])
+            if not (root[k][0] <= frm <= root[k][1]) or side not in ("upper", "lower", "face"):
+                raise Reject(f"{a}: malformed part of the box")
+            r = list(root)
+            r[k] = {"upper": (frm, root[k][1]), "lower": (root[k][0], frm), "face": (frm, frm)}[side]
+            self.tree(p, vg, r, ("within", math.nextafter(lv, math.inf), math.inf), a)
+            out.append((name, side, frm, lv))
+        return out
+
+    def faces_shown(self, proved, vg, root, level, at):
+        """Every face of every error (but one at zero) has a proof at `level` or above."""
+        for name in self.m.errors:
+            if name not in vg.dims:
+                raise Reject(f"{at}: V does not depend on `{name}`")
+            for end in root[vg.dims.index(name)]:
+                if end != 0.0 and not any((n, sd, f) == (name, "face", end) and lv >= level
+                                          for n, sd, f, lv in proved):
+                    raise Reject(f"{at}: no proof that V > {level} on the face {name} = {end}")
+
+    @staticmethod
+    def bounds_shown(proved, name, bounds, whole, level):
+        """Proofs at `level` or above put {V <= level} within these bounds on `name`."""
+        return all((b == 0.0 and end == 0.0) or any(
+            n == name and sd == side and lv >= level and (f <= b if side == "upper" else f >= b)
+            for n, sd, f, lv in proved)
+            for side, b, end in (("lower", bounds[0], whole[0]), ("upper", bounds[1], whole[1])))
 
     # R11 --------------------------------------------------------------------------------
     def rates(self, verdict):
@@ -694,24 +741,8 @@ class Check:
                 lo, hi = max(lo, -within[n[1:]]), min(hi, within[n[1:]])
             return rates.get(n, (lo, hi))
         root = [cut(n, {}) for n in vg.dims]
-        faces = set()
-        for i, p in enumerate(r["faces"]):
-            name, frm, lv = p["coordinate"], num(p["from"]), num(p["level"])
-            if name not in vg.dims or self.role.get(name) not in ERROR_ROLES:
-                raise Reject(f"{at}, face proof {i + 1}: `{name}` is not an error of V")
-            k = vg.dims.index(name)
-            if p["side"] != "face" or lv < level or frm not in root[k]:
-                raise Reject(f"{at}, face proof {i + 1}: not a face of the box at the level")
-            box = list(root)
-            box[k] = (frm, frm)
-            self.tree(p, vg, box, ("within", math.nextafter(lv, math.inf), math.inf),
-                      f"{at}, face proof {i + 1}")
-            faces.add((name, frm))
-        for k, n in enumerate(vg.dims):
-            if self.role.get(n) in ERROR_ROLES:
-                for end in root[k]:
-                    if end != 0.0 and (n, end) not in faces:
-                        raise Reject(f"{at}: no proof that V > {level} on the face {n} = {end}")
+        self.faces_shown(self.sublevels(r["faces"], vg, root, f"{at}, face proof"),
+                         vg, root, level, at)
         # the proved rates, each within its declared range, in the domain's order
         names = [n for n, role, _, _ in self.m.coords if role == "rate"]
         listed = r["rates"]
@@ -742,7 +773,72 @@ class Check:
                 self.tree(aj, g, [cut(n, proved) for n in g.dims], t, g.at)
         finally:
             self.m.constraints.pop()
+        if r.get("saturated") is not None:
+            self.region_text = self.saturated(r["saturated"], within, level, proved, vg)
         return ", ".join(f"{n} in [{lo!r}, {hi!r}]" for n, (lo, hi) in proved.items())
+
+    # R12 --------------------------------------------------------------------------------
+    def saturated(self, s, within, free, proved, vg):
+        """The saturated law's region of attraction {V <= level}: inside the whole error box,
+        V above the saturation-free level `free` beyond the bounds `within`, the saturated
+        V-dot < 0 wherever free <= V <= level over the proved rates, and each stated bound
+        shown at the level. Returns it as text."""
+        at = "saturated law"
+        level = num(s["level"])
+        if num(s["free_level"]) != free or not free < level < math.inf:
+            raise Reject(f"{at}: malformed levels")
+        whole = [self.box[n] for n in vg.dims]
+        self.faces_shown(self.sublevels(s["faces"], vg, whole, f"{at}, face proof"),
+                         vg, whole, level, at)
+        outside = self.sublevels(s["outside"], vg, whole, f"{at}, outside proof")
+        for n, b in within.items():
+            k = vg.dims.index("Δ" + n)
+            for side, end, beyond in (("upper", b, whole[k][1] > b), ("lower", -b, whole[k][0] < -b)):
+                if beyond and not any((x, sd, f) == ("Δ" + n, side, end) and lv >= free
+                                      for x, sd, f, lv in outside):
+                    raise Reject(f"{at}: no proof that V > {free} where Δ{n} is beyond {end}")
+        gj = s["goal"]
+        g = self.goal(gj, f"{at}, dV/dt", "saturated")
+        if g.test != ("below", True) or g.origin or g.status != "proven":
+            raise Reject(f"{g.at}: not a proof that dV/dt < 0")
+        try:
+            own = self.m.to_proof(self.m.saturated_vdot())
+        except model.SpecError as e:
+            raise Reject(f"{g.at}: {e}") from e
+        if not same(canon(g.expr), canon(own)):
+            raise Reject(f"{g.at}: its expression is not the spec's dV/dt with the commands clamped")
+        region = expr_of(gj.get("region", "0"))
+        if not same(region, self.V):
+            raise Reject(f"{g.at}: its region is not V")
+        if s["constraint"] != len(self.m.constraints):
+            raise Reject(f"{at}: the level's constraint is not after the spec's")
+        if self.kind in ("negative_definite", "negative_definite_in"):
+            cmds = []
+            for e, lo, hi in self.m.actuators.values():
+                u = self.m.to_proof(e)
+                if not {x.name for x in u.free_symbols} <= set(g.dims):
+                    cmds = []
+                    break
+                lo, hi = (x.xreplace({sp.pi: model.PI_50}) for x in (lo, hi))
+                cmds.append((Goal(u, g.dims, self),
+                             ("within", inward(lo, math.inf), inward(hi, -math.inf))))
+            g.unclamped = cmds
+            g.exempt = [g.dims.index(n) for n in self.m.exempt_errors() if n in g.dims]
+        self.m.constraints.append((sp.expand(self.V - model.R(Fraction(level))), False))
+        self.region, self.below = region, None
+        try:
+            self.tree(gj, g, [proved.get(n, self.box[n]) for n in g.dims], g.test, g.at, free)
+        finally:
+            self.m.constraints.pop()
+        shown = self.sublevels(s["bound_proofs"], vg, whole, f"{at}, bound proof")
+        text = []
+        for e in s["bounds"]:
+            name, lo, hi = "Δ" + e["state"], num(e["lower"]), num(e["upper"])
+            if name not in vg.dims or not self.bounds_shown(
+                    shown, name, (lo, hi), whole[vg.dims.index(name)], level):
+                raise Reject(f"{at}: the bound [{lo}, {hi}] on `{e['state']}` is not proved")
+            text.append(f"{name} in [{lo!r}, {hi!r}]")
+        return f"V <= {level!r} ({', '.join(text)})"
 
     # R8 ---------------------------------------------------------------------------------
     def declared_point(self, dims, pt):
@@ -901,7 +997,9 @@ def main(argv=None):
         return 1
     print(f"accepted: {verdict} ({len(c.compiled)} goals, {c.leaves} leaves re-evaluated; "
           f"actuators: {', '.join(c.limits) or 'none'}"
-          + (f"; guidance rates: {c.proved_rates}" if c.proved_rates else "") + ")")
+          + (f"; guidance rates: {c.proved_rates}" if c.proved_rates else "")
+          + (f"; region of attraction with saturation: {c.region_text}" if c.region_text else "")
+          + ")")
     return 0
 
 

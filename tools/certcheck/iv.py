@@ -224,7 +224,14 @@ def absv(a):
     return (0.0, max(-a[0], a[1]))
 
 
-FUNCS = {sp.sin: "sin", sp.cos: "cos", sp.tan: "tan", sp.exp: "exp", sp.log: "log",
+def sgn(a):
+    """The sign over an interval: where the interval holds zero, every value between the
+    signs of its ends (the generalized gradient of |u| at u = 0 is [-1, 1])."""
+    return (-1.0 if a[0] < 0.0 else 0.0 if a[0] == 0.0 else 1.0,
+            1.0 if a[1] > 0.0 else 0.0 if a[1] == 0.0 else -1.0)
+
+
+FUNCS = {sp.sign: "sgn", sp.sin: "sin", sp.cos: "cos", sp.tan: "tan", sp.exp: "exp", sp.log: "log",
          sp.atan: "atan", sp.asin: "asin", sp.acos: "acos", sp.Abs: "absv"}
 
 

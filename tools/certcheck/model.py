@@ -17,6 +17,8 @@ import yaml
 
 import formula
 
+# π to 50 decimals (truncated), as the spec reader takes it for limits in `deg`
+PI_50 = sp.Rational("3.14159265358979323846264338327950288419716939937510")
 NUMBER = re.compile(r"^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$")
 
 
@@ -161,28 +163,20 @@ class Model:
         for m, v in self.memory.items():
             self._source = f"update law of `{m}`"
             self.updates[m] = self.convert(formula.parse(v["update"])).xreplace(law_map)
-        self.actuators = {}      # name: (command, lo, hi); `deg` limits in rad
+        self.actuators, self.sent = {}, {}  # name: (command, lo, hi), `deg` limits in rad
         for n, a in sec("actuators").items():
             self._source = f"actuator `{n}`"
-            e = self.convert(formula.parse(a["law"])).xreplace(law_map)
+            raw = self.convert(formula.parse(a["law"]))
+            e = raw.xreplace(law_map)
             k = sp.pi / 180 if a.get("unit") == "deg" else 1
             self.actuators[n] = (e, *(R(x) * k for x in pair(a["limits"], f"limits of {n}")))
+            self.sent[n] = raw
+        self.law_map = law_map
         self.closed = {s: f.xreplace(law_map) for s, f in self.dynamics.items()}
         lyap = d.get("lyapunov") or {}
         self._source = "V"
         self.V = self.convert(formula.parse(lyap["candidate"]))
-        vdot = sp.Integer(0)
-        for s in self.states:
-            dv = sp.diff(self.V, sym(s))
-            self.walk(dv, "dV/dt")
-            vdot += dv * self.closed[s]
-        for r, rate in self.rate_of.items():
-            vdot += sp.diff(self.V, sym(r)) * sym(rate)
-        for m, u in self.updates.items():
-            dv = sp.diff(self.V, sym(m))
-            self.walk(dv, "dV/dt")
-            vdot += dv * u
-        self.Vdot = vdot
+        self.Vdot = self.vdot(self.closed, walk=True)
         # holding a controller state at a limit never increases V: -dV/dm <= 0 at the upper
         # limit, dV/dm <= 0 at the lower (in base symbols)
         self.projections = []
@@ -210,6 +204,39 @@ class Model:
             lo, hi = pair(v["limits"], f"limits of {m}")
             x = self.to_proof(sym(m))
             self.constraints += [(R(lo) - x, False), (x - R(hi), False)]
+
+    def vdot(self, closed, walk=False):
+        """dV/dt along these closed-loop dynamics, the reference rates and the update laws."""
+        sym, out = self.sym, sp.Integer(0)
+        for s in self.states:
+            dv = sp.diff(self.V, sym(s))
+            if walk:
+                self.walk(dv, "dV/dt")
+            out += dv * closed[s]
+        for r, rate in self.rate_of.items():
+            out += sp.diff(self.V, sym(r)) * sym(rate)
+        for m, u in self.updates.items():
+            dv = sp.diff(self.V, sym(m))
+            if walk:
+                self.walk(dv, "dV/dt")
+            out += dv * u
+        return out
+
+    def saturated_vdot(self):
+        """dV/dt with each command clamped to its limits: an actuator sends one input plus
+        terms of none, and in the dynamics that input becomes the clamped command less those
+        terms. Limits in `deg` take π to 50 decimals, as the spec reader does."""
+        sat, sent = dict(self.law_map), set()
+        for n, raw in self.sent.items():
+            used = [self.sym(k) for k in self.laws if self.sym(k) in raw.free_symbols]
+            if len(used) != 1 or used[0] in sent or sp.simplify(sp.diff(raw, used[0]) - 1) != 0:
+                raise SpecError(f"actuator `{n}` is not one input plus terms of none")
+            u = used[0]
+            sent.add(u)
+            e, lo, hi = self.actuators[n]
+            lo, hi = (x.xreplace({sp.pi: PI_50}) for x in (lo, hi))
+            sat[u] = sp.Min(sp.Max(e, lo), hi) - (e - self.law_map[u])
+        return self.vdot({s: f.xreplace(sat) for s, f in self.dynamics.items()})
 
     # formulas ---------------------------------------------------------------------------
 

@@ -2,8 +2,8 @@
 //! V̇ = Σ ∂V/∂x·ẋ + Σ ∂V/∂r·ṙ, simplified to canonical form.
 
 use crate::diag::Diagnostic;
-use crate::model::{Decl, ErrorForm, Spec};
-use lawsmith_expr::{derivative, AssumeAll, Condition, ExprId, Oracle, Simplifier};
+use crate::model::{Decl, ErrorForm, Spec, Symbol};
+use lawsmith_expr::{derivative, AssumeAll, Condition, Dag, ExprId, Oracle, Simplifier};
 use std::collections::HashMap;
 
 /// What `derive` produces. Every expression is in base symbols only (states, references,
@@ -70,6 +70,36 @@ impl std::fmt::Display for DeriveError {
 
 impl std::error::Error for DeriveError {}
 
+/// Each uncertain quantity's true value as the plant sees it: `estimate·(1 + δ)` or
+/// `estimate + δ`, where the estimate (a signal, or an input computed by its law) is what the
+/// controller sees.
+fn true_values(dag: &mut Dag, symbols: &[Symbol]) -> HashMap<String, ExprId> {
+    let mut out = HashMap::new();
+    for s in symbols {
+        let Decl::Uncertain {
+            estimate,
+            form,
+            delta,
+            ..
+        } = &s.decl
+        else {
+            continue;
+        };
+        let e = dag.sym(estimate);
+        let delta = dag.sym(delta);
+        let value = match form {
+            ErrorForm::Relative => {
+                let one = dag.int(1);
+                let factor = dag.add(vec![one, delta]);
+                dag.mul(vec![e, factor])
+            }
+            ErrorForm::Absolute => dag.add(vec![e, delta]),
+        };
+        out.insert(s.name.clone(), value);
+    }
+    out
+}
+
 /// Derives V̇ with every side condition granted (and recorded in
 /// [`Derivation::assumptions`]).
 pub fn derive(spec: &mut Spec) -> Result<Derivation, DeriveError> {
@@ -96,31 +126,8 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         law_map.insert(input.clone(), full);
         laws.push((input.clone(), full));
     }
-    // the plant sees true values: `estimate·(1 + δ)` or `estimate + δ`, where the estimate
-    // (a signal, or an input computed by its law) is what the controller sees
-    let mut true_values: HashMap<String, ExprId> = HashMap::new();
-    for s in &spec.symbols {
-        let Decl::Uncertain {
-            estimate,
-            form,
-            delta,
-            ..
-        } = &s.decl
-        else {
-            continue;
-        };
-        let e = dag.sym(estimate);
-        let delta = dag.sym(delta);
-        let value = match form {
-            ErrorForm::Relative => {
-                let one = dag.int(1);
-                let factor = dag.add(vec![one, delta]);
-                dag.mul(vec![e, factor])
-            }
-            ErrorForm::Absolute => dag.add(vec![e, delta]),
-        };
-        true_values.insert(s.name.clone(), value);
-    }
+    // the plant sees true values
+    let true_values = true_values(dag, &spec.symbols);
     let closed: Vec<(String, ExprId)> = spec
         .dynamics
         .iter()
@@ -244,4 +251,95 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         assumptions: Vec::new(),
         work: simp.work(),
     })
+}
+
+/// V̇ of the law as flown: each input that an actuator sends (its command is the input plus
+/// terms of no input, `thrust_cmd = thrust`, `pitch_cmd = gamma + alpha`) replaced in the
+/// dynamics by the value the saturated command gives it, `clamp(command, lo, hi) − (command −
+/// input)`. Update laws read the laws as computed (the generated code does). Returns V̇ in base
+/// symbols, not simplified, or why the law cannot be saturated this way (an actuator whose
+/// command is not its input plus terms of no input, or two actuators of one input).
+pub fn saturated_vdot(spec: &mut Spec) -> Result<ExprId, String> {
+    let dag = &mut spec.dag;
+    let mut law_map: HashMap<String, ExprId> = HashMap::new();
+    for (input, law) in &spec.laws {
+        let full = dag.substitute(*law, &law_map);
+        law_map.insert(input.clone(), full);
+    }
+    let inputs: Vec<String> = spec.laws.iter().map(|(n, _)| n.clone()).collect();
+    let mut sat_map = law_map.clone();
+    let mut covered: Vec<String> = Vec::new();
+    for a in &spec.actuators {
+        let used: Vec<String> = dag
+            .symbols(a.law)
+            .into_iter()
+            .filter(|s| inputs.contains(s))
+            .collect();
+        let [input] = used.as_slice() else {
+            return Err(format!(
+                "actuator `{}` sends {} inputs; each must send one input plus terms of none",
+                a.name,
+                used.len()
+            ));
+        };
+        let d = derivative(dag, a.law, input);
+        let d = lawsmith_expr::simplify(dag, d, &mut lawsmith_expr::AssumeNothing);
+        if !dag.is_one(d) {
+            return Err(format!(
+                "actuator `{}` is not its input `{input}` plus terms of no input",
+                a.name
+            ));
+        }
+        if covered.contains(input) {
+            return Err(format!("input `{input}` is sent by two actuators"));
+        }
+        covered.push(input.clone());
+        let command = dag.substitute(a.law, &law_map);
+        let offset = dag.sub(command, law_map[input]);
+        let lo = dag.num(a.limits.lo.exact().clone());
+        let hi = dag.num(a.limits.hi.exact().clone());
+        let clamped = dag.call(lawsmith_expr::Func::Clamp, vec![command, lo, hi]);
+        let sat = dag.sub(clamped, offset);
+        sat_map.insert(input.clone(), sat);
+    }
+    let true_values = true_values(dag, &spec.symbols);
+    let v = spec.candidate;
+    let mut terms = Vec::new();
+    for name in dag.symbols(v) {
+        let Some(sym) = spec.symbols.iter().find(|s| s.name == name) else {
+            continue;
+        };
+        let rate = match &sym.decl {
+            Decl::State { .. } => {
+                let (_, f) = spec
+                    .dynamics
+                    .iter()
+                    .find(|(s, _)| *s == name)
+                    .ok_or_else(|| format!("state `{name}` has no dynamics"))?;
+                let plant = dag.substitute(*f, &true_values);
+                dag.substitute(plant, &sat_map)
+            }
+            Decl::Reference { rate, .. }
+            | Decl::Rate {
+                rate: Some(rate), ..
+            } => dag.sym(rate),
+            Decl::Memory { .. } => {
+                let (_, u) = spec
+                    .updates
+                    .iter()
+                    .find(|(m, _)| *m == name)
+                    .ok_or_else(|| format!("controller state `{name}` has no update law"))?;
+                dag.substitute(*u, &law_map)
+            }
+            Decl::Parameter { .. } | Decl::Gain { .. } | Decl::Unknown { .. } => continue,
+            _ => {
+                return Err(format!(
+                    "the candidate depends on `{name}`, whose rate is not declared"
+                ))
+            }
+        };
+        let dv = derivative(dag, v, &name);
+        terms.push(dag.mul(vec![dv, rate]));
+    }
+    Ok(dag.add(terms))
 }

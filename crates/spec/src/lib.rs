@@ -44,7 +44,7 @@ mod names;
 mod schema;
 mod units;
 
-pub use derive::{derive, derive_with, Derivation, DeriveError};
+pub use derive::{derive, derive_with, saturated_vdot, Derivation, DeriveError};
 pub use diag::{render, Diagnostic};
 pub use load::{load, MAX_SPEC_BYTES};
 pub use model::{

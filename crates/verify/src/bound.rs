@@ -755,3 +755,60 @@ fn not_met(
         "the guaranteed bound on `{state}` is {got:.4}, above the required {bound}, but no point shows this V cannot do better (lower the level tolerance)"
     ))
 }
+
+/// V > `level` on one part of `root` (one side of coordinate `k` from `from`, or that face),
+/// proved; and the boxes spent.
+pub(crate) fn above_on(
+    sub: &Compiled,
+    root: &[Interval],
+    part: (usize, Side, f64),
+    level: f64,
+    settings: &Settings,
+) -> (SublevelProof, usize) {
+    let mut run = Run {
+        settings,
+        tol: &settings.bound,
+        progress: &|_, _, _| {},
+        boxes: 0,
+    };
+    let (k, side, from) = part;
+    let p = run.sublevel(sub, root, k, side, from, level);
+    (p, run.boxes)
+}
+
+/// Per error coordinate, (lower, upper); None where an end is not proved.
+type Extents = Option<Vec<(f64, f64)>>;
+
+/// The bound on each error coordinate of `sub` inside {V ≤ level} within `root` (lower,
+/// upper; bisected as an ultimate bound's), their proofs and the boxes spent.
+pub(crate) fn extents(
+    sub: &Compiled,
+    root: &[Interval],
+    level: f64,
+    settings: &Settings,
+) -> (Extents, Vec<SublevelProof>, usize) {
+    let mut run = Run {
+        settings,
+        tol: &settings.bound,
+        progress: &|_, _, _| {},
+        boxes: 0,
+    };
+    let mut proofs = Vec::new();
+    let mut out = Vec::new();
+    for &k in &sub.errors {
+        let mut end = |side: Side, beyond: bool| {
+            if beyond {
+                extent(&mut run, sub, root, k, side, level, &mut proofs)
+            } else {
+                Some(0.0)
+            }
+        };
+        let lower = end(Side::Lower, root[k].lo() < 0.0);
+        let upper = end(Side::Upper, root[k].hi() > 0.0);
+        match (lower, upper) {
+            (Some(l), Some(u)) => out.push((l, u)),
+            _ => return (None, proofs, run.boxes),
+        }
+    }
+    (Some(out), proofs, run.boxes)
+}

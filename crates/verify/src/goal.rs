@@ -133,6 +133,23 @@ pub struct Compiled {
     constraints: Vec<(Tape, bool, usize)>,
     /// The region's expression with its gradient, and alone.
     region: Option<(Tape, Tape)>,
+    /// Boxes the claim's proof covers (the saturated law's goal), when set.
+    unclamped: Option<Unclamped>,
+}
+
+/// Where every command is within its limits, V̇ of the saturated law is the claim's V̇, which
+/// the claim's proof shows negative away from the joint zero of the claim's exempt errors: a
+/// box on which each command's enclosure lies inside its limits and one of those errors is
+/// away from zero needs no proof of its own. Set on the saturated law's goal (a proven claim
+/// of a strictly negative V̇ only).
+#[derive(Clone, Debug)]
+pub struct Unclamped {
+    /// Every command over the goal's coordinates.
+    commands: Tape,
+    /// Each command's f64 ends inside its exact limits.
+    limits: Vec<(f64, f64)>,
+    /// Positions (in the goal's dims) of the claim's exempt errors that are among them.
+    exempt: Vec<usize>,
 }
 
 /// How a box stands with respect to the gain constraints.
@@ -350,7 +367,57 @@ impl Compiled {
             grad,
             hessian,
             constraints,
+            unclamped: None,
         })
+    }
+
+    /// Lets boxes where every command is within its limits rest on the claim's proof (see
+    /// [`Unclamped`]): `commands` with their f64 ends inside the exact limits, `exempt` the
+    /// problem coordinates of the claim's exempt errors. False (and nothing set) when a
+    /// command reads a coordinate the goal does not have.
+    pub(crate) fn set_unclamped(
+        &mut self,
+        problem: &Problem,
+        commands: &[(ExprId, (f64, f64))],
+        exempt: &[usize],
+    ) -> Result<bool, String> {
+        for (e, _) in commands {
+            let used = problem.coordinates_of(*e).unwrap_or_default();
+            if !used.iter().all(|d| self.dims.contains(d)) {
+                return Ok(false);
+            }
+        }
+        let names: Vec<&str> = self.names.iter().map(String::as_str).collect();
+        let roots: Vec<ExprId> = commands.iter().map(|(e, _)| *e).collect();
+        self.unclamped = Some(Unclamped {
+            commands: Tape::compile(&problem.dag, &roots, &names)?,
+            limits: commands.iter().map(|(_, l)| *l).collect(),
+            exempt: (0..self.dims.len())
+                .filter(|k| exempt.contains(&self.dims[*k]))
+                .collect(),
+        });
+        Ok(true)
+    }
+
+    /// True when boxes may rest on the claim's proof.
+    pub fn has_unclamped(&self) -> bool {
+        self.unclamped.is_some()
+    }
+
+    /// True when a box rests on the claim's proof: each command's enclosure within its
+    /// limits, and one exempt error away from zero.
+    pub fn unclamped_on(&self, bx: &[Interval], s: &mut Scratch) -> bool {
+        let Some(u) = self.unclamped.as_ref() else {
+            return false;
+        };
+        if u.exempt.iter().all(|&k| bx[k].contains(0.0)) {
+            return false;
+        }
+        let mut out = vec![Interval::point(0.0); u.limits.len()];
+        u.commands.run(bx, &mut s.iv, &mut out);
+        out.iter()
+            .zip(&u.limits)
+            .all(|(c, (lo, hi))| c.lo() >= *lo && c.hi() <= *hi)
     }
 
     /// Number of search dimensions.

@@ -53,14 +53,17 @@ mod settings;
 // fields (goal results, counterexamples, search reports, …) are reached through them.
 pub use bound::{BoundOutcome, BoundReport};
 pub use certificate::{
-    certificate, recheck, sha256_hex, Origin, Rechecked, Rejection, CERTIFICATE_VERSION,
+    certificate, recheck, sha256_hex, Origin, ProvedRegion, Rechecked, Rejection,
+    CERTIFICATE_VERSION,
 };
 pub use check::{check, CheckError, CheckReport, GoalKind, Status, Verdict};
 pub use goal::Scratch;
 pub use interval::Interval;
 pub use margin::{margin, MarginReport, MarginSettings};
 pub use prepare::{prepare, Prepared};
-pub use rates::{rate_limits, ProvedRate, RateLimits, RatesOutcome, RATE_STEPS};
+pub use rates::{
+    rate_limits, ProvedRate, RateLimits, RatesOutcome, SaturatedRegion, RATE_STEPS, SATURATED_STEPS,
+};
 pub use sample::{falsify, Sequence};
 pub use search::search;
 pub use settings::{BoundSettings, Budget, Settings};

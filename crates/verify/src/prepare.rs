@@ -178,6 +178,10 @@ pub struct Prepared {
     pub strategy: Strategy,
     /// Per actuator, in the spec's order: its command within its limits.
     pub actuators: Vec<ActuatorGoal>,
+    /// V̇ of the law as flown (each command clamped to its limits) in base symbols (in the
+    /// problem's arena; [`Problem::express_plain`] puts it in proof coordinates), or why the
+    /// law cannot be saturated that way.
+    pub saturated: Result<lawsmith_expr::ExprId, String>,
     pub(crate) full: FullTapes,
 }
 
@@ -186,6 +190,8 @@ pub struct Prepared {
 /// simplifier assumed), V > 0, and the claim.
 pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
     let derivation = derive(spec).map_err(CheckError::from)?;
+    // V̇ of the saturated law, formed before the problem copies the spec's arena
+    let saturated = lawsmith_spec::saturated_vdot(spec);
     let mut problem = Problem::new(spec);
     let forms = problem.forms(&derivation);
 
@@ -269,6 +275,7 @@ pub fn prepare(spec: &mut Spec) -> Result<Prepared, CheckError> {
         strategy,
         actuators,
         full,
+        saturated,
     })
 }
 

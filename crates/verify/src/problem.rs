@@ -314,6 +314,14 @@ impl Problem {
         (out, oracle.assumed)
     }
 
+    /// Rewrites an expression over base symbols into proof coordinates and simplifies it with
+    /// no side condition granted: the result equals the expression wherever it is defined.
+    pub fn express_plain(&mut self, e: ExprId) -> ExprId {
+        let sub = self.dag.substitute(e, &self.to_proof);
+        let mut none = lawsmith_expr::AssumeNothing;
+        Simplifier::new(&mut self.dag, &mut none).simplify(&mut self.dag, sub)
+    }
+
     /// Simplifies an expression already in proof coordinates, recording side conditions.
     pub fn simplify(&mut self, e: ExprId) -> (ExprId, Vec<(&'static str, Condition)>) {
         let mut oracle = AssumeAll::default();

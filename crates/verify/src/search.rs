@@ -31,6 +31,9 @@ pub enum Evidence {
     Excluded(usize),
     /// The goal's region expression (V) is below the level on the whole box: this enclosure.
     BelowLevel(Interval),
+    /// Every command lies within its limits on the box and the box holds no exempt zero of
+    /// the claim: the claim's proof covers it ([`crate::goal::Unclamped`]).
+    Unclamped,
 }
 
 /// A point where the goal provably fails.
@@ -210,7 +213,9 @@ pub fn search(
                     match ev {
                         Evidence::Bound(_) => report.by_bound += 1,
                         Evidence::Hessian(..) => report.by_hessian += 1,
-                        Evidence::Excluded(_) | Evidence::BelowLevel(_) => report.excluded += 1,
+                        Evidence::Excluded(_) | Evidence::BelowLevel(_) | Evidence::Unclamped => {
+                            report.excluded += 1
+                        }
                     }
                     nodes[id as usize].state = State::Leaf(ev);
                 }
@@ -417,6 +422,9 @@ fn step(goal: &Compiled, bx: &[Interval], scale: &[f64], s: &mut Scratch) -> Ste
         Feasibility::None(i) => return Step::Leaf(Evidence::Excluded(i)),
         Feasibility::Below(v) => return Step::Leaf(Evidence::BelowLevel(v)),
         _ => {}
+    }
+    if goal.unclamped_on(bx, s) {
+        return Step::Leaf(Evidence::Unclamped);
     }
     let (f, grad) = goal.enclose(bx, s);
     let test = goal.goal.test;

@@ -25,6 +25,9 @@ pub struct Settings {
     /// of V within these error bounds (state, bound; the error box for a state not named):
     /// `check --rates [--within …]`. None: not asked.
     pub rates: Option<Vec<(String, f64)>>,
+    /// With `rates`: also prove a region of attraction of the saturated law beyond the
+    /// saturation-free set (`check --saturated`).
+    pub saturated: bool,
 }
 
 impl Default for Settings {
@@ -38,6 +41,7 @@ impl Default for Settings {
             dag: DagLimits::default(),
             actuators: true,
             rates: None,
+            saturated: false,
         }
     }
 }

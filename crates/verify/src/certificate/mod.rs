@@ -108,6 +108,7 @@ fn evidence_json(bx: &[Interval], ev: &Evidence) -> Value {
         }
         Evidence::Excluded(i) => json!({"box": b, "excluded": i}),
         Evidence::BelowLevel(v) => json!({"box": b, "below_level": pair(v)}),
+        Evidence::Unclamped => json!({"box": b, "unclamped": true}),
     }
 }
 
@@ -337,6 +338,52 @@ fn rates_json(r: &crate::rates::RateLimits) -> (Value, usize) {
         })).collect::<Vec<_>>(),
         "sublevel_constraint": r.sublevel_constraint,
         "actuators": actuators,
+        "saturated": match &r.saturated {
+            Some(Ok(sat)) if sat.proof.is_some() => {
+                let (v, n) = saturated_json(sat, &r.sub);
+                leaves += n;
+                v
+            }
+            _ => Value::Null,
+        },
+    });
+    (v, leaves)
+}
+
+/// The saturated law's region of attraction: the saturation-free level, the level, the face
+/// proofs of the whole error box at it, the proofs that V exceeds the saturation-free level
+/// beyond the bounds, V̇ of the saturated law on the band between the two levels (the level
+/// is the constraint at `constraint`), and the bounds on each error with their proofs.
+/// Returns the leaves.
+fn saturated_json(sat: &crate::rates::SaturatedRegion, sub: &Compiled) -> (Value, usize) {
+    let mut leaves = 0;
+    let mut proofs = |ps: &[crate::bound::SublevelProof]| -> Vec<Value> {
+        ps.iter()
+            .map(|p| {
+                let (v, n) = sublevel_json(p, sub);
+                leaves += n;
+                v
+            })
+            .collect()
+    };
+    let faces = proofs(&sat.box_faces);
+    let outside = proofs(&sat.outside);
+    let bound_proofs = proofs(&sat.bound_proofs);
+    let mut goal = Map::new();
+    if let Some((g, rep)) = &sat.proof {
+        leaves += goal_json(&mut goal, g, &Status::Proven, Some(rep));
+    }
+    let v = json!({
+        "free_level": num(sat.free),
+        "level": num(sat.level),
+        "faces": faces,
+        "outside": outside,
+        "constraint": sat.constraint,
+        "goal": goal,
+        "bounds": sat.bounds.iter().map(|e| json!({
+            "state": e.state, "lower": num(e.lower), "upper": num(e.upper),
+        })).collect::<Vec<_>>(),
+        "bound_proofs": bound_proofs,
     });
     (v, leaves)
 }
@@ -350,4 +397,4 @@ fn limits_json(ag: &crate::prepare::ActuatorGoal) -> Value {
 }
 
 mod recheck;
-pub use recheck::{recheck, Rechecked, Rejection};
+pub use recheck::{recheck, ProvedRegion, Rechecked, Rejection};

@@ -20,7 +20,14 @@ pub struct Rechecked {
     /// The proved guidance rates, when the certificate has them: the level and each rate's
     /// proved range.
     pub rates: Option<ProvedRates>,
+    /// The saturated law's region of attraction, when the certificate has it: the level and
+    /// each error's bounds inside it.
+    pub saturated: Option<ProvedRegion>,
 }
+
+/// A region of attraction of the saturated law as re-checked: the level {V ≤ level}, and per
+/// state its error's proved bounds inside it.
+pub type ProvedRegion = (f64, Vec<(String, (f64, f64))>);
 
 /// Proved guidance rates as re-checked: the level, and each rate's name and proved range.
 pub type ProvedRates = (f64, Vec<(String, (f64, f64))>);
@@ -113,6 +120,7 @@ pub fn recheck(
         counterexamples: 0,
         actuators: Vec::new(),
         rates: None,
+        saturated: None,
     };
     let mut statuses = Vec::new();
     for (gi, (gj, pg)) in goals.iter().zip(&prepared.goals).enumerate() {
@@ -157,6 +165,7 @@ pub fn recheck(
         let mut tally = Rechecked {
             actuators: Vec::new(),
             rates: None,
+            saturated: None,
             ..out
         };
         let root = prepared.actuator_root(k);
@@ -198,9 +207,10 @@ pub fn recheck(
         if implied != Verdict::Proven {
             return reject("guidance rates rest on a proven claim; this one is not proven");
         }
-        let (rates, leaves) = recheck_rates(r, prepared)?;
+        let (rates, saturated, leaves) = recheck_rates(r, prepared)?;
         out.leaves += leaves;
         out.rates = Some(rates);
+        out.saturated = saturated;
     }
     Ok(out)
 }
@@ -209,7 +219,10 @@ pub fn recheck(
 /// the error box cut to the stated bounds), and each actuator's proof within its limits
 /// wherever V ≤ level, over those bounds and the proved rates. Returns the level and the
 /// rates, and the leaves re-evaluated.
-fn recheck_rates(r: &Value, prepared: &Prepared) -> Result<(ProvedRates, usize), Rejection> {
+fn recheck_rates(
+    r: &Value,
+    prepared: &Prepared,
+) -> Result<(ProvedRates, Option<ProvedRegion>, usize), Rejection> {
     let at = "guidance rates";
     let bad = |what: &str| Rejection(format!("{at}: malformed ({what})"));
     if matches!(prepared.strategy, crate::plan::Strategy::Level { .. }) {
@@ -255,30 +268,12 @@ fn recheck_rates(r: &Value, prepared: &Prepared) -> Result<(ProvedRates, usize),
         .iter()
         .enumerate()
     {
-        let name = p.get("coordinate").and_then(Value::as_str).unwrap_or("");
-        let k = sub
-            .names
-            .iter()
-            .position(|n| n == name)
-            .filter(|k| sub.errors.contains(k))
-            .ok_or_else(|| bad("coordinate"))?;
-        let from = p
-            .get("from")
-            .and_then(parse_num)
-            .ok_or_else(|| bad("from"))?;
-        let lv = p
-            .get("level")
-            .and_then(parse_num)
-            .ok_or_else(|| bad("level"))?;
-        if p.get("side").and_then(Value::as_str) != Some("face") || lv < level {
+        let at = format!("{at}, face proof {}", i + 1);
+        let ((k, side, from, lv), n) = recheck_sublevel(p, &sub, &root, &at)?;
+        if side != Side::Face || lv < level || (from != root[k].lo() && from != root[k].hi()) {
             return Err(bad("face"));
         }
-        if from != root[k].lo() && from != root[k].hi() {
-            return Err(bad("from"));
-        }
-        let g = above(&sub, lv);
-        let rr = sublevel_root(&root, k, Side::Face, from);
-        leaves += recheck_tree(p, &g, rr, &format!("{at}, face proof {}", i + 1))?;
+        leaves += n;
         faces.push((k, from));
     }
     for &k in &sub.errors {
@@ -343,7 +338,193 @@ fn recheck_rates(r: &Value, prepared: &Prepared) -> Result<(ProvedRates, usize),
         let rr = crate::rates::root_within(prepared, &g.dims, &within, &boxes);
         leaves += recheck_tree(aj, g, rr, &at)?;
     }
-    Ok(((level, rates), leaves))
+    let saturated = match r.get("saturated").filter(|v| !v.is_null()) {
+        Some(sj) => {
+            let (region, n) = recheck_saturated(sj, prepared, &sub, level, &within, &boxes)?;
+            leaves += n;
+            Some(region)
+        }
+        None => None,
+    };
+    Ok(((level, rates), saturated, leaves))
+}
+
+/// A sublevel proof's part of the box and level: coordinate, side, start, level.
+type Part = (usize, Side, f64, f64);
+
+/// One sublevel proof of a certificate section, re-checked over `root`: its coordinate (an
+/// error of V), side, start and level. Returns them and the leaves.
+fn recheck_sublevel(
+    p: &Value,
+    sub: &Compiled,
+    root: &[Interval],
+    at: &str,
+) -> Result<(Part, usize), Rejection> {
+    let bad = |what: &str| Rejection(format!("{at}: malformed ({what})"));
+    let name = p.get("coordinate").and_then(Value::as_str).unwrap_or("");
+    let k = sub
+        .names
+        .iter()
+        .position(|n| n == name)
+        .filter(|k| sub.errors.contains(k))
+        .ok_or_else(|| bad("coordinate"))?;
+    let side = p
+        .get("side")
+        .and_then(Value::as_str)
+        .and_then(Side::from_name)
+        .ok_or_else(|| bad("side"))?;
+    let from = p
+        .get("from")
+        .and_then(parse_num)
+        .filter(|f| *f >= root[k].lo() && *f <= root[k].hi())
+        .ok_or_else(|| bad("from"))?;
+    let level = p
+        .get("level")
+        .and_then(parse_num)
+        .filter(|l| l.is_finite())
+        .ok_or_else(|| bad("level"))?;
+    let g = above(sub, level);
+    let rr = sublevel_root(root, k, side, from);
+    let n = recheck_tree(p, &g, rr, at)?;
+    Ok(((k, side, from, level), n))
+}
+
+/// Re-checks the saturated law's region of attraction (see [`crate::rates::SaturatedRegion`]):
+/// V above the level on every face of the whole error box, V above the saturation-free level
+/// `free` beyond each bound of `within`, V̇ of the saturated law < 0 on the band between the
+/// two levels over the proved `rates`, and each stated error bound by a proof at the level.
+fn recheck_saturated(
+    sj: &Value,
+    prepared: &Prepared,
+    sub: &Compiled,
+    free: f64,
+    within: &[(String, f64)],
+    rates: &[(usize, (f64, f64))],
+) -> Result<(ProvedRegion, usize), Rejection> {
+    let at = "saturated law";
+    let bad = |what: &str| Rejection(format!("{at}: malformed ({what})"));
+    if field(sj, "free_level", at).ok().and_then(parse_num) != Some(free) {
+        return reject(format!(
+            "{at}: the saturation-free level is not the guidance rates' {free}"
+        ));
+    }
+    let level = field(sj, "level", at)
+        .ok()
+        .and_then(parse_num)
+        .filter(|l| *l > free && l.is_finite())
+        .ok_or_else(|| bad("level"))?;
+    let whole = crate::rates::root_within(prepared, &sub.dims, &[], &[]);
+    let mut leaves = 0;
+    let mut list = |key: &str| -> Result<Vec<Part>, Rejection> {
+        let mut out = Vec::new();
+        for (i, p) in field(sj, key, at)?
+            .as_array()
+            .ok_or_else(|| bad(key))?
+            .iter()
+            .enumerate()
+        {
+            let (part, n) = recheck_sublevel(p, sub, &whole, &format!("{at}, {key} {}", i + 1))?;
+            leaves += n;
+            out.push(part);
+        }
+        Ok(out)
+    };
+    let faces = list("faces")?;
+    let outside = list("outside")?;
+    let bound_proofs = list("bound_proofs")?;
+    // 1. the connected part of {V <= level} lies inside the whole box
+    for &k in &sub.errors {
+        for end in [whole[k].lo(), whole[k].hi()] {
+            let shown = faces
+                .iter()
+                .any(|&(j, s, f, l)| j == k && s == Side::Face && f == end && l >= level);
+            if end != 0.0 && !shown {
+                return reject(format!(
+                    "{at}: no proof that V > {level} on the face {} = {end}",
+                    sub.names[k]
+                ));
+            }
+        }
+    }
+    // 2. V > free beyond every bound of `within`
+    for (k, side, from) in crate::rates::beyond_within(prepared, sub, within) {
+        let shown = outside
+            .iter()
+            .any(|&(j, s, f, l)| j == k && s == side && f == from && l >= free);
+        if !shown {
+            return reject(format!(
+                "{at}: no proof that V > {free} where {} is beyond {from}",
+                sub.names[k]
+            ));
+        }
+    }
+    // 3. V-dot of the saturated law on the band
+    let (g, index) =
+        crate::rates::saturated_goal(prepared, free, level).map_err(|e| Rejection(e.message))?;
+    if field(sj, "constraint", at)?.as_u64() != Some(index as u64) {
+        return Err(bad("constraint"));
+    }
+    let gj = field(sj, "goal", at)?;
+    let gat = format!("{at}, dV/dt");
+    if statement(gj, &g, &gat)? != "proven" || gj.get("region") != Some(&json!(g.region_text)) {
+        return reject(format!("{gat}: not a proof of the spec's saturated dV/dt"));
+    }
+    let root = crate::rates::root_within(prepared, &g.dims, &[], rates);
+    leaves += recheck_tree(gj, &g, root, &gat)?;
+    // 4. the bounds inside {V <= level}
+    let stated = field(sj, "bounds", at)?
+        .as_array()
+        .ok_or_else(|| bad("bounds"))?;
+    if stated.len() != sub.errors.len() {
+        return Err(bad("bounds"));
+    }
+    let mut bounds = Vec::new();
+    for e in stated {
+        let (state, lower, upper) =
+            stated_bound(e, sub, prepared, &bound_proofs, &whole, level, at)?;
+        bounds.push((state, (lower, upper)));
+    }
+    Ok(((level, bounds), leaves))
+}
+
+/// A stated bound on one error inside {V ≤ level}, `{"state", "lower", "upper"}`, shown by
+/// the proofs: each end is zero at a zero end of the box (or at level zero), or a proof that
+/// V exceeds the level, at or above it, starts at or inside that end. Returns the state and
+/// the ends.
+fn stated_bound(
+    e: &Value,
+    sub: &Compiled,
+    prepared: &Prepared,
+    proved: &[Part],
+    root: &[Interval],
+    level: f64,
+    at: &str,
+) -> Result<(String, f64, f64), Rejection> {
+    let bad = || Rejection(format!("{at}: malformed (bounds)"));
+    let state = e.get("state").and_then(Value::as_str).unwrap_or("");
+    let k = sub
+        .errors
+        .iter()
+        .copied()
+        .find(|&k| prepared.problem.variables[sub.dims[k]].symbol == state)
+        .ok_or_else(bad)?;
+    let end = |key: &str| e.get(key).and_then(parse_num).ok_or_else(bad);
+    let (lower, upper) = (end("lower")?, end("upper")?);
+    let shown = |side: Side, b: f64, end: f64| {
+        ((level == 0.0 || end == 0.0) && b == 0.0)
+            || proved.iter().any(|&(j, s, f, l)| {
+                j == k
+                    && s == side
+                    && l >= level
+                    && if side == Side::Upper { f <= b } else { f >= b }
+            })
+    };
+    if !shown(Side::Upper, upper, root[k].hi()) || !shown(Side::Lower, lower, root[k].lo()) {
+        return reject(format!(
+            "{at}: the bound [{lower}, {upper}] on `{state}` is not proved at level {level}"
+        ));
+    }
+    Ok((state.to_string(), lower, upper))
 }
 
 /// A goal's statement in the certificate must be the spec's: its expression, test and
@@ -433,7 +614,7 @@ fn recheck_bound(gj: &Value, prepared: &Prepared, at: &str) -> Result<(f64, usiz
         return Err(bad("level"));
     }
     let root = prepared.sublevel_root();
-    let mut proved: Vec<(usize, Side, f64, f64)> = Vec::new();
+    let mut proved: Vec<Part> = Vec::new();
     let mut leaves = 0;
     for (i, p) in field(b, "sublevel", at)?
         .as_array()
@@ -441,33 +622,10 @@ fn recheck_bound(gj: &Value, prepared: &Prepared, at: &str) -> Result<(f64, usiz
         .iter()
         .enumerate()
     {
-        let name = p.get("coordinate").and_then(Value::as_str).unwrap_or("");
-        let k = sub
-            .names
-            .iter()
-            .position(|n| n == name)
-            .filter(|k| sub.errors.contains(k))
-            .ok_or_else(|| bad("coordinate"))?;
-        let side = p
-            .get("side")
-            .and_then(Value::as_str)
-            .and_then(Side::from_name)
-            .ok_or_else(|| bad("side"))?;
-        let from = p
-            .get("from")
-            .and_then(parse_num)
-            .ok_or_else(|| bad("from"))?;
-        let lv = p
-            .get("level")
-            .and_then(parse_num)
-            .ok_or_else(|| bad("level"))?;
-        if !root[k].contains(from) {
-            return Err(bad("from"));
-        }
-        let g = above(sub, lv);
-        let r = sublevel_root(&root, k, side, from);
-        leaves += recheck_tree(p, &g, r, &format!("{at}, sublevel proof {}", i + 1))?;
-        proved.push((k, side, from, lv));
+        let (part, n) =
+            recheck_sublevel(p, sub, &root, &format!("{at}, sublevel proof {}", i + 1))?;
+        leaves += n;
+        proved.push(part);
     }
     // every face of the error box at the attraction level
     for &k in &sub.errors {
@@ -496,34 +654,8 @@ fn recheck_bound(gj: &Value, prepared: &Prepared, at: &str) -> Result<(f64, usiz
         .as_array()
         .ok_or_else(|| bad("bounds"))?
     {
-        let state = e.get("state").and_then(Value::as_str).unwrap_or("");
-        let k = sub
-            .errors
-            .iter()
-            .copied()
-            .find(|&k| prepared.problem.variables[sub.dims[k]].symbol == state)
-            .ok_or_else(|| bad("bounds"))?;
-        let lower = e
-            .get("lower")
-            .and_then(parse_num)
-            .ok_or_else(|| bad("bounds"))?;
-        let upper = e
-            .get("upper")
-            .and_then(parse_num)
-            .ok_or_else(|| bad("bounds"))?;
-        let covered = |side: Side, b: f64, end: f64| {
-            ((level == 0.0 || end == 0.0) && b == 0.0)
-                || proved
-                    .iter()
-                    .any(|&(pk, s, f, l)| pk == k && s == side && f == b && l == level)
-        };
-        if !covered(Side::Upper, upper, root[k].hi()) || !covered(Side::Lower, lower, root[k].lo())
-        {
-            return reject(format!(
-                "{at}: the bound [{lower}, {upper}] on `{state}` is not proved at level {level}"
-            ));
-        }
-        stated.push((state.to_string(), lower.abs().max(upper.abs())));
+        let (state, lower, upper) = stated_bound(e, sub, prepared, &proved, &root, level, at)?;
+        stated.push((state, lower.abs().max(upper.abs())));
     }
     // the required bounds are the spec's, never the certificate's own list: each must be met
     // by a bound proved above
@@ -661,6 +793,12 @@ fn recheck_tree(
                 if v.to_bits() != value.to_bits() || !passes {
                     return Some(format!(
                         "leaf {li}: recorded Hessian value {value} but the box gives {v}"
+                    ));
+                }
+            } else if leaf.get("unclamped").is_some() {
+                if !c.unclamped_on(bx, s) {
+                    return Some(format!(
+                        "leaf {li}: a command may leave its limits on its box, or the box holds the claim's exempt zero"
                     ));
                 }
             } else if let Some(v) = leaf.get("below_level") {

@@ -648,6 +648,9 @@ fn rates_text(s: &mut String, rates: &Result<crate::rates::RateLimits, String>) 
             for w in &r.warnings {
                 let _ = writeln!(s, "  warning: {w}");
             }
+            if let Some(sat) = &r.saturated {
+                saturated_text(s, sat);
+            }
         }
         RatesOutcome::Refuted(actuator, cx) => {
             let point: Vec<String> = cx
@@ -667,6 +670,112 @@ fn rates_text(s: &mut String, rates: &Result<crate::rates::RateLimits, String>) 
             let _ = writeln!(s, "  undecided: {why}");
         }
     }
+}
+
+/// What the saturated law guarantees beyond the saturation-free set, as text.
+fn saturated_text(s: &mut String, sat: &Result<crate::rates::SaturatedRegion, String>) {
+    let _ = writeln!(
+        s,
+        "\nwith saturation (each command clamped to its limits, the rates within the proved ones):"
+    );
+    let r = match sat {
+        Ok(r) => r,
+        Err(why) => {
+            let _ = writeln!(s, "  not sought: {why}");
+            return;
+        }
+    };
+    if r.proof.is_none() {
+        let _ = writeln!(
+            s,
+            "  nothing proved beyond the saturation-free set {{V <= {}}} ({} proofs; the whole \
+             error box's level is {})",
+            sig(r.free),
+            r.steps,
+            sig(r.box_level)
+        );
+    } else {
+        let _ = writeln!(
+            s,
+            "  region of attraction {{V <= {}}}: dV/dt < 0 with the commands clamped wherever \
+             {} <= V <= {}, and below {} the commands are within their limits ({} proofs, {} \
+             boxes); inside it, guaranteed:",
+            sig(r.level),
+            sig(r.free),
+            sig(r.level),
+            sig(r.free),
+            r.steps,
+            r.boxes
+        );
+        for e in &r.bounds {
+            let _ = writeln!(
+                s,
+                "    Δ{} in [{}, {}] {}",
+                e.state,
+                sig(e.lower),
+                sig(e.upper),
+                e.unit
+            );
+        }
+    }
+    if let Some(u) = r.undecided {
+        let _ = writeln!(
+            s,
+            "  undecided at V = {} (the proof's box budget ran out)",
+            sig(u)
+        );
+    }
+    match &r.refuted {
+        Some((level, cx)) => {
+            let point: Vec<String> = cx
+                .coordinates
+                .iter()
+                .map(|(n, v)| format!("{n} = {}", sig(*v)))
+                .collect();
+            let _ = writeln!(
+                s,
+                "  not beyond V = {}: {} = {} at {} (every digit in --format json)",
+                sig(*level),
+                cx.quantity,
+                sig(cx.value),
+                point.join(", ")
+            );
+        }
+        None if r.undecided.is_none() && r.level >= 0.99 * r.box_level => {
+            let _ = writeln!(
+                s,
+                "  it reaches the whole error box's largest sublevel set ({})",
+                sig(r.box_level)
+            );
+        }
+        None if r.undecided.is_none() => {
+            let _ = writeln!(
+                s,
+                "  larger levels were not tried ({} proofs at most)",
+                crate::rates::SATURATED_STEPS
+            );
+        }
+        None => {}
+    }
+}
+
+/// The saturated law's region of attraction as JSON.
+fn saturated_json(sat: &Result<crate::rates::SaturatedRegion, String>) -> Value {
+    let r = match sat {
+        Ok(r) => r,
+        Err(why) => return json!({"outcome": "not sought", "reason": why}),
+    };
+    json!({
+        "outcome": if r.proof.is_some() { "proven" } else { "none beyond the saturation-free set" },
+        "free_level": r.free,
+        "box_level": r.box_level,
+        "level": r.level,
+        "bounds": r.bounds.iter().map(|e| (e.state.clone(), json!({"lower": e.lower, "upper": e.upper, "unit": e.unit}))).collect::<Map<String, Value>>(),
+        "refuted": r.refuted.as_ref().map(|(l, cx)| json!({"level": l, "point": counterexample_json(cx)})),
+        "undecided": r.undecided,
+        "steps": r.steps,
+        "boxes": r.boxes,
+    })
 }
 
 /// The guidance rates as JSON: `{"within", "level", "outcome", "rates": [{"name", "unit",
@@ -700,5 +809,6 @@ fn rates_json(rates: &Result<crate::rates::RateLimits, String>) -> Value {
         "warnings": r.warnings,
         "saturates": point,
         "reason": reason,
+        "saturated": r.saturated.as_ref().map(saturated_json),
     })
 }
