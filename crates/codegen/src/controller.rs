@@ -231,6 +231,20 @@ pub fn clamp_command(c: f64, (lo, hi): (f64, f64)) -> f64 {
     clamp(c, lo, hi)
 }
 
+/// A value held within its limits, the flag of the limit that acts set in `bits` (bit 2k at
+/// the lower, 2k + 1 at the upper): a command's, a controller state's.
+fn hold(x: f64, (lo, hi): (f64, f64), bits: &mut u32, k: usize) -> f64 {
+    if x < lo {
+        *bits |= 1 << (2 * k);
+        lo
+    } else if x > hi {
+        *bits |= 1 << (2 * k + 1);
+        hi
+    } else {
+        x
+    }
+}
+
 pub(crate) fn midpoint((lo, hi): (f64, f64)) -> f64 {
     0.5 * lo + 0.5 * hi
 }
@@ -659,14 +673,7 @@ impl Controller {
                 status |= STATUS_NONFINITE_COMMAND;
                 c = a.safe;
             }
-            if c < a.limits.0 {
-                c = a.limits.0;
-                limits |= 1 << (2 * i);
-            } else if c > a.limits.1 {
-                c = a.limits.1;
-                limits |= 1 << (2 * i + 1);
-            }
-            commands.push(c);
+            commands.push(hold(c, a.limits, &mut limits, i));
         }
         // the controller states over dt: forward Euler, held within their limits
         let mut memory_limits = 0u32;
@@ -684,14 +691,7 @@ impl Controller {
                     status |= STATUS_MEMORY_REPAIRED;
                     next = *v;
                 }
-                if next < m.limits.0 {
-                    next = m.limits.0;
-                    memory_limits |= 1 << (2 * j);
-                } else if next > m.limits.1 {
-                    next = m.limits.1;
-                    memory_limits |= 1 << (2 * j + 1);
-                }
-                *v = next;
+                *v = hold(next, m.limits, &mut memory_limits, j);
             }
         }
         ws.out = raw;

@@ -119,23 +119,11 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         hint: hint.map(str::to_string),
     };
     let dag = &mut spec.dag;
-    let mut law_map: HashMap<String, ExprId> = HashMap::new();
-    let mut laws = Vec::new();
-    for (input, law) in &spec.laws {
-        let full = dag.substitute(*law, &law_map);
-        law_map.insert(input.clone(), full);
-        laws.push((input.clone(), full));
-    }
+    let laws = substituted_laws(dag, &spec.laws);
+    let law_map: HashMap<String, ExprId> = laws.iter().cloned().collect();
     // the plant sees true values
     let true_values = true_values(dag, &spec.symbols);
-    let closed: Vec<(String, ExprId)> = spec
-        .dynamics
-        .iter()
-        .map(|(s, f)| {
-            let plant = dag.substitute(*f, &true_values);
-            (s.clone(), dag.substitute(plant, &law_map))
-        })
-        .collect();
+    let closed = closed_loop(dag, &spec.dynamics, &true_values, &law_map);
     // each controller state moves by its update law, the laws substituted
     let updates: Vec<(String, ExprId)> = spec
         .updates
@@ -143,54 +131,8 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
         .map(|(m, u)| (m.clone(), dag.substitute(*u, &law_map)))
         .collect();
     let v = spec.candidate;
-    let mut terms = Vec::new();
-    for name in dag.symbols(v) {
-        let Some(sym) = spec.symbols.iter().find(|s| s.name == name) else {
-            continue;
-        };
-        let rate = match &sym.decl {
-            Decl::State { .. } => closed
-                .iter()
-                .find(|(s, _)| *s == name)
-                .map(|(_, f)| *f)
-                .ok_or_else(|| {
-                    error(
-                        "state-without-dynamics",
-                        format!("state `{name}` has no dynamics"),
-                        None,
-                    )
-                })?,
-            Decl::Reference { rate, .. }
-            | Decl::Rate {
-                rate: Some(rate), ..
-            } => dag.sym(rate),
-            Decl::Memory { .. } => updates
-                .iter()
-                .find(|(m, _)| *m == name)
-                .map(|(_, u)| *u)
-                .ok_or_else(|| {
-                    error(
-                        "memory-without-update",
-                        format!("controller state `{name}` has no update law"),
-                        None,
-                    )
-                })?,
-            Decl::Parameter { .. } | Decl::Gain { .. } | Decl::Unknown { .. } => continue,
-            _ => {
-                return Err(error(
-                    "no-rate",
-                    format!(
-                    "the candidate depends on `{name}`, a {} whose rate of change is not declared",
-                    sym.kind().name()
-                ),
-                    None,
-                ))
-            }
-        };
-        let dv = derivative(dag, v, &name);
-        terms.push(dag.mul(vec![dv, rate]));
-    }
-    let vdot = dag.add(terms);
+    let vdot = vdot_along(dag, &spec.symbols, v, &closed, &updates)
+        .map_err(|(class, message)| error(class, message, None))?;
     let actuators: Vec<(String, ExprId)> = spec
         .actuators
         .iter()
@@ -261,11 +203,7 @@ pub fn derive_with(spec: &mut Spec, oracle: &mut dyn Oracle) -> Result<Derivatio
 /// command is not its input plus terms of no input, or two actuators of one input).
 pub fn saturated_vdot(spec: &mut Spec) -> Result<ExprId, String> {
     let dag = &mut spec.dag;
-    let mut law_map: HashMap<String, ExprId> = HashMap::new();
-    for (input, law) in &spec.laws {
-        let full = dag.substitute(*law, &law_map);
-        law_map.insert(input.clone(), full);
-    }
+    let law_map: HashMap<String, ExprId> = substituted_laws(dag, &spec.laws).into_iter().collect();
     let inputs: Vec<String> = spec.laws.iter().map(|(n, _)| n.clone()).collect();
     let mut sat_map = law_map.clone();
     let mut covered: Vec<String> = Vec::new();
@@ -303,40 +241,91 @@ pub fn saturated_vdot(spec: &mut Spec) -> Result<ExprId, String> {
         sat_map.insert(input.clone(), sat);
     }
     let true_values = true_values(dag, &spec.symbols);
-    let v = spec.candidate;
+    let closed = closed_loop(dag, &spec.dynamics, &true_values, &sat_map);
+    let updates: Vec<(String, ExprId)> = spec
+        .updates
+        .iter()
+        .map(|(m, u)| (m.clone(), dag.substitute(*u, &law_map)))
+        .collect();
+    vdot_along(dag, &spec.symbols, spec.candidate, &closed, &updates).map_err(|(_, m)| m)
+}
+
+/// The laws in order, each with the laws before it substituted.
+fn substituted_laws(dag: &mut Dag, laws: &[(String, ExprId)]) -> Vec<(String, ExprId)> {
+    let mut map: HashMap<String, ExprId> = HashMap::new();
+    let mut out = Vec::new();
+    for (input, law) in laws {
+        let full = dag.substitute(*law, &map);
+        map.insert(input.clone(), full);
+        out.push((input.clone(), full));
+    }
+    out
+}
+
+/// Each state's dynamics with the true values and then the inputs substituted.
+fn closed_loop(
+    dag: &mut Dag,
+    dynamics: &[(String, ExprId)],
+    true_values: &HashMap<String, ExprId>,
+    inputs: &HashMap<String, ExprId>,
+) -> Vec<(String, ExprId)> {
+    dynamics
+        .iter()
+        .map(|(s, f)| {
+            let plant = dag.substitute(*f, true_values);
+            (s.clone(), dag.substitute(plant, inputs))
+        })
+        .collect()
+}
+
+/// V̇ = Σ ∂V/∂s·ṡ over the symbols V depends on: a state's rate from `closed`, a reference's
+/// (or a rate's) its declared rate, a controller state's its update law; parameters, gains
+/// and unknowns are constant. Not simplified. An error is (class, message).
+fn vdot_along(
+    dag: &mut Dag,
+    symbols: &[Symbol],
+    v: ExprId,
+    closed: &[(String, ExprId)],
+    updates: &[(String, ExprId)],
+) -> Result<ExprId, (&'static str, String)> {
     let mut terms = Vec::new();
     for name in dag.symbols(v) {
-        let Some(sym) = spec.symbols.iter().find(|s| s.name == name) else {
+        let Some(sym) = symbols.iter().find(|s| s.name == name) else {
             continue;
         };
         let rate = match &sym.decl {
-            Decl::State { .. } => {
-                let (_, f) = spec
-                    .dynamics
-                    .iter()
-                    .find(|(s, _)| *s == name)
-                    .ok_or_else(|| format!("state `{name}` has no dynamics"))?;
-                let plant = dag.substitute(*f, &true_values);
-                dag.substitute(plant, &sat_map)
-            }
+            Decl::State { .. } => closed
+                .iter()
+                .find(|(s, _)| *s == name)
+                .map(|(_, f)| *f)
+                .ok_or_else(|| {
+                    (
+                        "state-without-dynamics",
+                        format!("state `{name}` has no dynamics"),
+                    )
+                })?,
             Decl::Reference { rate, .. }
             | Decl::Rate {
                 rate: Some(rate), ..
             } => dag.sym(rate),
-            Decl::Memory { .. } => {
-                let (_, u) = spec
-                    .updates
-                    .iter()
-                    .find(|(m, _)| *m == name)
-                    .ok_or_else(|| format!("controller state `{name}` has no update law"))?;
-                dag.substitute(*u, &law_map)
-            }
+            Decl::Memory { .. } => updates
+                .iter()
+                .find(|(m, _)| *m == name)
+                .map(|(_, u)| *u)
+                .ok_or_else(|| {
+                    (
+                        "memory-without-update",
+                        format!("controller state `{name}` has no update law"),
+                    )
+                })?,
             Decl::Parameter { .. } | Decl::Gain { .. } | Decl::Unknown { .. } => continue,
-            _ => {
-                return Err(format!(
-                    "the candidate depends on `{name}`, whose rate is not declared"
-                ))
-            }
+            _ => return Err((
+                "no-rate",
+                format!(
+                    "the candidate depends on `{name}`, a {} whose rate of change is not declared",
+                    sym.kind().name()
+                ),
+            )),
         };
         let dv = derivative(dag, v, &name);
         terms.push(dag.mul(vec![dv, rate]));

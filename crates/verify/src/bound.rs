@@ -148,6 +148,26 @@ pub struct BoundReport {
     pub outcome: BoundOutcome,
 }
 
+/// The sublevel goal `V > level` over the candidate's coordinates (`V ≥ 0` until [`above`]
+/// sets its level), compiled on a problem.
+pub(crate) fn sublevel_goal(
+    problem: &mut Problem,
+    candidate: lawsmith_expr::ExprId,
+) -> Result<Compiled, crate::check::CheckError> {
+    let goal = crate::goal::Goal {
+        label: "V > level".into(),
+        expr: candidate,
+        test: Test::Within {
+            lo: 0.0,
+            hi: f64::INFINITY,
+        },
+        origin: false,
+        exempt: None,
+        region: None,
+    };
+    Compiled::new(problem, goal).map_err(crate::check::CheckError::new)
+}
+
 /// The goal `V > level` over part of the domain: a copy of the sublevel goal with the test set.
 pub(crate) fn above(sub: &Compiled, level: f64) -> Compiled {
     let mut g = sub.clone();

@@ -99,19 +99,8 @@ impl Plan {
         let Some((candidate, required)) = &self.level else {
             return Ok(Strategy::Direct);
         };
-        let above = Goal {
-            label: "V > c".into(),
-            expr: *candidate,
-            test: Test::Within {
-                lo: 0.0,
-                hi: f64::INFINITY,
-            },
-            origin: false,
-            exempt: None,
-            region: None,
-        };
         Ok(Strategy::Level {
-            sublevel: Box::new(Compiled::new(problem, above).map_err(CheckError::new)?),
+            sublevel: Box::new(crate::bound::sublevel_goal(problem, *candidate)?),
             required: required.clone(),
         })
     }

@@ -392,26 +392,7 @@ pub(crate) fn proved_rate_box(prepared: &Prepared, r: &RateLimits) -> Vec<(usize
 /// The sublevel goal `V > level` over V's coordinates.
 pub(crate) fn sublevel_goal(prepared: &mut Prepared) -> Result<Compiled, CheckError> {
     let candidate = prepared.forms.candidate;
-    sublevel_goal_on(&mut prepared.problem, candidate)
-}
-
-/// [`sublevel_goal`] compiled on a problem (a copy, for a re-check).
-pub(crate) fn sublevel_goal_on(
-    problem: &mut crate::problem::Problem,
-    candidate: lawsmith_expr::ExprId,
-) -> Result<Compiled, CheckError> {
-    let goal = Goal {
-        label: "V > level".into(),
-        expr: candidate,
-        test: Test::Within {
-            lo: 0.0,
-            hi: f64::INFINITY,
-        },
-        origin: false,
-        exempt: None,
-        region: None,
-    };
-    Compiled::new(problem, goal).map_err(CheckError::new)
+    bound::sublevel_goal(&mut prepared.problem, candidate)
 }
 
 /// The root box of a goal's coordinates with each state's error cut to its bound in `within`

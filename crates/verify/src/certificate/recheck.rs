@@ -251,7 +251,7 @@ fn recheck_rates(
         .filter(|l| *l > 0.0 && l.is_finite())
         .ok_or_else(|| bad("level"))?;
     let mut problem = prepared.problem.clone();
-    let sub = crate::rates::sublevel_goal_on(&mut problem, prepared.forms.candidate)
+    let sub = crate::bound::sublevel_goal(&mut problem, prepared.forms.candidate)
         .map_err(|e| Rejection(e.message))?;
     let cand = field(r, "candidate", at)?;
     if cand.get("expr").and_then(Value::as_str) != Some(sub.text.as_str())
