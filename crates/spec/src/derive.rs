@@ -319,13 +319,15 @@ fn vdot_along(
                     )
                 })?,
             Decl::Parameter { .. } | Decl::Gain { .. } | Decl::Unknown { .. } => continue,
-            _ => return Err((
-                "no-rate",
-                format!(
+            _ => {
+                return Err((
+                    "no-rate",
+                    format!(
                     "the candidate depends on `{name}`, a {} whose rate of change is not declared",
                     sym.kind().name()
                 ),
-            )),
+                ))
+            }
         };
         let dv = derivative(dag, v, &name);
         terms.push(dag.mul(vec![dv, rate]));
