@@ -457,12 +457,8 @@ class Check:
         if [a.get("actuator") for a in acts] != list(self.m.actuators):
             raise Reject("the certificate's actuators are not the spec's, in its order")
         for aj in acts:
-            e, lo, hi = self.m.actuators[aj["actuator"]]
-            g = self.goal(aj, f"actuator `{aj['actuator']}`", "actuator")
-            if (t := g.test)[0] != "within" or g.origin or not (model.R(t[1]) >= lo and model.R(t[2]) <= hi):
-                raise Reject(f"{g.at}: its test is not within the declared limits [{lo}, {hi}]")
-            if not same(g.expr, self.m.to_proof(e)):
-                raise Reject(f"{g.at}: its expression is not the spec's command")
+            g = self.command_goal(aj, f"actuator `{aj['actuator']}`", "actuator")
+            _, lo, hi = self.m.actuators[aj["actuator"]]
             self.evidence(g)
             if g.status == "refuted":
                 f = g.value([(num(x), num(x)) for x in aj["counterexample"]["point"]])
@@ -470,6 +466,17 @@ class Check:
                     raise Reject(f"{g.at}: the recorded point is not outside the limits")
         words = {"proven": "saturation-free", "refuted": "saturates", "inconclusive": "undecided"}
         return [f"{a['actuator']} {words.get(a['status'], 'not checked')}" for a in acts]
+
+    def command_goal(self, aj, at, kind):
+        """An actuator's goal: the spec's command (R3's identity), its test `within` ends
+        inside the declared limits, not exempt at zero error."""
+        e, lo, hi = self.m.actuators[aj["actuator"]]
+        g = self.goal(aj, at, kind)
+        if (t := g.test)[0] != "within" or g.origin or not (model.R(t[1]) >= lo and model.R(t[2]) <= hi):
+            raise Reject(f"{g.at}: its test is not within the declared limits [{lo}, {hi}]")
+        if not same(g.expr, self.m.to_proof(e)):
+            raise Reject(f"{g.at}: its expression is not the spec's command")
+        return g
 
     def own_conditions(self):
         """R4's conditions in proof coordinates, once each: (kind, u, source)."""
@@ -763,14 +770,10 @@ class Check:
             if [a.get("actuator") for a in acts] != list(self.m.actuators):
                 raise Reject(f"{at}: the actuators are not the spec's, in its order")
             for aj in acts:
-                e, lo, hi = self.m.actuators[aj["actuator"]]
-                g = self.goal(aj, f"{at}, actuator `{aj['actuator']}`", "rates")
-                t = g.test
-                if t[0] != "within" or g.origin or not (model.R(t[1]) >= lo and model.R(t[2]) <= hi):
-                    raise Reject(f"{g.at}: its test is not within the declared limits")
-                if not same(g.expr, self.m.to_proof(e)) or g.status != "proven":
+                g = self.command_goal(aj, f"{at}, actuator `{aj['actuator']}`", "rates")
+                if g.status != "proven":
                     raise Reject(f"{g.at}: not a proof of the spec's command")
-                self.tree(aj, g, [cut(n, proved) for n in g.dims], t, g.at)
+                self.tree(aj, g, [cut(n, proved) for n in g.dims], g.test, g.at)
         finally:
             self.m.constraints.pop()
         if r.get("saturated") is not None:
