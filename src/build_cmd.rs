@@ -2,11 +2,11 @@
 //! the example scenarios into `report/` with a `report/index.md`, print a summary table.
 
 use crate::certcheck_run;
-use crate::emit_cmd::{emit_one, generated_dir, specs_in, status_of, write_files};
+use crate::emit_cmd::{emit_one, generated_dir, specs_in, status_of, write_files, BOTH};
 use crate::progress::Progress;
 use crate::sim_cmd::{bound_table, fly_all, load_setup, write_run};
 use crate::{print_json, write_atomic, ReportFormat, EXIT_INVALID};
-use lawsmith_codegen::{Float, Lang};
+use lawsmith_codegen::Lang;
 use lawsmith_verify::Settings;
 use lawsmith_verify::{BoundReport, Verdict};
 use serde_json::{json, Value};
@@ -57,7 +57,7 @@ pub fn build_cmd(
             .unwrap_or_default()
             .to_string_lossy()
             .to_string();
-        match emit_one(spec, settings, Lang::All, Float::F64, false, &progress) {
+        match emit_one(spec, settings, Lang::All, &BOTH, false, &progress) {
             Err(c) => {
                 code = code.max(c);
                 json_specs.push(json!({ "spec": name, "status": status_of(c) }));
@@ -90,7 +90,8 @@ pub fn build_cmd(
                 // written only once every spec is proved and generated, so an interrupted
                 // build leaves the previous generated/ as it was
                 let dir = generated_dir(generated, spec);
-                let written = format!("{}/ ({} files)", dir.display(), e.files.len());
+                let files = &e.files;
+                let written = format!("{}/ ({} files)", dir.display(), files.len());
                 json_specs.push(json!({
                     "spec": name,
                     "status": "generated",
@@ -101,7 +102,7 @@ pub fn build_cmd(
                     "worst_sampled_margin": e.report.min_margin,
                     "ops_per_step": e.controller.op_count(),
                     "generated": dir.display().to_string(),
-                    "files": e.files.iter().map(|(n, _)| n.as_str()).collect::<Vec<_>>(),
+                    "files": files.iter().map(|(n, _)| n.as_str()).collect::<Vec<_>>(),
                     "saturation": e.report.saturation.iter().map(|a| json!({
                         "actuator": a.actuator, "verdict": a.verdict(), "share": a.share,
                     })).collect::<Vec<_>>(),

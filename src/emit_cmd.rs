@@ -19,7 +19,32 @@ pub struct Emitted {
     /// The proof certificate (JSON text), as `check --certificate` writes it.
     pub certificate: String,
     pub controller: Controller,
+    /// Each file's path relative to the output directory, and its text.
     pub files: Vec<(String, String)>,
+}
+
+/// What `build` writes and `emit --check` compares for a spec (and `emit` writes by default):
+/// the code in double precision, and in single precision under `f32/`.
+pub const BOTH: [(Float, &str); 2] = [(Float::F64, ""), (Float::F32, "f32/")];
+
+/// The files under a generated directory, as relative paths (`f32/NAME.c`), sorted.
+pub fn files_under(dir: &Path) -> Vec<(String, PathBuf)> {
+    let mut v = Vec::new();
+    let Ok(rd) = std::fs::read_dir(dir) else {
+        return v;
+    };
+    for e in rd.flatten() {
+        let n = e.file_name().to_string_lossy().to_string();
+        if e.path().is_dir() {
+            for (m, p) in files_under(&e.path()) {
+                v.push((format!("{n}/{m}"), p));
+            }
+        } else {
+            v.push((n, e.path()));
+        }
+    }
+    v.sort();
+    v
 }
 
 /// The spec path as the header names it: relative to the working directory when it lies
@@ -36,12 +61,13 @@ fn display_path(path: &Path) -> String {
         .replace('\\', "/")
 }
 
-/// Proves a spec and generates its files; errors are printed and mapped to exit codes.
+/// Proves a spec and generates its files, in each float type of `floats` with its
+/// subdirectory (`""`, `"f32/"`); errors are printed and mapped to exit codes.
 pub fn emit_one(
     path: &Path,
     settings: &Settings,
     lang: Lang,
-    float: Float,
+    floats: &[(Float, &str)],
     allow_unproven: bool,
     progress: &Progress,
 ) -> Result<Emitted, u8> {
@@ -112,10 +138,14 @@ pub fn emit_one(
             &sha256_hex(certificate.as_bytes()),
         ),
     };
-    let files = generate(&controller, &prov, lang, float).map_err(|e| {
-        eprintln!("error[emit]: {}: {e}", path.display());
-        EXIT_INVALID
-    })?;
+    let mut files = Vec::new();
+    for (float, sub) in floats {
+        let f = generate(&controller, &prov, lang, *float).map_err(|e| {
+            eprintln!("error[emit]: {}: {e}", path.display());
+            EXIT_INVALID
+        })?;
+        files.extend(f.into_iter().map(|(n, t)| (format!("{sub}{n}"), t)));
+    }
     Ok(Emitted {
         report,
         certificate,
@@ -150,10 +180,11 @@ pub fn write_files(dir: &Path, files: &[(String, String)]) -> Result<Vec<PathBuf
             format!("error[io]: cannot write {}: {e}", what.display()),
         )
     };
-    std::fs::create_dir_all(dir).map_err(|e| io(e, dir))?;
     let mut written = Vec::new();
     for (name, text) in files {
         let p = dir.join(name);
+        let parent = p.parent().unwrap_or(dir);
+        std::fs::create_dir_all(parent).map_err(|e| io(e, parent))?;
         write_atomic(&p, text.as_bytes()).map_err(|e| io(e, &p))?;
         written.push(p);
     }
@@ -163,7 +194,7 @@ pub fn write_files(dir: &Path, files: &[(String, String)]) -> Result<Vec<PathBuf
 pub fn emit_cmd(
     specs: &[PathBuf],
     lang: Lang,
-    float: Float,
+    floats: &[(Float, &str)],
     out: &Path,
     allow_unproven: bool,
     settings: &Settings,
@@ -174,7 +205,7 @@ pub fn emit_cmd(
     let mut json_out = Vec::new();
     for path in specs {
         let spec = path.display().to_string();
-        match emit_one(path, settings, lang, float, allow_unproven, &progress) {
+        match emit_one(path, settings, lang, floats, allow_unproven, &progress) {
             Err(c) => {
                 code = code.max(c);
                 json_out.push(json!({ "spec": spec, "status": status_of(c) }));
@@ -268,7 +299,7 @@ pub fn check_cmd(
     let mut differences = Vec::new();
     let mut failed = Vec::new();
     for spec in &specs {
-        let e = match emit_one(spec, settings, Lang::All, Float::F64, false, &progress) {
+        let e = match emit_one(spec, settings, Lang::All, &BOTH, false, &progress) {
             Ok(e) => e,
             Err(c) => {
                 code = code.max(c);
@@ -277,7 +308,8 @@ pub fn check_cmd(
             }
         };
         let dir = generated_dir(generated, spec);
-        for (name, want) in &e.files {
+        let files = &e.files;
+        for (name, want) in files {
             let p = dir.join(name);
             let have = std::fs::read_to_string(&p).unwrap_or_default();
             if have != *want {
@@ -298,24 +330,20 @@ pub fn check_cmd(
                 }
             }
         }
-        let expected: Vec<&str> = e.files.iter().map(|(n, _)| n.as_str()).collect();
-        if let Ok(rd) = std::fs::read_dir(&dir) {
-            for f in rd.flatten() {
-                let n = f.file_name().to_string_lossy().to_string();
-                if !expected.contains(&n.as_str()) {
-                    stale += 1;
-                    if json {
-                        differences.push(json!({
-                            "file": f.path().display().to_string(),
-                            "not_generated_from": spec.display().to_string(),
-                        }));
-                    } else {
-                        println!(
-                            "{}: not generated from {} any more",
-                            f.path().display(),
-                            spec.display()
-                        );
-                    }
+        for (n, path) in files_under(&dir) {
+            if !files.iter().any(|(m, _)| *m == n) {
+                stale += 1;
+                if json {
+                    differences.push(json!({
+                        "file": path.display().to_string(),
+                        "not_generated_from": spec.display().to_string(),
+                    }));
+                } else {
+                    println!(
+                        "{}: not generated from {} any more",
+                        path.display(),
+                        spec.display()
+                    );
                 }
             }
         }

@@ -129,8 +129,9 @@ enum Command {
         /// Directory to write into.
         #[arg(long, value_name = "DIR", required_unless_present = "check")]
         out: Option<PathBuf>,
-        /// Floating-point type of the generated code.
-        #[arg(long, value_enum, default_value_t = FloatArg::F64)]
+        /// Floating-point type of the generated code: both (double precision in --out, single
+        /// precision in --out/f32), or one of them in --out.
+        #[arg(long, value_enum, default_value_t = FloatArg::Both)]
         float: FloatArg,
         /// Emit a law that is not proven, its header saying so in capitals.
         #[arg(long)]
@@ -289,6 +290,7 @@ enum LangArg {
 enum FloatArg {
     F32,
     F64,
+    Both,
 }
 
 #[derive(Copy, Clone, PartialEq, Eq, ValueEnum)]
@@ -450,15 +452,24 @@ fn dispatch(command: Command) -> ExitCode {
                 LangArg::C => lawsmith_codegen::Lang::C,
                 LangArg::All => lawsmith_codegen::Lang::All,
             };
-            let float = match float {
-                FloatArg::F32 => lawsmith_codegen::Float::F32,
-                FloatArg::F64 => lawsmith_codegen::Float::F64,
+            let floats: &[(lawsmith_codegen::Float, &str)] = match float {
+                FloatArg::F32 => &[(lawsmith_codegen::Float::F32, "")],
+                FloatArg::F64 => &[(lawsmith_codegen::Float::F64, "")],
+                FloatArg::Both => &emit_cmd::BOTH,
             };
             let out = out.expect("clap requires --out without --check");
             if let Err(c) = out_dir_allowed(&out, force) {
                 return ExitCode::from(c);
             }
-            emit_cmd::emit_cmd(&specs, lang, float, &out, allow_unproven, &settings, format)
+            emit_cmd::emit_cmd(
+                &specs,
+                lang,
+                floats,
+                &out,
+                allow_unproven,
+                &settings,
+                format,
+            )
         }
         Command::Build {
             specs_dir,

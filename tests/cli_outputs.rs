@@ -582,15 +582,20 @@ fn an_interrupted_build_leaves_generated_as_it_was() {
     let edited = dir.join("specs/energy_longitudinal.yaml");
     let text = std::fs::read_to_string(&edited).unwrap();
     std::fs::write(&edited, format!("# edited\n{text}")).unwrap();
-    let snapshot = |d: &Path| -> Vec<(PathBuf, Vec<u8>)> {
-        let mut v = Vec::new();
+    // every file under generated/ (each spec's directory and its f32/)
+    fn files(d: &Path, v: &mut Vec<(PathBuf, Vec<u8>)>) {
         for e in std::fs::read_dir(d).unwrap() {
             let p = e.unwrap().path();
-            for f in std::fs::read_dir(&p).unwrap() {
-                let f = f.unwrap().path();
-                v.push((f.clone(), std::fs::read(&f).unwrap()));
+            if p.is_dir() {
+                files(&p, v);
+            } else {
+                v.push((p.clone(), std::fs::read(&p).unwrap()));
             }
         }
+    }
+    let snapshot = |d: &Path| -> Vec<(PathBuf, Vec<u8>)> {
+        let mut v = Vec::new();
+        files(d, &mut v);
         v.sort();
         v
     };

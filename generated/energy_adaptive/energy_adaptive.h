@@ -4,6 +4,9 @@
  * C99 header for the control law of specs/energy_adaptive.yaml.
  * spec SHA-256: 49848b3dc15eddbb5efcf3865e94efa63d17d72be17af1fcb70b6d8b89860f9b
  * lawsmith version: 0.1.0
+ * arithmetic: IEEE 754 double precision (binary64), each operation rounded once, as `lawsmith sim`
+ * interprets it: build with -ffp-contract=off (gcc's default in its ISO modes such as
+ * -std=c99, not in its GNU modes), so that no multiply-add is fused.
  * proof: PROVEN (negative_definite_in(h, va)) over the declared envelope by `lawsmith check`.
  * proof evidence: 4061 boxes of branch and bound; certificate SHA-256: fe6363a4f22a26137125e4d136d4fd476b79baa4ce8f5c114a4d9de82eac10ae
  * (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)

@@ -4,6 +4,9 @@
  * C99 header for the control law of specs/energy_integral.yaml.
  * spec SHA-256: 82e52fa887e4f5fbe595c73ab4de6a3daa6da922e50ccc88880480a7b8c657a7
  * lawsmith version: 0.1.0
+ * arithmetic: IEEE 754 double precision (binary64), each operation rounded once, as `lawsmith sim`
+ * interprets it: build with -ffp-contract=off (gcc's default in its ISO modes such as
+ * -std=c99, not in its GNU modes), so that no multiply-add is fused.
  * proof: PROVEN (negative_definite_in(h, va)) over the declared envelope by `lawsmith check`.
  * proof evidence: 3945 boxes of branch and bound; certificate SHA-256: 28c91802ef9ed00cc73efb53f66dd24ccd4b52883ed25f8fda40525aedb01e40
  * (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)

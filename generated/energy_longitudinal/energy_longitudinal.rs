@@ -3,6 +3,8 @@
 // Rust (no_std-friendly: core and the `libm` crate) for the control law of specs/energy_longitudinal.yaml.
 // spec SHA-256: 12c48108a0ceb08afffbb7aa392456def758b9ea35b65522ae78997419c466e3
 // lawsmith version: 0.1.0
+// arithmetic: IEEE 754 double precision (binary64), each operation rounded once, as `lawsmith sim`
+// interprets it.
 // proof: PROVEN (negative_definite) over the declared envelope by `lawsmith check`.
 // proof evidence: 1207 boxes of branch and bound; certificate SHA-256: 7c175d7f0e855fa508aee536b68185470b3c0b43dcf79784c79b3182be73e9e8
 // (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)

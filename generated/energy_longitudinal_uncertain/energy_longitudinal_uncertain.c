@@ -4,6 +4,9 @@
  * C99 source for the control law of specs/energy_longitudinal_uncertain.yaml.
  * spec SHA-256: b04bb390527e66447048ffe2a9ef6b352b78a7340025b827c24ee269d796dcec
  * lawsmith version: 0.1.0
+ * arithmetic: IEEE 754 double precision (binary64), each operation rounded once, as `lawsmith sim`
+ * interprets it: build with -ffp-contract=off (gcc's default in its ISO modes such as
+ * -std=c99, not in its GNU modes), so that no multiply-add is fused.
  * proof: PROVEN (ultimate_bound: once V <= 74501, |h error| <= 3.713 m, |va error| <= 2.664 m/s (errors bounded, not driven to zero)) over the declared envelope by `lawsmith check`.
  * proof evidence: 20451 boxes of branch and bound; certificate SHA-256: f13cc268a94806c01c357613ded1934a603c4d596172f55b964ea415184fb6ae
  * (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
@@ -17,10 +20,15 @@
  */
 #include "energy_longitudinal_uncertain.h"
 
+#include <float.h>
 #include <math.h>
 
 #if defined(__FAST_MATH__)
 #error "build without -ffast-math or -Ofast: the NaN and envelope guards of this law need IEEE 754 semantics"
+#endif
+
+#if defined(FLT_EVAL_METHOD) && (FLT_EVAL_METHOD != 0)
+#error "this law must be computed in its own type (FLT_EVAL_METHOD 0, e.g. SSE2 or a single-precision FPU), one rounding per operation"
 #endif
 
 static inline double energy_longitudinal_uncertain_clamp(double x, double lo, double hi)

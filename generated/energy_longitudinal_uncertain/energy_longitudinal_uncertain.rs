@@ -3,6 +3,8 @@
 // Rust (no_std-friendly: core and the `libm` crate) for the control law of specs/energy_longitudinal_uncertain.yaml.
 // spec SHA-256: b04bb390527e66447048ffe2a9ef6b352b78a7340025b827c24ee269d796dcec
 // lawsmith version: 0.1.0
+// arithmetic: IEEE 754 double precision (binary64), each operation rounded once, as `lawsmith sim`
+// interprets it.
 // proof: PROVEN (ultimate_bound: once V <= 74501, |h error| <= 3.713 m, |va error| <= 2.664 m/s (errors bounded, not driven to zero)) over the declared envelope by `lawsmith check`.
 // proof evidence: 20451 boxes of branch and bound; certificate SHA-256: f13cc268a94806c01c357613ded1934a603c4d596172f55b964ea415184fb6ae
 // (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)

@@ -4,6 +4,9 @@
  * C99 source for the control law of specs/energy_pitch.yaml.
  * spec SHA-256: 42cd1e7bfbb460ab31463ca9b54148b1bcd74fd9bfd483751ca4f8d78fd77800
  * lawsmith version: 0.1.0
+ * arithmetic: IEEE 754 double precision (binary64), each operation rounded once, as `lawsmith sim`
+ * interprets it: build with -ffp-contract=off (gcc's default in its ISO modes such as
+ * -std=c99, not in its GNU modes), so that no multiply-add is fused.
  * proof: PROVEN (negative_definite) over the declared envelope by `lawsmith check`.
  * proof evidence: 1033 boxes of branch and bound; certificate SHA-256: bcf74fb4854e7afcaaf70ad512625685f8fd81b425dd882579ce7b6a70fd3bfd
  * (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
@@ -17,10 +20,15 @@
  */
 #include "energy_pitch.h"
 
+#include <float.h>
 #include <math.h>
 
 #if defined(__FAST_MATH__)
 #error "build without -ffast-math or -Ofast: the NaN and envelope guards of this law need IEEE 754 semantics"
+#endif
+
+#if defined(FLT_EVAL_METHOD) && (FLT_EVAL_METHOD != 0)
+#error "this law must be computed in its own type (FLT_EVAL_METHOD 0, e.g. SSE2 or a single-precision FPU), one rounding per operation"
 #endif
 
 static inline double energy_pitch_clamp(double x, double lo, double hi)

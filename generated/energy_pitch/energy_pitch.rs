@@ -3,6 +3,8 @@
 // Rust (no_std-friendly: core and the `libm` crate) for the control law of specs/energy_pitch.yaml.
 // spec SHA-256: 42cd1e7bfbb460ab31463ca9b54148b1bcd74fd9bfd483751ca4f8d78fd77800
 // lawsmith version: 0.1.0
+// arithmetic: IEEE 754 double precision (binary64), each operation rounded once, as `lawsmith sim`
+// interprets it.
 // proof: PROVEN (negative_definite) over the declared envelope by `lawsmith check`.
 // proof evidence: 1033 boxes of branch and bound; certificate SHA-256: bcf74fb4854e7afcaaf70ad512625685f8fd81b425dd882579ce7b6a70fd3bfd
 // (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)

@@ -4,6 +4,9 @@
  * C99 source for the control law of specs/pendulum_damping.yaml.
  * spec SHA-256: c3aab3edd1b1160400e102a06721b2cc9249e32df348c7a0f6efbc8c9b3b50b9
  * lawsmith version: 0.1.0
+ * arithmetic: IEEE 754 double precision (binary64), each operation rounded once, as `lawsmith sim`
+ * interprets it: build with -ffp-contract=off (gcc's default in its ISO modes such as
+ * -std=c99, not in its GNU modes), so that no multiply-add is fused.
  * proof: PROVEN (negative_semidefinite) over the declared envelope by `lawsmith check`.
  * proof evidence: 3 boxes of branch and bound; certificate SHA-256: df314a94a763e3c0ae161bc43a48ae94e90670ef4b499c0901bb7cf2b010c7ff
  * (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
@@ -17,10 +20,15 @@
  */
 #include "pendulum_damping.h"
 
+#include <float.h>
 #include <math.h>
 
 #if defined(__FAST_MATH__)
 #error "build without -ffast-math or -Ofast: the NaN and envelope guards of this law need IEEE 754 semantics"
+#endif
+
+#if defined(FLT_EVAL_METHOD) && (FLT_EVAL_METHOD != 0)
+#error "this law must be computed in its own type (FLT_EVAL_METHOD 0, e.g. SSE2 or a single-precision FPU), one rounding per operation"
 #endif
 
 static inline double pendulum_damping_clamp(double x, double lo, double hi)

@@ -4,6 +4,9 @@
  * C99 header for the control law of specs/pendulum_damping.yaml.
  * spec SHA-256: c3aab3edd1b1160400e102a06721b2cc9249e32df348c7a0f6efbc8c9b3b50b9
  * lawsmith version: 0.1.0
+ * arithmetic: IEEE 754 double precision (binary64), each operation rounded once, as `lawsmith sim`
+ * interprets it: build with -ffp-contract=off (gcc's default in its ISO modes such as
+ * -std=c99, not in its GNU modes), so that no multiply-add is fused.
  * proof: PROVEN (negative_semidefinite) over the declared envelope by `lawsmith check`.
  * proof evidence: 3 boxes of branch and bound; certificate SHA-256: df314a94a763e3c0ae161bc43a48ae94e90670ef4b499c0901bb7cf2b010c7ff
  * (`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)

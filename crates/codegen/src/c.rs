@@ -95,12 +95,10 @@ impl Emit {
                     let f = crate::with_float("pow", self.float);
                     format!("{f}({}, {})", name(*a), name(*b))
                 }
-                Op::Clamp(a, lo, hi) => format!(
-                    "{prefix}_clamp({}, {}, {})",
-                    name(*a),
-                    self.lit(*lo),
-                    self.lit(*hi)
-                ),
+                Op::Clamp(a, lo, hi) => {
+                    let (lo, hi) = self.ends((*lo, *hi));
+                    format!("{prefix}_clamp({}, {lo}, {hi})", name(*a))
+                }
                 Op::Select(c, a, b) => format!(
                     "({} >= {}) ? {} : {}",
                     name(*c),
@@ -115,9 +113,9 @@ impl Emit {
     }
 }
 
-fn comment_block(prov: &Provenance, what: &str) -> String {
+fn comment_block(prov: &Provenance, what: &str, float: Float) -> String {
     let mut s = String::from("/*\n");
-    for l in prov.lines(what) {
+    for l in prov.lines(what, float) {
         if l.is_empty() {
             s.push_str(" *\n");
         } else {
@@ -137,7 +135,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     let inputs = c.input_names();
 
     // ---- header ----
-    let mut h = comment_block(prov, "C99 header");
+    let mut h = comment_block(prov, "C99 header", float);
     let guard = format!("{up}_H");
     let _ = writeln!(
         h,
@@ -272,10 +270,16 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
     let _ = writeln!(h, "#ifdef __cplusplus\n}}\n#endif\n\n#endif /* {guard} */");
 
     // ---- source ----
-    let mut s = comment_block(prov, "C99 source");
-    let _ = writeln!(s, "#include \"{p}.h\"\n\n#include <math.h>\n");
+    let mut s = comment_block(prov, "C99 source", float);
+    let _ = writeln!(
+        s,
+        "#include \"{p}.h\"\n\n#include <float.h>\n#include <math.h>\n"
+    );
     // -ffast-math (and -Ofast) let the compiler assume no NaN: the guards would vanish
     let _ = writeln!(s, "#if defined(__FAST_MATH__)\n#error \"build without -ffast-math or -Ofast: the NaN and envelope guards of this law need IEEE 754 semantics\"\n#endif\n");
+    // x87 arithmetic (FLT_EVAL_METHOD 2), or float evaluated as double (1), rounds otherwise
+    // than the interpreter
+    let _ = writeln!(s, "#if defined(FLT_EVAL_METHOD) && (FLT_EVAL_METHOD != 0)\n#error \"this law must be computed in its own type (FLT_EVAL_METHOD 0, e.g. SSE2 or a single-precision FPU), one rounding per operation\"\n#endif\n");
     let _ = writeln!(s, "static inline {ty} {p}_clamp({ty} x, {ty} lo, {ty} hi)\n{{\n    return (x < lo) ? lo : ((x > hi) ? hi : x);\n}}\n");
     let _ = writeln!(s, "{p}_gains {p}_default_gains(void)\n{{\n    {p}_gains g;");
     for g in &c.gains {
@@ -299,12 +303,8 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> (String, String)
         .gains
         .iter()
         .map(|g| {
-            format!(
-                "(g->{0} >= {1}) && (g->{0} <= {2})",
-                g.name,
-                e.lit(g.range.0),
-                e.lit(g.range.1)
-            )
+            let (lo, hi) = e.ends(g.range);
+            format!("(g->{0} >= {lo}) && (g->{0} <= {hi})", g.name)
         })
         .collect();
     for (o, st) in couts.iter().zip(strict) {

@@ -13,6 +13,7 @@
 //! saturated to its limits, with one flag bit per limit hit.
 
 use crate::ir::{clamp, Builder, IrError, Program, Slot};
+use crate::real::{ends, Real};
 use lawsmith_expr::{ExprId, Func};
 use lawsmith_spec::{Decl, Spec, SymbolKind, Target};
 use std::collections::HashMap;
@@ -134,9 +135,9 @@ pub struct Controller {
 
 /// What one control step produces.
 #[derive(Clone, Debug, PartialEq)]
-pub struct StepOutput {
+pub struct StepOutput<R = f64> {
     /// The saturated commands, in actuator order.
-    pub commands: Vec<f64>,
+    pub commands: Vec<R>,
     /// Bit `2i` set: actuator `i` hit its lower limit; bit `2i+1`: its upper limit.
     pub limits: u32,
     /// Some input was NaN or outside the proved envelope (or the gains outside their set):
@@ -194,7 +195,7 @@ pub const STATUS_GUIDANCE_REPAIRED: u32 = 1 << 4;
 pub const STATUS_MEMORY_REPAIRED: u32 = 1 << 5;
 
 /// The `status` bit of a repaired input: non-finite, or finite and outside.
-fn repaired(v: f64) -> u32 {
+fn repaired<R: Real>(v: R) -> u32 {
     if v.is_finite() {
         STATUS_OUTSIDE_ENVELOPE
     } else {
@@ -233,7 +234,7 @@ pub fn clamp_command(c: f64, (lo, hi): (f64, f64)) -> f64 {
 
 /// A value held within its limits, the flag of the limit that acts set in `bits` (bit 2k at
 /// the lower, 2k + 1 at the upper): a command's, a controller state's.
-fn hold(x: f64, (lo, hi): (f64, f64), bits: &mut u32, k: usize) -> f64 {
+fn hold<R: Real>(x: R, (lo, hi): (R, R), bits: &mut u32, k: usize) -> R {
     if x < lo {
         *bits |= 1 << (2 * k);
         lo
@@ -529,65 +530,79 @@ impl Controller {
         self.law.op_count()
     }
 
-    /// Do these gains lie in their ranges and meet the constraints?
-    pub fn gains_valid(&self, gains: &[f64]) -> bool {
+    /// Do these gains lie in their ranges and meet the constraints (computed in `R`, as the
+    /// generated `check_gains` of that type computes it)?
+    pub fn gains_valid<R: Real>(&self, gains: &[R]) -> bool {
         self.gains_valid_in(gains, &mut Workspace::default())
     }
 
-    fn gains_valid_in(&self, gains: &[f64], ws: &mut Workspace) -> bool {
-        let in_range = self
-            .gains
-            .iter()
-            .zip(gains)
-            .all(|(g, &v)| v >= g.range.0 && v <= g.range.1);
+    fn gains_valid_in<R: Real>(&self, gains: &[R], ws: &mut Workspace<R>) -> bool {
+        let in_range = self.gains.iter().zip(gains).all(|(g, &v)| {
+            let (lo, hi) = ends::<R>(g.range);
+            v >= lo && v <= hi
+        });
         if !in_range {
             return false;
         }
         let (p, strict) = &self.constraints;
-        ws.out.resize(p.outputs.len(), 0.0);
+        ws.out.resize(p.outputs.len(), R::default());
         p.run_into(gains, &mut ws.slots, &mut ws.out);
+        let zero = R::lit(0.0);
         ws.out
             .iter()
             .zip(strict)
-            .all(|(&v, &s)| if s { v < 0.0 } else { v <= 0.0 })
+            .all(|(&v, &s)| if s { v < zero } else { v <= zero })
     }
 
-    /// One control step, as the generated `compute_commands` computes it, with the
-    /// controller states (if any) at their initial values and not advanced. `inputs` follows
-    /// [`Controller::input_names`], `gains` the gains.
-    pub fn step(&self, inputs: &[f64], gains: &[f64]) -> StepOutput {
+    /// One control step, as the generated `compute_commands` of type `R` computes it, with
+    /// the controller states (if any) at their initial values and not advanced. `inputs`
+    /// follows [`Controller::input_names`], `gains` the gains.
+    pub fn step<R: Real>(&self, inputs: &[R], gains: &[R]) -> StepOutput<R> {
         self.step_in(inputs, gains, &mut Workspace::default())
     }
 
     /// [`Controller::step`] with reusable buffers.
-    pub fn step_in(&self, inputs: &[f64], gains: &[f64], ws: &mut Workspace) -> StepOutput {
+    pub fn step_in<R: Real>(
+        &self,
+        inputs: &[R],
+        gains: &[R],
+        ws: &mut Workspace<R>,
+    ) -> StepOutput<R> {
         let mut memory = self.start_memory();
-        self.run_in(inputs, gains, &mut memory, 0.0, ws)
+        self.run_in(inputs, gains, &mut memory, R::lit(0.0), ws)
     }
 
     /// The controller states at their initial values, in declaration order (as the generated
     /// `start_memory` sets them).
-    pub fn start_memory(&self) -> Vec<f64> {
-        self.memory.iter().map(|m| m.initial).collect()
+    pub fn start_memory<R: Real>(&self) -> Vec<R> {
+        self.memory.iter().map(|m| R::lit(m.initial)).collect()
     }
 
-    /// One control step, as the generated `compute_commands` computes it: the commands from
-    /// `inputs`, `gains` and the controller states `memory`, which are then advanced over
-    /// `dt` seconds by forward Euler, `x + dt·u` with `u` the update law at this step's
-    /// values, and held within their limits (a `dt` that is not positive advances nothing).
-    pub fn run(&self, inputs: &[f64], gains: &[f64], memory: &mut [f64], dt: f64) -> StepOutput {
+    /// One control step, as the generated `compute_commands` of type `R` computes it: the
+    /// commands from `inputs`, `gains` and the controller states `memory`, which are then
+    /// advanced over `dt` seconds by forward Euler, `x + dt·u` with `u` the update law at this
+    /// step's values, and held within their limits (a `dt` that is not positive advances
+    /// nothing). Every constant is the literal the emitter of type `R` prints, every range end
+    /// rounded inward ([`Float::inward`](crate::Float::inward)).
+    pub fn run<R: Real>(
+        &self,
+        inputs: &[R],
+        gains: &[R],
+        memory: &mut [R],
+        dt: R,
+    ) -> StepOutput<R> {
         self.run_in(inputs, gains, memory, dt, &mut Workspace::default())
     }
 
     /// [`Controller::run`] with reusable buffers (for simulation loops).
-    pub fn run_in(
+    pub fn run_in<R: Real>(
         &self,
-        inputs: &[f64],
-        gains: &[f64],
-        memory: &mut [f64],
-        dt: f64,
-        ws: &mut Workspace,
-    ) -> StepOutput {
+        inputs: &[R],
+        gains: &[R],
+        memory: &mut [R],
+        dt: R,
+        ws: &mut Workspace<R>,
+    ) -> StepOutput<R> {
         let mut status = 0u32;
         let ns = self.states.len();
         let (nr, nt) = (self.references.len(), self.rates.len());
@@ -601,13 +616,14 @@ impl Controller {
         raw.extend(
             self.states
                 .iter()
-                .map(|s| s.reference.map_or(s.equilibrium, |r| x[ns + r])),
+                .map(|s| s.reference.map_or(R::lit(s.equilibrium), |r| x[ns + r])),
         );
-        let mut guard = |v: &mut f64, (lo, hi): (f64, f64)| {
+        let mut guard = |v: &mut R, range: (f64, f64)| {
+            let (lo, hi) = ends::<R>(range);
             if !(*v >= lo && *v <= hi) {
                 status |= repaired(*v);
                 *v = if v.is_nan() {
-                    midpoint((lo, hi))
+                    R::lit(midpoint(range))
                 } else {
                     clamp(*v, lo, hi)
                 };
@@ -625,14 +641,14 @@ impl Controller {
         for (i, s) in self.states.iter().enumerate() {
             let base = match s.reference {
                 Some(r) => x[ns + r],
-                None => s.equilibrium,
+                None => R::lit(s.equilibrium),
             };
             let e = x[i] - raw[i];
-            let (lo, hi) = s.error;
+            let (lo, hi) = ends::<R>(s.error);
             if !(e >= lo && e <= hi) {
                 status |= repaired(e);
                 let e2 = if e.is_nan() {
-                    clamp(0.0, lo, hi)
+                    R::lit(clamp(0.0, s.error.0, s.error.1))
                 } else {
                     clamp(e, lo, hi)
                 };
@@ -644,11 +660,11 @@ impl Controller {
         ws.bases = raw;
         // a controller state outside its limits is clamped into them, a NaN restarts
         for (m, v) in self.memory.iter().zip(memory.iter_mut()) {
-            let (lo, hi) = m.limits;
+            let (lo, hi) = ends::<R>(m.limits);
             if !(*v >= lo && *v <= hi) {
                 status |= STATUS_MEMORY_REPAIRED;
                 *v = if v.is_nan() {
-                    m.initial
+                    R::lit(m.initial)
                 } else {
                     clamp(*v, lo, hi)
                 };
@@ -659,10 +675,10 @@ impl Controller {
             x.extend_from_slice(gains);
         } else {
             status |= STATUS_GAINS_REJECTED;
-            x.extend(self.gains.iter().map(|g| g.default));
+            x.extend(self.gains.iter().map(|g| R::lit(g.default)));
         }
         let mut raw = std::mem::take(&mut ws.out);
-        raw.resize(self.law.outputs.len(), 0.0);
+        raw.resize(self.law.outputs.len(), R::default());
         self.law.run_into(&x, &mut ws.slots, &mut raw);
         ws.x = x;
         let mut limits = 0u32;
@@ -671,9 +687,9 @@ impl Controller {
             let mut c = c;
             if !c.is_finite() {
                 status |= STATUS_NONFINITE_COMMAND;
-                c = a.safe;
+                c = R::lit(a.safe);
             }
-            commands.push(hold(c, a.limits, &mut limits, i));
+            commands.push(hold(c, ends(a.limits), &mut limits, i));
         }
         // the controller states over dt: forward Euler, held within their limits
         let mut memory_limits = 0u32;
@@ -685,13 +701,13 @@ impl Controller {
             .zip(rates)
             .enumerate()
         {
-            if dt > 0.0 {
+            if dt > R::lit(0.0) {
                 let mut next = *v + dt * u;
                 if !next.is_finite() {
                     status |= STATUS_MEMORY_REPAIRED;
                     next = *v;
                 }
-                *v = hold(next, m.limits, &mut memory_limits, j);
+                *v = hold(next, ends(m.limits), &mut memory_limits, j);
             }
         }
         ws.out = raw;
@@ -704,34 +720,34 @@ impl Controller {
         }
     }
 
-    /// One guidance update of every filter, as the generated `update` computes it:
-    /// `refs[j]`/`rates[j]` are filter `j`'s reference and rate, advanced over `dt` towards
-    /// `commands[j]`. A NaN command holds the reference; a reference that is not finite
-    /// restarts at rest at its command ([`Controller::start`]); gains outside their sets are
-    /// replaced by the defaults; a `dt` that is not positive changes nothing. Returns the
-    /// `status` bits of what it repaired (`GUIDANCE_REPAIRED`, `GAINS_REJECTED`).
-    pub fn update(
+    /// One guidance update of every filter, as the generated `advance_references` of type
+    /// `R` computes it: `refs[j]`/`rates[j]` are filter `j`'s reference and rate, advanced
+    /// over `dt` towards `commands[j]`. A NaN command holds the reference; a reference that
+    /// is not finite restarts at rest at its command ([`Controller::start`]); gains outside
+    /// their sets are replaced by the defaults; a `dt` that is not positive changes nothing.
+    /// Returns the `status` bits of what it repaired (`GUIDANCE_REPAIRED`, `GAINS_REJECTED`).
+    pub fn update<R: Real>(
         &self,
-        refs: &mut [f64],
-        rates: &mut [f64],
-        commands: &[f64],
-        gains: &[f64],
-        dt: f64,
+        refs: &mut [R],
+        rates: &mut [R],
+        commands: &[R],
+        gains: &[R],
+        dt: R,
     ) -> u32 {
         self.update_in(refs, rates, commands, gains, dt, &mut Workspace::default())
     }
 
     /// [`Controller::update`] with reusable buffers.
-    pub fn update_in(
+    pub fn update_in<R: Real>(
         &self,
-        refs: &mut [f64],
-        rates: &mut [f64],
-        commands: &[f64],
-        gains: &[f64],
-        dt: f64,
-        ws: &mut Workspace,
+        refs: &mut [R],
+        rates: &mut [R],
+        commands: &[R],
+        gains: &[R],
+        dt: R,
+        ws: &mut Workspace<R>,
     ) -> u32 {
-        if dt.is_nan() || dt <= 0.0 {
+        if dt.is_nan() || dt <= R::lit(0.0) {
             return 0;
         }
         let valid = self.gains_valid_in(gains, ws);
@@ -744,14 +760,14 @@ impl Controller {
             let k = if valid {
                 gains[f.gain]
             } else {
-                self.gains[f.gain].default
+                R::lit(self.gains[f.gain].default)
             };
             let c = if commands[j].is_nan() {
                 refs[j]
             } else {
                 commands[j]
             };
-            let mut out = [0.0; 2];
+            let mut out = [R::default(); 2];
             f.program
                 .run_into(&[refs[j], c, k, dt], &mut ws.slots, &mut out);
             refs[j] = out[0];
@@ -762,23 +778,25 @@ impl Controller {
 
     /// Filter `j`'s reference at rest at `command`: clamped into the reference's range, a
     /// NaN at the range's midpoint (as the emitted init and the repair in `update` set it).
-    pub fn start(&self, j: usize, command: f64) -> f64 {
+    pub fn start<R: Real>(&self, j: usize, command: R) -> R {
         let range = self.references[self.filters[j].reference].range;
         if command.is_nan() {
-            midpoint(range)
+            R::lit(midpoint(range))
         } else {
-            clamp(command, range.0, range.1)
+            let (lo, hi) = ends::<R>(range);
+            clamp(command, lo, hi)
         }
     }
 }
 
-/// Reusable buffers of [`Controller::step_in`] and [`Controller::update_in`].
+/// Reusable buffers of [`Controller::step_in`] and [`Controller::update_in`], for the float
+/// type `R`.
 #[derive(Clone, Debug, Default)]
-pub struct Workspace {
-    slots: Vec<f64>,
-    bases: Vec<f64>,
-    x: Vec<f64>,
-    out: Vec<f64>,
+pub struct Workspace<R = f64> {
+    slots: Vec<R>,
+    bases: Vec<R>,
+    x: Vec<R>,
+    out: Vec<R>,
 }
 
 /// The exact discretisation over `dt` of `ṙ = clamp(k·(c − r), lo, hi)` for a constant

@@ -9,6 +9,7 @@
 //! same operations in the same order, so emitted code and [`Program::run`] agree bit for bit
 //! (up to the platform's transcendental functions in C).
 
+use crate::real::{ends, Real};
 use lawsmith_expr::{BigRational, Dag, ExprId, Func, Node};
 use num_traits::{One, Signed, ToPrimitive, Zero};
 use std::collections::HashMap;
@@ -71,6 +72,9 @@ pub struct Program {
     /// computed for the law or output `NAME`. A change inside one law renames nothing in
     /// another.
     pub names: Vec<String>,
+    /// The constants that are a rational of the spec rounded to the nearest double (the
+    /// others are that rational exactly), in slot order.
+    pub rounded: Vec<Slot>,
 }
 
 /// Why a program cannot be built.
@@ -116,6 +120,8 @@ pub struct Builder {
     /// Each definition or output, with the number of instructions before it: the values
     /// first computed since the previous one belong to it.
     marks: Vec<(usize, String, Slot, bool)>,
+    /// The bits of every constant that is a rational rounded to a double.
+    rounded: std::collections::HashSet<u64>,
 }
 
 fn exact(c: &BigRational) -> f64 {
@@ -141,6 +147,7 @@ impl Builder {
             env: HashMap::new(),
             memo: HashMap::new(),
             marks: Vec::new(),
+            rounded: Default::default(),
         };
         for (i, name) in inputs.iter().enumerate() {
             let s = b.push(Op::Input(i), Key::Input(i));
@@ -159,9 +166,19 @@ impl Builder {
         s
     }
 
-    /// The slot of a constant.
+    /// The slot of a constant, a double meant as it is.
     pub fn constant(&mut self, v: f64) -> Slot {
         self.push(Op::Const(v), Key::Const(v.to_bits()))
+    }
+
+    /// The slot of the double nearest to the rational `c`, recorded as rounded unless it is
+    /// `c` itself (the round-off analysis counts the difference).
+    fn rational(&mut self, c: &BigRational) -> Slot {
+        let v = exact(c);
+        if BigRational::from_float(v).as_ref() != Some(c) {
+            self.rounded.insert(v.to_bits());
+        }
+        self.constant(v)
     }
 
     /// The slot of an input or of a defined name.
@@ -186,6 +203,9 @@ impl Builder {
     /// `-a`.
     pub fn neg(&mut self, a: Slot) -> Slot {
         if let Op::Const(c) = self.ops[a as usize] {
+            if self.rounded.contains(&c.to_bits()) {
+                self.rounded.insert((-c).to_bits());
+            }
             return self.constant(-c);
         }
         if let Op::Neg(x) = self.ops[a as usize] {
@@ -277,7 +297,7 @@ impl Builder {
             return Ok(s);
         }
         let s = match dag.node(e) {
-            Node::Num(c) => self.constant(exact(c)),
+            Node::Num(c) => self.rational(c),
             Node::Sym(n) => self
                 .name(n)
                 .ok_or_else(|| IrError(format!("`{n}` has no value in the generated code")))?,
@@ -291,7 +311,7 @@ impl Builder {
                 let a2 = self.expr(dag, *a)?;
                 match dag.as_num(*b) {
                     Some(c) if !c.is_zero() && reciprocal_is_exact(c) => {
-                        let r = self.constant(exact(&(BigRational::one() / c)));
+                        let r = self.rational(&(BigRational::one() / c));
                         self.mul(a2, r)
                     }
                     _ => {
@@ -426,7 +446,7 @@ impl Builder {
                 let (p, n) = if members[0].0 { (1, 0) } else { (0, 1) };
                 let vp = self.scaled_product(dag, &members[p].2, BigRational::one())?;
                 let vn = self.scaled_product(dag, &members[n].2, BigRational::one())?;
-                let c = self.constant(exact(&mag));
+                let c = self.rational(&mag);
                 if self.numbering.contains_key(&Key::Sub(vn, vp))
                     && !self.numbering.contains_key(&Key::Sub(vp, vn))
                 {
@@ -450,7 +470,7 @@ impl Builder {
                     Some(a) => self.add(a, v),
                 });
             }
-            let c = self.constant(exact(&mag));
+            let c = self.rational(&mag);
             let inner = inner.expect("members");
             parts.push((flip, self.mul(inner, c)));
         }
@@ -469,10 +489,10 @@ impl Builder {
             });
         }
         Ok(match acc {
-            None => self.constant(exact(&constant)),
+            None => self.rational(&constant),
             Some(a) if constant.is_zero() => a,
             Some(a) => {
-                let c = self.constant(exact(&constant));
+                let c = self.rational(&constant);
                 self.add(a, c)
             }
         })
@@ -508,18 +528,18 @@ impl Builder {
             });
         }
         Ok(match acc {
-            None => self.constant(exact(&coef)),
+            None => self.rational(&coef),
             Some(a) if coef.is_one() => a,
             Some(a) if (-coef.clone()).is_one() => self.neg(a),
             // a negative coefficient as the negation of the positive product: a sum
             // subtracts it, and `a*c` is shared with the terms that add it
             Some(a) if coef.is_negative() => {
-                let c = self.constant(exact(&-coef));
+                let c = self.rational(&-coef);
                 let p = self.mul(a, c);
                 self.neg(p)
             }
             Some(a) => {
-                let c = self.constant(exact(&coef));
+                let c = self.rational(&coef);
                 self.mul(a, c)
             }
         })
@@ -576,13 +596,18 @@ impl Builder {
         let names = self.names(&live);
         let mut renumber = vec![0 as Slot; self.ops.len()];
         let mut ops = Vec::new();
+        let mut rounded = Vec::new();
         for (i, op) in self.ops.into_iter().enumerate() {
             if live[i] {
                 renumber[i] = ops.len() as Slot;
+                if matches!(op, Op::Const(c) if self.rounded.contains(&c.to_bits())) {
+                    rounded.push(renumber[i]);
+                }
                 ops.push(remap(op, &renumber));
             }
         }
         Program {
+            rounded,
             names: names
                 .into_iter()
                 .zip(&live)
@@ -643,29 +668,8 @@ fn remap(op: Op, r: &[Slot]) -> Op {
     }
 }
 
-/// The functions of the generated code, in f64, as both emitters call them: `libm` in Rust;
-/// `min`/`max` follow IEEE 754 minNum/maxNum (a NaN operand loses), as `fmin`/`fmax` in C.
-pub fn call(f: Func, a: f64, b: f64) -> f64 {
-    match f {
-        Func::Sin => libm::sin(a),
-        Func::Cos => libm::cos(a),
-        Func::Tan => libm::tan(a),
-        Func::Asin => libm::asin(a),
-        Func::Acos => libm::acos(a),
-        Func::Atan => libm::atan(a),
-        Func::Atan2 => libm::atan2(a, b),
-        Func::Sqrt => libm::sqrt(a),
-        Func::Exp => libm::exp(a),
-        Func::Ln => libm::log(a),
-        Func::Abs => libm::fabs(a),
-        Func::Min => libm::fmin(a, b),
-        Func::Max => libm::fmax(a, b),
-        Func::Clamp => unreachable!("clamp is lowered to min and max"),
-    }
-}
-
 /// `a < lo ? lo : (a > hi ? hi : a)`.
-pub fn clamp(a: f64, lo: f64, hi: f64) -> f64 {
+pub fn clamp<R: Real>(a: R, lo: R, hi: R) -> R {
     if a < lo {
         lo
     } else if a > hi {
@@ -681,37 +685,43 @@ impl Program {
         self.ops.iter().map(Op::cost).sum()
     }
 
-    /// Runs the program: the reference semantics every emitter follows.
-    pub fn run(&self, inputs: &[f64], slots: &mut Vec<f64>) -> Vec<f64> {
-        let mut out = vec![0.0; self.outputs.len()];
+    /// Runs the program in the float type `R` (`f64` or `f32`): the reference semantics
+    /// every emitter of that type follows, each constant the literal it prints.
+    pub fn run<R: Real>(&self, inputs: &[R], slots: &mut Vec<R>) -> Vec<R> {
+        let mut out = vec![R::default(); self.outputs.len()];
         self.run_into(inputs, slots, &mut out);
         out
     }
 
     /// [`Program::run`] into `out` (one value per output), without allocating once `slots`
     /// has grown.
-    pub fn run_into(&self, inputs: &[f64], slots: &mut Vec<f64>, out: &mut [f64]) {
+    pub fn run_into<R: Real>(&self, inputs: &[R], slots: &mut Vec<R>, out: &mut [R]) {
         // every slot is written before it is read (operands come first)
         if slots.len() < self.ops.len() {
-            slots.resize(self.ops.len(), 0.0);
+            slots.resize(self.ops.len(), R::default());
         }
         let slots = &mut slots[..self.ops.len()];
+        let zero = R::lit(0.0);
         for (k, op) in self.ops.iter().enumerate() {
             let v = |s: &Slot| slots[*s as usize];
             let x = match op {
-                Op::Const(c) => *c,
+                Op::Const(c) => R::lit(*c),
                 Op::Input(i) => inputs[*i],
                 Op::Neg(a) => -v(a),
                 Op::Add(a, b) => v(a) + v(b),
                 Op::Sub(a, b) => v(a) - v(b),
                 Op::Mul(a, b) => v(a) * v(b),
                 Op::Div(a, b) => v(a) / v(b),
-                Op::Call1(f, a) => call(*f, v(a), 0.0),
-                Op::Call2(f, a, b) => call(*f, v(a), v(b)),
-                Op::Pow(a, b) => libm::pow(v(a), v(b)),
-                Op::Clamp(a, lo, hi) => clamp(v(a), *lo, *hi),
+                Op::Call1(f, a) => R::call(*f, v(a), zero),
+                Op::Call2(f, a, b) => R::call(*f, v(a), v(b)),
+                Op::Pow(a, b) => R::pow(v(a), v(b)),
+                Op::Clamp(a, lo, hi) => {
+                    // ends rounded inward, as the emitters print them
+                    let (lo, hi) = ends::<R>((*lo, *hi));
+                    clamp(v(a), lo, hi)
+                }
                 Op::Select(c, a, b) => {
-                    if v(c) >= 0.0 {
+                    if v(c) >= zero {
                         v(a)
                     } else {
                         v(b)

@@ -28,6 +28,7 @@ mod c;
 mod controller;
 mod header;
 mod ir;
+mod real;
 mod rust;
 
 pub use controller::{
@@ -36,6 +37,7 @@ pub use controller::{
 };
 pub use header::{float_literal, Provenance, MARKER};
 pub use ir::{Builder, IrError, Op, Program, Slot};
+pub use real::Real;
 
 /// The floating-point type of the generated code.
 #[derive(Copy, Clone, Debug, PartialEq, Eq)]

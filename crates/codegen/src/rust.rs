@@ -122,7 +122,7 @@ impl Emit {
                     quote!(libm::#f(#a, #b))
                 }
                 Op::Clamp(a, lo, hi) => {
-                    let (a, lo, hi) = (name(*a), self.lit(*lo), self.lit(*hi));
+                    let (a, (lo, hi)) = (name(*a), self.ends((*lo, *hi)));
                     quote!(clamp_to(#a, #lo, #hi))
                 }
                 Op::Select(c, a, b) => {
@@ -294,7 +294,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
         .iter()
         .map(|g| {
             let f = field(&g.name);
-            let (lo, hi) = (e.lit(g.range.0), e.lit(g.range.1));
+            let (lo, hi) = e.ends(g.range);
             quote!(g.#f >= #lo && g.#f <= #hi)
         })
         .collect();
@@ -775,7 +775,7 @@ pub fn emit(c: &Controller, prov: &Provenance, float: Float) -> Result<String, S
         syn::parse2(file).map_err(|err| format!("emitted Rust does not parse: {err}"))?;
     let body = prettyplease::unparse(&parsed);
     let mut out = String::new();
-    for l in prov.lines("Rust (no_std-friendly: core and the `libm` crate)") {
+    for l in prov.lines("Rust (no_std-friendly: core and the `libm` crate)", float) {
         if l.is_empty() {
             out.push_str("//\n");
         } else {

@@ -4,7 +4,7 @@
 use lawsmith_codegen::{generate, Controller, Float, Lang, Provenance};
 use lawsmith_verify::{check, sha256_hex, Settings};
 
-fn emit(path: &std::path::Path) -> Vec<(String, String)> {
+fn emit(path: &std::path::Path, float: Float) -> Vec<(String, String)> {
     let bytes = std::fs::read(path).unwrap();
     let mut spec = lawsmith_spec::load(std::str::from_utf8(&bytes).unwrap()).unwrap();
     let (report, _) = check(&mut spec, &Settings::default(), &|_, _, _| {}).unwrap();
@@ -17,13 +17,13 @@ fn emit(path: &std::path::Path) -> Vec<(String, String)> {
         verdict: report.verdict.name().into(),
         figures: lawsmith_verify::report::proof_figures(&report, &"0".repeat(64)),
     };
-    generate(&c, &prov, Lang::All, Float::F64).unwrap()
+    generate(&c, &prov, Lang::All, float).unwrap()
 }
 
 #[test]
 fn emitted_code_of_every_spec_is_locked() {
     insta::glob!("../../../specs", "*.yaml", |path| {
-        let files = emit(path);
+        let files = emit(path, Float::F64);
         assert_eq!(files.len(), 3);
         for (name, text) in &files {
             insta::assert_snapshot!(name.clone(), text);
@@ -32,11 +32,22 @@ fn emitted_code_of_every_spec_is_locked() {
 }
 
 #[test]
+fn single_precision_code_of_every_spec_is_locked() {
+    insta::glob!("../../../specs", "*.yaml", |path| {
+        let files = emit(path, Float::F32);
+        assert_eq!(files.len(), 3);
+        for (name, text) in &files {
+            insta::assert_snapshot!(format!("f32_{name}"), text);
+        }
+    });
+}
+
+#[test]
 fn two_emits_give_the_same_bytes() {
     let path =
         std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../../specs/energy_pitch.yaml");
-    let a = emit(&path);
-    let b = emit(&path);
+    let a = emit(&path, Float::F64);
+    let b = emit(&path, Float::F64);
     assert_eq!(a, b);
 }
 
