@@ -68,6 +68,17 @@ fn every_benchmark_script_runs_to_its_figures() {
         "{out}"
     );
     covered.push("derive_vs_sympy.py");
+    // the round-off bench, in the same target directory as the derive bench's
+    let out = script(
+        "roundoff_vs_published.py",
+        &["--samples", "50", "--leaves", "200"],
+        &[("CARGO_TARGET_DIR", &target)],
+    );
+    assert!(
+        out.contains("predatorPrey") && out.contains("worst ratio to the best published bound"),
+        "{out}"
+    );
+    covered.push("roundoff_vs_published.py");
     // and nothing under bench/ is left out
     for e in std::fs::read_dir(root().join("bench")).unwrap() {
         let name = e.unwrap().file_name().to_string_lossy().to_string();

@@ -45,6 +45,7 @@ mod prepare;
 mod problem;
 mod rates;
 pub mod report;
+mod roundoff;
 mod sample;
 mod search;
 mod settings;
@@ -64,6 +65,7 @@ pub use prepare::{prepare, Prepared};
 pub use rates::{
     rate_limits, ProvedRate, RateLimits, RatesOutcome, SaturatedRegion, RATE_STEPS, SATURATED_STEPS,
 };
+pub use roundoff::{law_roundoff, roundoff, InputMap, RoundoffBound, LIB_ULPS};
 pub use sample::{falsify, Sequence};
 pub use search::search;
 pub use settings::{BoundSettings, Budget, Settings};
