@@ -6,7 +6,7 @@ use crate::airframe::{Airframe, Controls, State, Wind};
 use crate::atmosphere::{at_altitude, G0};
 use crate::linear::Trim;
 use crate::pilots::{Measured, Pilot, References};
-use crate::scenario::Scenario;
+use crate::scenario::{Arithmetic, Scenario};
 use crate::turbulence::{w20_of, Dryden, Noise};
 use lawsmith_codegen::Controller;
 use std::collections::BTreeMap;
@@ -222,7 +222,25 @@ pub fn fly(
         if let Some(i) = fv {
             commands[i] = va_cmd;
         }
-        law.update_in(&mut refs, &mut rates, &commands, gains, dtc, &mut ws);
+        match scenario.arithmetic {
+            Arithmetic::Double => {
+                law.update_in(&mut refs, &mut rates, &commands, gains, dtc, &mut ws);
+            }
+            Arithmetic::Single => {
+                // the filters advance in f32 too, as the f32 code's do
+                let single = |v: &[f64]| v.iter().map(|&x| x as f32).collect::<Vec<f32>>();
+                let (mut r, mut q) = (single(&refs), single(&rates));
+                law.update(
+                    &mut r,
+                    &mut q,
+                    &single(&commands),
+                    &single(gains),
+                    dtc as f32,
+                );
+                refs = r.iter().map(|&x| f64::from(x)).collect();
+                rates = q.iter().map(|&x| f64::from(x)).collect();
+            }
+        }
         // density over the control step (it changes by parts per million in 20 ms)
         let rho = air.density;
         for _ in 0..n_sub {

@@ -135,6 +135,16 @@ pub struct EnergyPilot {
     inputs: Vec<f64>,
     memory_before: Vec<f64>,
     last: Option<lawsmith_codegen::StepOutput>,
+    /// In single precision: the law's state and buffers in f32 (the f64 ones mirror them).
+    single: Option<Single>,
+}
+
+/// The energy law computing in f32, as its f32 code does.
+struct Single {
+    memory: Vec<f32>,
+    gains: Vec<f32>,
+    inputs: Vec<f32>,
+    ws: lawsmith_codegen::Workspace<f32>,
 }
 
 /// The spec names the energy pilot reads, in the order of its slots.
@@ -191,7 +201,27 @@ impl EnergyPilot {
             inputs: Vec::new(),
             memory_before: Vec::new(),
             last: None,
+            single: None,
         })
+    }
+
+    /// The pilot computing its law in single precision, as the f32 code does: inputs,
+    /// gains and controller states rounded to f32, every operation in f32.
+    pub fn in_single_precision(mut self) -> EnergyPilot {
+        let single = |v: &[f64]| v.iter().map(|&x| x as f32).collect::<Vec<f32>>();
+        self.single = Some(Single {
+            memory: self.law.start_memory(),
+            gains: single(&self.gains),
+            inputs: Vec::new(),
+            ws: lawsmith_codegen::Workspace::default(),
+        });
+        self.memory = self
+            .law
+            .start_memory::<f32>()
+            .iter()
+            .map(|&x| f64::from(x))
+            .collect();
+        self
     }
 
     /// The law's inputs of the last step, in the spec's input order.
@@ -246,13 +276,31 @@ impl Pilot for EnergyPilot {
         self.inputs.clear();
         self.inputs.extend(self.slots.iter().map(|&k| values[k]));
         self.memory_before.clone_from(&self.memory);
-        let out = self.law.run_in(
-            &self.inputs,
-            &self.gains,
-            &mut self.memory,
-            dt,
-            &mut self.ws,
-        );
+        let out = match &mut self.single {
+            None => self.law.run_in(
+                &self.inputs,
+                &self.gains,
+                &mut self.memory,
+                dt,
+                &mut self.ws,
+            ),
+            Some(f) => {
+                f.inputs.clear();
+                f.inputs.extend(self.inputs.iter().map(|&x| x as f32));
+                let o = self
+                    .law
+                    .run_in(&f.inputs, &f.gains, &mut f.memory, dt as f32, &mut f.ws);
+                self.memory.clear();
+                self.memory.extend(f.memory.iter().map(|&x| f64::from(x)));
+                lawsmith_codegen::StepOutput {
+                    commands: o.commands.iter().map(|&x| f64::from(x)).collect(),
+                    limits: o.limits,
+                    domain: o.domain,
+                    status: o.status,
+                    memory_limits: o.memory_limits,
+                }
+            }
+        };
         let theta_cmd = out.commands[self.pitch_out];
         let thrust = out.commands[self.thrust_out];
         let per_throttle = self.estimates.thrust * self.model.thrust(1.0, m.va);

@@ -4,6 +4,7 @@ use crate::airframe::Airframe;
 use crate::fly::{fly, Flight, Perturbation};
 use crate::linear::{trim, Trim};
 use crate::pilots::{EnergyPilot, LqrPilot, PidPilot, PitchLoop};
+use crate::scenario::Arithmetic;
 use crate::scenario::{Estimates, Scenario};
 use lawsmith_codegen::Controller;
 
@@ -264,7 +265,7 @@ impl Setup {
             model_trim.controls.elevator,
             self.model.elevator_limit,
         );
-        EnergyPilot::new(
+        let pilot = EnergyPilot::new(
             name,
             drag_error_state,
             law.clone(),
@@ -272,7 +273,11 @@ impl Setup {
             self.model.clone(),
             v.estimates,
             pitch,
-        )
+        )?;
+        Ok(match self.scenario.arithmetic {
+            Arithmetic::Double => pilot,
+            Arithmetic::Single => pilot.in_single_precision(),
+        })
     }
 
     /// Flies one controller.

@@ -394,6 +394,21 @@ pub struct Scenario {
     /// Monte Carlo dispersions.
     #[serde(default)]
     pub dispersions: Dispersions,
+    /// The arithmetic the energy law (and its guidance filters) computes in: `double`, or
+    /// `single` as the f32 code computes it (bit for bit).
+    #[serde(default)]
+    pub arithmetic: Arithmetic,
+}
+
+/// The float type the flown law computes in.
+#[derive(Clone, Copy, Debug, Default, Deserialize, JsonSchema, PartialEq, Eq)]
+#[serde(rename_all = "lowercase")]
+pub enum Arithmetic {
+    /// IEEE 754 binary64: the f64 code.
+    #[default]
+    Double,
+    /// IEEE 754 binary32: the f32 code.
+    Single,
 }
 
 fn default_seed() -> u64 {

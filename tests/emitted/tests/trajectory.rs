@@ -122,3 +122,70 @@ fn the_simulated_energy_law_is_the_emitted_rust_bit_for_bit() {
     );
     println!("{total} control steps of simulated flight ({with_memory} with controller states): the interpreter equals the emitted Rust bit for bit");
 }
+
+#[test]
+fn a_flight_in_single_precision_is_the_emitted_f32_rust_bit_for_bit() {
+    // the combined scenario (climb, speed change, gusts) with the law in f32: every step the
+    // simulation ran equals the committed f32 Rust given the same inputs (as f32); and the
+    // flight stays within millimetres of the double-precision one
+    let mut total = 0;
+    for file in ["combined.yaml", "drag_mismatch.yaml"] {
+        let text = std::fs::read_to_string(root().join("specs/scenarios").join(file)).unwrap();
+        let spec_of = |path: &str| {
+            let text = std::fs::read_to_string(root().join("specs/scenarios").join(path)).unwrap();
+            lawsmith_spec::load(&text).unwrap()
+        };
+        let double = Scenario::parse(&text).unwrap();
+        let mut single = double.clone();
+        single.arithmetic = lawsmith_sim::scenario::Arithmetic::Single;
+        let spec = spec_of(&double.spec);
+        let compared: Vec<lawsmith_spec::Spec> =
+            double.compare.iter().map(|c| spec_of(c)).collect();
+        let refs: Vec<&lawsmith_spec::Spec> = compared.iter().collect();
+        let s64 = Setup::new(double, &spec).unwrap().comparing(&refs).unwrap();
+        let s32 = Setup::new(single, &spec).unwrap().comparing(&refs).unwrap();
+        let v = s32.nominal();
+        for pilot in s32.pilots() {
+            let Some(p) = s32.law_pilot_named(&pilot, &v) else {
+                continue;
+            };
+            let mut rec = Recorder {
+                inner: p.unwrap(),
+                steps: Vec::new(),
+            };
+            let flight = s32.fly_with(&mut rec, &v).unwrap();
+            let single = |v: &[f64]| v.iter().map(|&x| x as f32).collect::<Vec<f32>>();
+            let gains = single(rec.inner.gains());
+            let name = rec.inner.law().name.clone();
+            let dt = (1.0 / s32.scenario.rates.control) as f32;
+            for st in &rec.steps {
+                let mut memory = single(&st.memory);
+                let (cmds, limits, domain, _, _) =
+                    lawsmith_emitted::step_f32(&name, &single(&st.inputs), &gains, &mut memory, dt)
+                        .expect("f32 code for the spec");
+                assert_eq!((limits, domain), (st.out.limits, st.out.domain), "{file}");
+                for (a, b) in cmds.iter().zip(&st.out.commands) {
+                    assert_eq!(f64::from(*a).to_bits(), b.to_bits(), "{file} {name} f32");
+                }
+                for (a, b) in memory.iter().zip(&st.memory_after) {
+                    assert_eq!(
+                        f64::from(*a).to_bits(),
+                        b.to_bits(),
+                        "{file} {name}: f32 states"
+                    );
+                }
+            }
+            total += rec.steps.len();
+            let other = s64.fly(&pilot, &s64.nominal()).unwrap();
+            let dh = flight
+                .samples
+                .iter()
+                .zip(&other.samples)
+                .map(|(a, b)| (a.h - b.h).abs())
+                .fold(0.0, f64::max);
+            println!("{file} {pilot}: f32 law vs f64 law, largest altitude difference {dh:.2e} m");
+            assert!(dh > 0.0 && dh < 0.05, "{file} {pilot}: {dh}");
+        }
+    }
+    println!("{total} control steps in single precision equal the emitted f32 Rust bit for bit");
+}
