@@ -45,6 +45,9 @@ pub fn load_setup(path: &Path) -> Result<(Setup, Spec), u8> {
             EXIT_REFUSED
         }
     })?;
+    for m in &setup.mismatches {
+        eprintln!("warning: {}: {m}", path.display());
+    }
     Ok((setup, loaded.spec))
 }
 

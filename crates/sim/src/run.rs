@@ -40,6 +40,38 @@ pub struct Setup {
     pub drag_error_state: Option<usize>,
     /// The laws flown beside it.
     pub compare: Vec<Compared>,
+    /// Where a spec's model and the simulated airframe disagree, in words with both values:
+    /// the proof is about the spec's model, the flight about the airframe.
+    pub mismatches: Vec<String>,
+}
+
+/// The parameters of a spec (by the demo's names) that the simulated airframe fixes, and its
+/// values of them: `mass` in kg, `g` in m/s².
+fn model_mismatches(spec: &lawsmith_spec::Spec, airframe: &Airframe) -> Vec<String> {
+    use lawsmith_spec::Decl;
+    let plant = [
+        ("mass", airframe.mass, "kg", "the airframe's mass"),
+        ("g", crate::atmosphere::G0, "m/s^2", "standard gravity"),
+    ];
+    let mut out = Vec::new();
+    for (name, value, unit, what) in plant {
+        let Some(Decl::Parameter { value: v }) = spec
+            .symbols
+            .iter()
+            .find(|s| s.name == name)
+            .map(|s| &s.decl)
+        else {
+            continue;
+        };
+        let v = v.value();
+        if (v - value).abs() > 1e-9 * value.abs() {
+            out.push(format!(
+                "spec `{}` declares {name} = {v} {unit}, but the simulated plant uses {what} {value} {unit}: the proof covers the spec's model, not this flight",
+                spec.name
+            ));
+        }
+    }
+    out
 }
 
 /// The controller state of a spec that estimates the relative error of the drag estimate
@@ -137,11 +169,13 @@ impl Setup {
                 "the spec must have states `h` and `va` for the simulation".into(),
             )
         })?;
+        let model = Airframe::default();
         Ok(Setup {
             scenario,
             law,
             gains,
-            model: Airframe::default(),
+            mismatches: model_mismatches(spec, &model),
+            model,
             drag_error_state: drag_error_state(spec),
             compare: Vec::new(),
         })
@@ -163,6 +197,7 @@ impl Setup {
                     "the compared spec `{name}` must have states `h` and `va` for the simulation"
                 ))
             })?;
+            self.mismatches.extend(model_mismatches(spec, &self.model));
             self.compare.push(Compared {
                 name,
                 gains: law.gains.iter().map(|g| g.default).collect(),

@@ -143,3 +143,23 @@ fn bad_scenarios_are_explained() {
     .unwrap_err();
     assert!(e.0.contains("line 5"), "{e}");
 }
+
+#[test]
+fn a_spec_whose_model_is_not_the_airframe_is_flown_with_a_warning() {
+    // the demo spec matches the demo airframe; a copy declaring an 18 kg aircraft does not,
+    // and the setup says so with both values (common practice: a law's model parameters are
+    // checked against the plant it is flown on)
+    assert!(setup("altitude_step_up.yaml", |_| {}).mismatches.is_empty());
+    let text = std::fs::read_to_string(root().join("specs/energy_longitudinal.yaml")).unwrap();
+    let heavy =
+        lawsmith_spec::load(&text.replace("value: 7.5, unit: kg", "value: 18, unit: kg")).unwrap();
+    let sc_text =
+        std::fs::read_to_string(root().join("specs/scenarios/altitude_step_up.yaml")).unwrap();
+    let s = Setup::new(Scenario::parse(&sc_text).unwrap(), &heavy).unwrap();
+    assert_eq!(s.mismatches.len(), 1, "{:?}", s.mismatches);
+    assert!(
+        s.mismatches[0].contains("mass = 18 kg") && s.mismatches[0].contains("7.5 kg"),
+        "{}",
+        s.mismatches[0]
+    );
+}
