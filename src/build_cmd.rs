@@ -46,6 +46,7 @@ pub fn build_cmd(
     let mut follows: Vec<String> = Vec::new();
     // the guidance rates that keep every command within its limits, per spec with guidance
     let mut rate_notes: Vec<String> = Vec::new();
+    let mut roundoff_notes: Vec<String> = Vec::new();
     let mut md = String::from("# lawsmith report\n\nWritten by `lawsmith build`. The airframe and the scenarios are the invented demo\nairframe and scenarios of lawsmith's examples, not a real aircraft.\n\n## Specs\n\n| spec | claim | verdict | boxes | worst sampled margin | ops/step | saturation (verdict over the envelope; share of sampled points beyond the limits) | independent checker |\n|---|---|---|---:|---:|---:|---|---|\n");
     let mut code = 0u8;
     // proved ultimate bounds, by spec file, for the scenarios' cross-checks
@@ -120,6 +121,9 @@ pub fn build_cmd(
                 {
                     bounds.insert(p, b.clone());
                 }
+                if let Some(line) = lawsmith_verify::report::roundoff_line(&e.report) {
+                    roundoff_notes.push(format!("- **{name}**: {line}"));
+                }
                 if e.report.verdict == Verdict::Proven && e.report.bound.is_none() {
                     if let Some(note) = guidance_rates(spec, settings, &progress) {
                         rate_notes.push(format!("- **{name}**: {note}"));
@@ -190,6 +194,13 @@ pub fn build_cmd(
     if !rate_notes.is_empty() {
         md.push_str("\nGuidance rates that keep every command within its limits (`lawsmith check SPEC --rates --within …`, with each error within a fiftieth of its proved box; a proof over the sublevel set of V inside those errors, which no trajectory leaves, so the law as flown is the law proved there):\n\n");
         for n in &rate_notes {
+            md.push_str(n);
+            md.push('\n');
+        }
+    }
+    if !roundoff_notes.is_empty() {
+        md.push_str("\nRound-off of the generated code, |computed − exact| for each command as sent and each update law, proved over every input the code accepts without its domain flag (a forward error analysis in the standard model of IEEE 754 arithmetic; in the certificate, re-checked by `recheck` and by the independent checker):\n\n");
+        for n in &roundoff_notes {
             md.push_str(n);
             md.push('\n');
         }

@@ -1,12 +1,12 @@
 //! Runs the independent checker (`tools/certcheck/`, Python) on a certificate, for
 //! `lawsmith build`'s report. Its sources are embedded in the binary and written to a
 //! temporary directory, so the report does not depend on where `build` runs; it needs
-//! `python3` with SymPy, mpmath and PyYAML (README), and says so when they are missing.
+//! `python3` with SymPy, mpmath, numpy and PyYAML (README), and says so when they are missing.
 
 use std::path::Path;
 use std::process::Command;
 
-const SOURCES: [(&str, &str); 4] = [
+const SOURCES: [(&str, &str); 5] = [
     (
         "certcheck.py",
         include_str!("../tools/certcheck/certcheck.py"),
@@ -14,6 +14,10 @@ const SOURCES: [(&str, &str); 4] = [
     ("formula.py", include_str!("../tools/certcheck/formula.py")),
     ("iv.py", include_str!("../tools/certcheck/iv.py")),
     ("model.py", include_str!("../tools/certcheck/model.py")),
+    (
+        "roundoff.py",
+        include_str!("../tools/certcheck/roundoff.py"),
+    ),
 ];
 
 /// What the independent checker said of one certificate.
@@ -44,7 +48,11 @@ impl Outcome {
 
 /// Checks `cert` (JSON text) against the spec file.
 pub fn run(cert: &str, spec: &Path) -> Outcome {
-    let dir = std::env::temp_dir().join(format!("lawsmith-certcheck-run-{}", std::process::id()));
+    // a directory of its own per run, so runs in parallel do not share one
+    static RUNS: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+    let n = RUNS.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+    let dir =
+        std::env::temp_dir().join(format!("lawsmith-certcheck-run-{}-{n}", std::process::id()));
     let written = std::fs::create_dir_all(&dir).and_then(|_| {
         for (name, text) in SOURCES {
             std::fs::write(dir.join(name), text)?;
@@ -75,7 +83,7 @@ pub fn run(cert: &str, spec: &Path) -> Outcome {
         _ => Outcome::NotRun(
             err.lines()
                 .last()
-                .unwrap_or("python3 with SymPy, mpmath and PyYAML is needed")
+                .unwrap_or("python3 with SymPy, mpmath, numpy and PyYAML is needed")
                 .to_string(),
         ),
     }

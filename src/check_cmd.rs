@@ -92,6 +92,9 @@ pub struct Limits {
     /// Set by `with_saturated`: `check --saturated`.
     #[arg(skip)]
     saturated: bool,
+    /// Set by `with_roundoff`: `check --roundoff`, `emit`, `build`.
+    #[arg(skip)]
+    roundoff: bool,
 }
 
 impl Limits {
@@ -111,6 +114,15 @@ impl Limits {
             actuators: true,
             rates: self.rates.clone(),
             saturated: self.saturated,
+            roundoff: self.roundoff,
+        }
+    }
+
+    /// These limits with the generated code's round-off bounded (`check --roundoff`).
+    pub fn with_roundoff(&self, roundoff: bool) -> Limits {
+        Limits {
+            roundoff,
+            ..self.clone()
         }
     }
 
@@ -271,10 +283,17 @@ pub fn recheck_cmd(
             return ExitCode::from(EXIT_INVALID);
         }
     };
-    let outcome = recheck(&cert, &sha256_hex(&loaded.bytes), &prepared);
+    let outcome = recheck(&cert, &sha256_hex(&loaded.bytes), &prepared).and_then(|r| {
+        let ro = lawsmith_verify::recheck_roundoff(&cert, &loaded.spec)?;
+        Ok((r, ro))
+    });
     if format == ReportFormat::Json {
         let v = match &outcome {
-            Ok(r) => json!({
+            Ok((r, ro)) => json!({
+                "roundoff": ro.as_ref().map(|(rows, leaves)| json!({
+                    "leaves": leaves,
+                    "outputs": rows.iter().map(|(n, b)| json!({"output": n, "f64": b[0], "f32": b[1]})).collect::<Vec<_>>(),
+                })),
                 "certificate": cert_path.display().to_string(),
                 "spec": spec_path.display().to_string(),
                 "accepted": true,
@@ -302,7 +321,7 @@ pub fn recheck_cmd(
         return ExitCode::from(if outcome.is_ok() { 0 } else { EXIT_FALSIFIED });
     }
     match outcome {
-        Ok(r) => {
+        Ok((r, ro)) => {
             let actuators: Vec<String> = r
                 .actuators
                 .iter()
@@ -336,6 +355,16 @@ pub fn recheck_cmd(
                 println!(
                     "saturated law re-checked: {{V <= {level}}} is a region of attraction with the commands clamped, inside it {}",
                     list.join(", ")
+                );
+            }
+            if let Some((rows, leaves)) = &ro {
+                let list: Vec<String> = rows
+                    .iter()
+                    .map(|(n, b)| format!("{n} <= {:e} (f64), <= {:e} (f32)", b[0], b[1]))
+                    .collect();
+                println!(
+                    "round-off re-checked ({leaves} leaves): {}",
+                    list.join("; ")
                 );
             }
             ExitCode::SUCCESS

@@ -113,6 +113,10 @@ enum Command {
         /// boxes each).
         #[arg(long, requires = "rates")]
         saturated: bool,
+        /// Also bound the round-off of the generated code, per command and precision (f64,
+        /// f32), over every input the code accepts (emit and build always do).
+        #[arg(long)]
+        roundoff: bool,
         #[command(flatten)]
         limits: check_cmd::Limits,
     },
@@ -380,12 +384,16 @@ fn dispatch(command: Command) -> ExitCode {
             certificate,
             rates,
             saturated,
+            roundoff,
             limits,
         } => check_cmd::check_cmd(
             &specs,
             format,
             certificate.as_deref(),
-            &limits.with_rates(&rates).with_saturated(saturated),
+            &limits
+                .with_rates(&rates)
+                .with_saturated(saturated)
+                .with_roundoff(roundoff),
         ),
         Command::Recheck {
             certificate,
@@ -443,7 +451,7 @@ fn dispatch(command: Command) -> ExitCode {
             rates,
             limits,
         } => {
-            let settings = limits.with_rates(&rates).settings();
+            let settings = limits.with_rates(&rates).with_roundoff(true).settings();
             if check {
                 return emit_cmd::check_cmd(&specs_dir, &generated, &settings, format);
             }
@@ -479,9 +487,13 @@ fn dispatch(command: Command) -> ExitCode {
             format,
             limits,
         } => match out_dir_allowed(&generated, force).and(out_dir_allowed(&report, force)) {
-            Ok(()) => {
-                build_cmd::build_cmd(&specs_dir, &generated, &report, &limits.settings(), format)
-            }
+            Ok(()) => build_cmd::build_cmd(
+                &specs_dir,
+                &generated,
+                &report,
+                &limits.with_roundoff(true).settings(),
+                format,
+            ),
             Err(c) => ExitCode::from(c),
         },
     }

@@ -637,7 +637,8 @@ fn unreadable_inputs_exit_3() {
 
 #[test]
 fn the_checker_imports_nothing_from_the_project() {
-    // only the standard library, the three general-purpose libraries and its own modules
+    // only the standard library, the general-purpose libraries (numpy comes with SciPy) and
+    // its own modules
     let allowed = [
         "argparse",
         "functools",
@@ -651,10 +652,12 @@ fn the_checker_imports_nothing_from_the_project() {
         "fractions",
         "sympy",
         "mpmath",
+        "numpy",
         "yaml",
         "formula",
         "iv",
         "model",
+        "roundoff",
     ];
     let dir = root().join("tools/certcheck");
     let mut lines = 0;
@@ -678,8 +681,9 @@ fn the_checker_imports_nothing_from_the_project() {
     }
     println!("tools/certcheck: {lines} lines");
     // aim: small enough to read (under 1,500 lines before controller states and guidance
-    // rates, which added 185, and the saturated law's region, 132 more)
-    assert!(lines < 1850, "{lines} lines");
+    // rates, which added 185, the saturated law's region, 132 more, and the round-off
+    // bounds' own analysis, 538 more)
+    assert!(lines < 2450, "{lines} lines");
     // the size the checker's README and the project's README state is the size it has
     for doc in ["tools/certcheck/README.md", "README.md"] {
         let text = std::fs::read_to_string(root().join(doc)).unwrap();
@@ -690,4 +694,77 @@ fn the_checker_imports_nothing_from_the_project() {
 
 fn sha256(bytes: &[u8]) -> String {
     lawsmith_verify::sha256_hex(bytes)
+}
+
+#[test]
+fn certificates_of_round_off_bounds_are_accepted_and_edited_ones_rejected() {
+    // the reference law's round-off in f64 and f32 (check --roundoff): both checkers accept
+    // it, and reject each edit
+    let spec = "specs/energy_longitudinal.yaml";
+    let options = ["--roundoff"];
+    let (cert, code) = certify_with(&root().join(spec), &options);
+    assert_eq!(code, 0);
+    let (c, text) = checker(&cert, &root().join(spec), "roundoff");
+    assert_eq!(c, 0, "{text}");
+    assert!(text.contains("round-off: pitch_cmd <= "), "{text}");
+    let edits: Vec<(&str, &str, Edit)> = vec![
+        (
+            "a bound cut to a third",
+            "has a round-off above the stated",
+            Box::new(|c| {
+                let b = &mut c["roundoff"]["precisions"][1]["bounds"][0]["bound"];
+                *b = json!(b.as_f64().unwrap() / 3.0);
+            }),
+        ),
+        (
+            "a split tree cut short",
+            "the split tree ends before its boxes do",
+            Box::new(|c| {
+                let t = c["roundoff"]["precisions"][0]["bounds"][1]["tree"]
+                    .as_array_mut()
+                    .unwrap();
+                t.truncate(t.len() - 2);
+            }),
+        ),
+        (
+            "a rounded constant said to stand for another rational",
+            "is not the double nearest to",
+            Box::new(|c| c["roundoff"]["rounded"][0][1] = json!("0.5")),
+        ),
+        (
+            "a gain's range narrowed in the box",
+            "box does not hold every input the code accepts",
+            Box::new(|c| {
+                let b = c["roundoff"]["precisions"][1]["box"]
+                    .as_array_mut()
+                    .unwrap();
+                let last = b.last_mut().unwrap();
+                last[1] = json!(last[1].as_f64().unwrap() * 0.5);
+            }),
+        ),
+        (
+            "an input read from another coordinate",
+            "input map is not how",
+            Box::new(|c| c["roundoff"]["precisions"][0]["input_map"][0][1] = json!([1, 8])),
+        ),
+    ];
+    // lawsmith's own re-check rejects them too
+    for (what, _, edit) in &edits {
+        let mut e = cert.clone();
+        edit(&mut e);
+        let path = scratch("roundoff-edited.json");
+        std::fs::write(&path, serde_json::to_string(&e).unwrap()).unwrap();
+        let out = Command::new(env!("CARGO_BIN_EXE_lawsmith"))
+            .args(["recheck"])
+            .arg(&path)
+            .arg(root().join(spec))
+            .output()
+            .unwrap();
+        let text = String::from_utf8_lossy(&out.stdout).to_string();
+        assert!(
+            text.contains("rejected") && text.contains("round-off"),
+            "recheck accepted {what}: {text}"
+        );
+    }
+    assert_eq!(rejects_with(spec, &options, edits), 5);
 }

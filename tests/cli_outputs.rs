@@ -81,9 +81,12 @@ fn generated_headers_name_the_certificate_that_check_writes() {
     std::fs::create_dir_all(&dir).unwrap();
     let cert = dir.join("cert.json");
     let c = cert.to_str().unwrap();
+    // the header names the command that writes it: `check --roundoff`, as emit and build
+    // bound the code's round-off
     let out = lawsmith(&[
         "check",
         "specs/energy_longitudinal.yaml",
+        "--roundoff",
         "--certificate",
         c,
     ]);

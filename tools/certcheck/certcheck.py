@@ -5,7 +5,7 @@
 
 Exit 0: accepted; 1: rejected, with the reason; 3: an input cannot be read. It shares no code
 with lawsmith: it reads the spec itself, derives what it needs with SymPy and re-evaluates
-every leaf with its own interval arithmetic. The rules it checks, R1 to R12, are in README.md
+every leaf with its own interval arithmetic. The rules it checks, R1 to R13, are in README.md
 beside this file; each function below names the rule it implements.
 """
 
@@ -26,6 +26,7 @@ import sympy as sp  # noqa: E402
 import formula  # noqa: E402
 import iv  # noqa: E402
 import model  # noqa: E402
+import roundoff  # noqa: E402
 
 VERSION = 4
 ERROR_ROLES = ("error", "controller-state error")
@@ -366,6 +367,7 @@ class Check:
             raise Unreadable(f"the spec cannot be read: {e}") from e
         self.role, self.leaves, self.jobs, self.below, self.limits = {}, 0, 1, None, []
         self.proved_rates = self.region_text = None
+        self.roundoff = []
 
     # R2 ---------------------------------------------------------------------------------
     def domain(self):
@@ -960,6 +962,10 @@ class Check:
                 raise Reject(f"no proven goal shows the {kind} condition on {u} ({source})")
         self.limits = self.actuators()
         self.proved_rates = self.rates(implied)
+        try:  # R13
+            self.roundoff = roundoff.check(self.cert, self.m)
+        except roundoff.Bad as e:
+            raise Reject(f"round-off: {e}") from e
         return implied
 
 
@@ -1002,6 +1008,7 @@ def main(argv=None):
           f"actuators: {', '.join(c.limits) or 'none'}"
           + (f"; guidance rates: {c.proved_rates}" if c.proved_rates else "")
           + (f"; region of attraction with saturation: {c.region_text}" if c.region_text else "")
+          + (f"; round-off: {'; '.join(c.roundoff)}" if c.roundoff else "")
           + ")")
     return 0
 

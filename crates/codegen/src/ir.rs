@@ -72,9 +72,9 @@ pub struct Program {
     /// computed for the law or output `NAME`. A change inside one law renames nothing in
     /// another.
     pub names: Vec<String>,
-    /// The constants that are a rational of the spec rounded to the nearest double (the
-    /// others are that rational exactly), in slot order.
-    pub rounded: Vec<Slot>,
+    /// The constants that are a rational of the spec rounded to the nearest double, with
+    /// that rational (the others are their rational exactly), in slot order.
+    pub rounded: Vec<(Slot, BigRational)>,
 }
 
 /// Why a program cannot be built.
@@ -120,8 +120,8 @@ pub struct Builder {
     /// Each definition or output, with the number of instructions before it: the values
     /// first computed since the previous one belong to it.
     marks: Vec<(usize, String, Slot, bool)>,
-    /// The bits of every constant that is a rational rounded to a double.
-    rounded: std::collections::HashSet<u64>,
+    /// The bits of every constant that is a rational rounded to a double, and the rational.
+    rounded: HashMap<u64, BigRational>,
 }
 
 fn exact(c: &BigRational) -> f64 {
@@ -176,7 +176,7 @@ impl Builder {
     fn rational(&mut self, c: &BigRational) -> Slot {
         let v = exact(c);
         if BigRational::from_float(v).as_ref() != Some(c) {
-            self.rounded.insert(v.to_bits());
+            self.rounded.entry(v.to_bits()).or_insert_with(|| c.clone());
         }
         self.constant(v)
     }
@@ -203,8 +203,9 @@ impl Builder {
     /// `-a`.
     pub fn neg(&mut self, a: Slot) -> Slot {
         if let Op::Const(c) = self.ops[a as usize] {
-            if self.rounded.contains(&c.to_bits()) {
-                self.rounded.insert((-c).to_bits());
+            if let Some(q) = self.rounded.get(&c.to_bits()) {
+                let q = -q.clone();
+                self.rounded.entry((-c).to_bits()).or_insert(q);
             }
             return self.constant(-c);
         }
@@ -600,8 +601,10 @@ impl Builder {
         for (i, op) in self.ops.into_iter().enumerate() {
             if live[i] {
                 renumber[i] = ops.len() as Slot;
-                if matches!(op, Op::Const(c) if self.rounded.contains(&c.to_bits())) {
-                    rounded.push(renumber[i]);
+                if let Op::Const(c) = op {
+                    if let Some(q) = self.rounded.get(&c.to_bits()) {
+                        rounded.push((renumber[i], q.clone()));
+                    }
                 }
                 ops.push(remap(op, &renumber));
             }

@@ -203,6 +203,9 @@ pub struct CheckReport {
     /// When asked (`Settings::rates`): the guidance rates that keep every actuator within its
     /// limits, or why they were not sought.
     pub rates: Option<Result<RateLimits, String>>,
+    /// With `settings.roundoff`: the proved round-off bounds of the generated code, or why
+    /// there is no code to bound.
+    pub roundoff: Option<Result<crate::roundoff::RoundoffReport, String>>,
 }
 
 /// A check that could not run (the spec is unusable for a proof).
@@ -406,6 +409,11 @@ pub fn check(
         }
         Ok(r)
     });
+    let roundoff = settings.roundoff.then(|| {
+        lawsmith_codegen::Controller::new(spec)
+            .map(|c| crate::roundoff::roundoff_report(&c, crate::roundoff::ROUNDOFF_LEAVES))
+            .map_err(|e| e.0)
+    });
     let report = CheckReport {
         name: spec.name.clone(),
         claim: spec.claim.clone(),
@@ -432,6 +440,7 @@ pub fn check(
             Vec::new()
         },
         rates,
+        roundoff,
     };
     Ok((report, prepared))
 }

@@ -54,8 +54,8 @@ mod settings;
 // fields (goal results, counterexamples, search reports, …) are reached through them.
 pub use bound::{BoundOutcome, BoundReport};
 pub use certificate::{
-    certificate, recheck, sha256_hex, Origin, ProvedRegion, Rechecked, Rejection,
-    CERTIFICATE_VERSION,
+    certificate, recheck, recheck_roundoff, sha256_hex, Origin, ProvedRegion, Rechecked,
+    RecheckedRoundoff, Rejection, CERTIFICATE_VERSION,
 };
 pub use check::{check, CheckError, CheckReport, GoalKind, Status, Verdict};
 pub use goal::Scratch;
@@ -65,7 +65,10 @@ pub use prepare::{prepare, Prepared};
 pub use rates::{
     rate_limits, ProvedRate, RateLimits, RatesOutcome, SaturatedRegion, RATE_STEPS, SATURATED_STEPS,
 };
-pub use roundoff::{law_roundoff, roundoff, InputMap, RoundoffBound, LIB_ULPS};
+pub use roundoff::{
+    law_domain, law_roundoff, leaf_bound, leaves_of, roundoff, roundoff_report, InputMap,
+    RoundoffBound, RoundoffReport, LIB_ULPS, ROUNDOFF_LEAVES,
+};
 pub use sample::{falsify, Sequence};
 pub use search::search;
 pub use settings::{BoundSettings, Budget, Settings};

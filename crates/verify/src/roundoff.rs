@@ -196,7 +196,7 @@ fn natural(
         let want_g = centre.is_some();
         let (value, grad) = match op {
             Op::Const(c) => {
-                let is_rounded = rounded.next_if(|&&s| s as usize == k).is_some();
+                let is_rounded = rounded.next_if(|(s, _)| *s as usize == k).is_some();
                 let half = if is_rounded {
                     f64_fmt.half_ulp(c.abs())
                 } else {
@@ -373,7 +373,7 @@ fn analyse(p: &Program, map: &InputMap, coords: &[Interval], float: Float) -> Ve
         let near = |e: f64| mag(&x.add(&spread(e)));
         let error = match op {
             Op::Const(c) => {
-                let is_rounded = rounded.next_if(|&&s| s as usize == k).is_some();
+                let is_rounded = rounded.next_if(|(s, _)| *s as usize == k).is_some();
                 // the rational written lies within half an ulp (binary64) of the double
                 let half = if is_rounded {
                     Format::of(Float::F64).half_ulp(c.abs())
@@ -402,7 +402,7 @@ fn analyse(p: &Program, map: &InputMap, coords: &[Interval], float: Float) -> Ve
                 // a product by a power of two is exact (unless it underflows)
                 let scale = [ia, ib].iter().any(|s| {
                     matches!(p.ops[**s as usize], Op::Const(c) if c != 0.0
-                        && lit(float, c) == c && !p.rounded.contains(s)
+                        && lit(float, c) == c && !p.rounded.iter().any(|(r, _)| r == *s)
                         && (c.abs().to_bits() & ((1u64 << 52) - 1)) == 0)
                 });
                 let computed = x.add(&spread(propagated));
@@ -628,16 +628,21 @@ pub struct RoundoffBound {
     pub output: String,
     /// The float type of the code.
     pub float: Float,
-    /// The bound on |computed − exact| over the whole input box (infinite: none proved).
+    /// The bound on |computed − exact| over the whole input box (infinite: none proved): the
+    /// largest leaf's, a millionth (2⁻²⁰) above it.
     pub bound: f64,
     /// Leaves of the split.
     pub boxes: usize,
+    /// The split tree in preorder: a coordinate index for a box halved at its midpoint
+    /// (`0.5·lo + 0.5·hi`), lower half first; −1 for a leaf.
+    pub tree: Vec<i32>,
 }
 
 /// A box of the branch and bound, ordered by its bound.
 struct Leaf {
     bound: f64,
     inputs: Vec<Interval>,
+    node: usize,
 }
 
 impl PartialEq for Leaf {
@@ -657,6 +662,38 @@ impl Ord for Leaf {
     }
 }
 
+/// The leaves of a split tree (preorder, as [`RoundoffBound::tree`]) over `coords`, or `None`
+/// when the tree is malformed.
+pub fn leaves_of(tree: &[i32], coords: &[Interval]) -> Option<Vec<Vec<Interval>>> {
+    let mut out = Vec::new();
+    let mut stack = vec![coords.to_vec()];
+    let mut it = tree.iter();
+    while let Some(b) = stack.pop() {
+        let &d = it.next()?;
+        if d < 0 {
+            out.push(b);
+            continue;
+        }
+        let i = d as usize;
+        let x = *b.get(i)?;
+        let mid = x.mid();
+        if !(mid > x.lo() && mid < x.hi()) {
+            return None;
+        }
+        let (mut lo, mut hi) = (b.clone(), b);
+        lo[i] = Interval::new(x.lo(), mid);
+        hi[i] = Interval::new(mid, x.hi());
+        stack.push(hi);
+        stack.push(lo);
+    }
+    it.next().is_none().then_some(out)
+}
+
+/// Output `o`'s round-off bound over one box (what each leaf of a tree claims).
+pub fn leaf_bound(p: &Program, map: &InputMap, bx: &[Interval], float: Float, o: usize) -> f64 {
+    analyse(p, map, bx, float)[o]
+}
+
 /// The round-off bound of each output of `p` in `float` over the box `coords` (the program's
 /// inputs by `map`), each output's box split up to `max_boxes` leaves: the leaf with the
 /// largest bound halved along its widest coordinate relative to the whole box, until the
@@ -672,10 +709,13 @@ pub fn roundoff(
     (0..p.outputs.len())
         .map(|o| {
             let bound_of = |b: &[Interval]| analyse(p, map, b, float)[o];
+            // each node's split: (coordinate, lower child, upper child)
+            let mut splits: Vec<Option<(usize, usize, usize)>> = vec![None];
             let mut heap = BinaryHeap::new();
             heap.push(Leaf {
                 bound: bound_of(coords),
                 inputs: coords.to_vec(),
+                node: 0,
             });
             let mut leaves = 1;
             while leaves < max_boxes.max(1) {
@@ -697,21 +737,49 @@ pub fn roundoff(
                     break;
                 }
                 let top = heap.pop().expect("peeked");
-                for half in [Interval::new(x.lo(), mid), Interval::new(mid, x.hi())] {
+                let children = (splits.len(), splits.len() + 1);
+                splits[top.node] = Some((i, children.0, children.1));
+                for (half, node) in [
+                    (Interval::new(x.lo(), mid), children.0),
+                    (Interval::new(mid, x.hi()), children.1),
+                ] {
+                    splits.push(None);
                     let mut b = top.inputs.clone();
                     b[i] = half;
                     heap.push(Leaf {
                         bound: bound_of(&b),
                         inputs: b,
+                        node,
                     });
                 }
                 leaves += 1;
             }
+            let mut tree = Vec::with_capacity(splits.len());
+            let mut stack = vec![0usize];
+            while let Some(n) = stack.pop() {
+                match splits[n] {
+                    Some((i, lo, hi)) => {
+                        tree.push(i as i32);
+                        stack.push(hi);
+                        stack.push(lo);
+                    }
+                    None => tree.push(-1),
+                }
+            }
+            // stated with a relative margin of 2^-20 (a millionth), so that a checker with
+            // arithmetic a few ulps wider than this one still confirms every leaf
+            let worst = heap.iter().map(|l| l.bound).fold(0.0, f64::max);
+            let stated = if worst > 0.0 && worst.is_finite() {
+                (worst * (1.0 + 2f64.powi(-20))).next_up()
+            } else {
+                worst
+            };
             RoundoffBound {
                 output: p.outputs[o].0.clone(),
                 float,
-                bound: heap.peek().map_or(0.0, |l| l.bound),
+                bound: stated,
                 boxes: leaves,
+                tree,
             }
         })
         .collect()
@@ -727,27 +795,35 @@ pub fn roundoff(
 /// inward). The coordinates of the box are the references, rates, signals, then each state's
 /// error, the controller states and the gains.
 pub fn law_roundoff(c: &Controller, float: Float, max_boxes: usize) -> Vec<RoundoffBound> {
+    let (law, map, coords, _) = law_domain(c, float);
+    roundoff(&law, &map, &coords, float, max_boxes)
+}
+
+/// What [`law_roundoff`] analyses: the law with each command held within its limits, how
+/// its inputs follow from the coordinates, the coordinates' box and their names.
+pub fn law_domain(c: &Controller, float: Float) -> (Program, InputMap, Vec<Interval>, Vec<String>) {
     let fmt = Format::of(float);
     let range = |r: (f64, f64)| {
         let (lo, hi) = float.inward(r);
         Interval::new(lo, hi)
     };
     let ns = c.states.len();
-    let ranged: Vec<Interval> = c
+    let ranged: Vec<&lawsmith_codegen::Ranged> = c
         .references
         .iter()
         .chain(&c.rates)
         .chain(&c.signals)
-        .map(|r| range(r.range))
         .collect();
     let nr = ranged.len();
-    let mut coords = ranged;
+    let mut names: Vec<String> = ranged.iter().map(|r| r.name.clone()).collect();
+    let mut coords: Vec<Interval> = ranged.iter().map(|r| range(r.range)).collect();
     // each state's exact error: the rounded error within the ends, so the exact one within
     // them widened by the rounding of a difference of that size
-    coords.extend(c.states.iter().map(|s| {
+    for s in &c.states {
         let e = range(s.error);
-        e.add(&spread(fmt.half_ulp(mag(&e))))
-    }));
+        coords.push(e.add(&spread(fmt.half_ulp(mag(&e)))));
+        names.push(format!("Δ{}", s.name));
+    }
     let mut map: Vec<(f64, Vec<usize>)> = c
         .states
         .iter()
@@ -761,11 +837,12 @@ pub fn law_roundoff(c: &Controller, float: Float, max_boxes: usize) -> Vec<Round
     let rest = c
         .memory
         .iter()
-        .map(|m| m.limits)
-        .chain(c.gains.iter().map(|g| g.range));
-    for r in rest {
+        .map(|m| (&m.name, m.limits))
+        .chain(c.gains.iter().map(|g| (&g.name, g.range)));
+    for (name, r) in rest {
         map.push((0.0, vec![coords.len()]));
         coords.push(range(r));
+        names.push(name.clone());
     }
     debug_assert_eq!(map.len(), ns + nr + c.memory.len() + c.gains.len());
     // each command as the code sends it: held within its limits
@@ -776,7 +853,43 @@ pub fn law_roundoff(c: &Controller, float: Float, max_boxes: usize) -> Vec<Round
         law.names.push(format!("{}_sent", a.name));
         law.outputs[k].1 = (law.ops.len() - 1) as u32;
     }
-    roundoff(&law, &InputMap(map), &coords, float, max_boxes)
+    (law, InputMap(map), coords, names)
+}
+
+/// The proved round-off bounds of a controller's law in both precisions: what `check
+/// --roundoff`, `emit` and `build` report and the certificate records.
+#[derive(Clone, Debug)]
+pub struct RoundoffReport {
+    /// The program analysed (the law, each command held within its limits).
+    pub program: Program,
+    /// The names of the box's coordinates.
+    pub coordinates: Vec<String>,
+    /// Leaves per output at most.
+    pub leaves: usize,
+    /// Per float type: the input map, the box, each output's bound.
+    pub precisions: Vec<(Float, InputMap, Vec<Interval>, Vec<RoundoffBound>)>,
+}
+
+/// Leaves per output of the round-off analysis `check --roundoff`, `emit` and `build` run.
+pub const ROUNDOFF_LEAVES: usize = 2_000;
+
+/// The round-off bounds of a controller's law in f64 and f32.
+pub fn roundoff_report(c: &Controller, leaves: usize) -> RoundoffReport {
+    let mut precisions = Vec::new();
+    let mut first = None;
+    for float in [Float::F64, Float::F32] {
+        let (law, map, coords, names) = law_domain(c, float);
+        let bounds = roundoff(&law, &map, &coords, float, leaves);
+        precisions.push((float, map, coords, bounds));
+        first.get_or_insert((law, names));
+    }
+    let (program, coordinates) = first.expect("two precisions");
+    RoundoffReport {
+        program,
+        coordinates,
+        leaves,
+        precisions,
+    }
 }
 
 #[cfg(test)]
@@ -801,13 +914,16 @@ mod tests {
         // half an ulp of [2, 4): 2^1·2^-53 (IEEE 754 binary64, round to nearest)
         let p = program("x*y", &["x", "y"]);
         let b = [Interval::new(1.0, 1.5), Interval::new(1.0, 1.5)];
-        let r = roundoff(&p, &InputMap::identity(b.len()), &b, Float::F64, 1);
-        assert_eq!(r[0].bound, 2f64.powi(-52));
+        let map = InputMap::identity(b.len());
+        assert_eq!(leaf_bound(&p, &map, &b, Float::F64, 0), 2f64.powi(-52));
         // in binary32 the same with u = 2^-24
-        let r = roundoff(&p, &InputMap::identity(b.len()), &b, Float::F32, 1);
-        assert_eq!(r[0].bound, 2f64.powi(-23));
-        // an exact operation: negation, and a sum of small integers is still rounded in
-        // the model (its bound is not zero), but its inputs carry no error
+        assert_eq!(leaf_bound(&p, &map, &b, Float::F32, 0), 2f64.powi(-23));
+        // the stated bound: the leaf's and a millionth (2^-20) more, no more
+        let r = roundoff(&p, &map, &b, Float::F64, 1);
+        assert!(
+            r[0].bound > 2f64.powi(-52) && r[0].bound <= 2f64.powi(-52) * (1.0 + 2f64.powi(-19))
+        );
+        // an exact operation: negation
         let p = program("-x", &["x"]);
         assert_eq!(
             roundoff(&p, &InputMap::identity(1), &b[..1], Float::F64, 1,)[0].bound,

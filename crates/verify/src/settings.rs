@@ -28,6 +28,9 @@ pub struct Settings {
     /// With `rates`: also prove a region of attraction of the saturated law beyond the
     /// saturation-free set (`check --saturated`).
     pub saturated: bool,
+    /// Bound the round-off of the generated code in f64 and f32 (`check --roundoff`; `emit`
+    /// and `build` always do).
+    pub roundoff: bool,
 }
 
 impl Default for Settings {
@@ -42,6 +45,7 @@ impl Default for Settings {
             actuators: true,
             rates: None,
             saturated: false,
+            roundoff: false,
         }
     }
 }

@@ -287,6 +287,54 @@ pub fn certificate(report: &CheckReport, prepared: &Prepared, origin: &Origin) -
         "goals": goals,
         "actuators": actuators,
         "rate_limits": rates,
+        "roundoff": match &report.roundoff {
+            Some(Ok(ro)) => roundoff_json(ro),
+            _ => Value::Null,
+        },
+    })
+}
+
+/// An instruction of the analysed program as the certificate writes it.
+pub(crate) fn op_json(op: &lawsmith_codegen::Op) -> Value {
+    use lawsmith_codegen::Op;
+    match op {
+        Op::Const(c) => json!(["const", num(*c)]),
+        Op::Input(i) => json!(["input", i]),
+        Op::Neg(a) => json!(["neg", a]),
+        Op::Add(a, b) => json!(["add", a, b]),
+        Op::Sub(a, b) => json!(["sub", a, b]),
+        Op::Mul(a, b) => json!(["mul", a, b]),
+        Op::Div(a, b) => json!(["div", a, b]),
+        Op::Call1(f, a) => json!(["call", f.name(), a]),
+        Op::Call2(f, a, b) => json!(["call", f.name(), a, b]),
+        Op::Pow(a, b) => json!(["pow", a, b]),
+        Op::Clamp(a, lo, hi) => json!(["clamp", a, num(*lo), num(*hi)]),
+        Op::Select(c, a, b) => json!(["select", c, a, b]),
+    }
+}
+
+/// The round-off bounds with their evidence: the program analysed (its rounded constants with
+/// the rationals they stand for), its inputs, and per precision the input map, the box and
+/// each output's bound with its split tree.
+pub(crate) fn roundoff_json(ro: &crate::roundoff::RoundoffReport) -> Value {
+    let p = &ro.program;
+    json!({
+        "method": "forward error analysis, mean-value enclosures, half an ulp of the result's binade per operation",
+        "lib_ulps": crate::roundoff::LIB_ULPS,
+        "leaves": ro.leaves,
+        "inputs": p.inputs,
+        "program": p.ops.iter().map(op_json).collect::<Vec<_>>(),
+        "rounded": p.rounded.iter().map(|(s, q)| json!([s, exact_text(q)])).collect::<Vec<_>>(),
+        "outputs": p.outputs.iter().map(|(n, s)| json!([n, s])).collect::<Vec<_>>(),
+        "coordinates": ro.coordinates,
+        "precisions": ro.precisions.iter().map(|(f, map, coords, bounds)| json!({
+            "float": match f { lawsmith_codegen::Float::F64 => "f64", lawsmith_codegen::Float::F32 => "f32" },
+            "input_map": map.0.iter().map(|(o, js)| json!([num(*o), js])).collect::<Vec<_>>(),
+            "box": coords.iter().map(|x| json!([num(x.lo()), num(x.hi())])).collect::<Vec<_>>(),
+            "bounds": bounds.iter().map(|b| json!({
+                "output": b.output, "bound": num(b.bound), "leaves": b.boxes, "tree": b.tree,
+            })).collect::<Vec<_>>(),
+        })).collect::<Vec<_>>(),
     })
 }
 
@@ -397,4 +445,6 @@ fn limits_json(ag: &crate::prepare::ActuatorGoal) -> Value {
 }
 
 mod recheck;
-pub use recheck::{recheck, ProvedRegion, Rechecked, Rejection};
+pub use recheck::{
+    recheck, recheck_roundoff, ProvedRegion, Rechecked, RecheckedRoundoff, Rejection,
+};

@@ -830,3 +830,103 @@ fn recheck_tree(
         None => Ok(boxes.len()),
     }
 }
+
+/// Each output of a certificate's round-off section with its re-checked bound in f64 and
+/// f32, and the leaves re-evaluated.
+pub type RecheckedRoundoff = (Vec<(String, [f64; 2])>, usize);
+
+/// Re-checks a certificate's round-off bounds, if it has them, against the spec: the program
+/// analysed, its inputs, the input map and the box of each precision must be what lawsmith
+/// builds from the spec (so the bounds are about the code emitted from it, over every input
+/// that code accepts); then every leaf of every output's split tree is analysed again and
+/// must stay within the stated bound.
+pub fn recheck_roundoff(
+    cert: &Value,
+    spec: &lawsmith_spec::Spec,
+) -> Result<Option<RecheckedRoundoff>, Rejection> {
+    use crate::roundoff::{law_domain, leaf_bound, leaves_of};
+    use lawsmith_codegen::Float;
+    let Some(r) = cert.get("roundoff").filter(|v| !v.is_null()) else {
+        return Ok(None);
+    };
+    let at = "round-off";
+    let bad = |what: &str| Rejection(format!("{at}: malformed ({what})"));
+    let c = lawsmith_codegen::Controller::new(spec)
+        .map_err(|e| Rejection(format!("{at}: the spec has no code to bound: {}", e.0)))?;
+    let precisions = field(r, "precisions", at)?
+        .as_array()
+        .ok_or_else(|| bad("precisions"))?;
+    if precisions.len() != 2 {
+        return reject(format!("{at}: not one section per precision (f64, f32)"));
+    }
+    let mut rows: Vec<(String, [f64; 2])> = Vec::new();
+    let mut leaves_total = 0;
+    for (k, (pj, float)) in precisions.iter().zip([Float::F64, Float::F32]).enumerate() {
+        let name = if float == Float::F64 { "f64" } else { "f32" };
+        if pj.get("float").and_then(Value::as_str) != Some(name) {
+            return reject(format!("{at}: precision {k} is not {name}"));
+        }
+        let (law, map, coords, names) = law_domain(&c, float);
+        // what the spec gives, written as the certificate writes it
+        let skeleton = super::roundoff_json(&crate::roundoff::RoundoffReport {
+            program: law.clone(),
+            coordinates: names,
+            leaves: 0,
+            precisions: vec![(float, map.clone(), coords.clone(), Vec::new())],
+        });
+        for key in ["inputs", "program", "rounded", "outputs", "coordinates"] {
+            if r.get(key) != skeleton.get(key) {
+                return reject(format!("{at}: `{key}` is not what the spec's code gives"));
+            }
+        }
+        let mine = &skeleton["precisions"][0];
+        for key in ["input_map", "box"] {
+            if pj.get(key) != mine.get(key) {
+                return reject(format!(
+                    "{at}: the {name} `{key}` is not the inputs the spec's code accepts"
+                ));
+            }
+        }
+        let bounds = field(pj, "bounds", at)?
+            .as_array()
+            .ok_or_else(|| bad("bounds"))?;
+        if bounds.len() != law.outputs.len() {
+            return reject(format!("{at}: not one bound per output"));
+        }
+        for (o, b) in bounds.iter().enumerate() {
+            let output = &law.outputs[o].0;
+            if b.get("output").and_then(Value::as_str) != Some(output.as_str()) {
+                return reject(format!("{at}: bound {o} is not of `{output}`"));
+            }
+            let stated = parse_num(field(b, "bound", at)?).ok_or_else(|| bad("bound"))?;
+            let tree: Vec<i32> = field(b, "tree", at)?
+                .as_array()
+                .ok_or_else(|| bad("tree"))?
+                .iter()
+                .map(|d| d.as_i64().map(|d| d as i32))
+                .collect::<Option<_>>()
+                .ok_or_else(|| bad("tree"))?;
+            let leaves = leaves_of(&tree, &coords).ok_or_else(|| {
+                Rejection(format!(
+                    "{at}: the split tree of `{output}` ({name}) does not cover the box"
+                ))
+            })?;
+            for leaf in &leaves {
+                let mine = leaf_bound(&law, &map, leaf, float, o);
+                if mine.is_nan() || mine > stated {
+                    return reject(format!(
+                        "{at}: a leaf of `{output}` ({name}) bounds its round-off by {mine:e}, above the stated {stated:e}"
+                    ));
+                }
+            }
+            leaves_total += leaves.len();
+            let row_name = output.strip_suffix("_sent").unwrap_or(output).to_string();
+            if k == 0 {
+                rows.push((row_name, [stated, f64::INFINITY]));
+            } else {
+                rows[o].1[1] = stated;
+            }
+        }
+    }
+    Ok(Some((rows, leaves_total)))
+}

@@ -20,6 +20,22 @@ pub fn short(x: f64) -> String {
     sig(x)
 }
 
+/// A positive upper bound to four significant digits, rounded up (never below `x`).
+pub fn sig_up(x: f64) -> String {
+    if x.is_nan() || x <= 0.0 || !x.is_finite() {
+        return plain(x);
+    }
+    let e = x.log10().floor() as i32;
+    let mut m = (x / 10f64.powi(e) * 1000.0).ceil() / 1000.0;
+    loop {
+        let text = format!("{m:.3}e{e}");
+        if text.parse::<f64>().is_ok_and(|v| v >= x) {
+            return text;
+        }
+        m += 0.001;
+    }
+}
+
 pub(crate) fn sig(x: f64) -> String {
     if x == 0.0 || !x.is_finite() {
         // negative zero (a margin of −0·…) reads as 0
@@ -277,6 +293,9 @@ pub fn text(r: &CheckReport, path: &str, timings: bool) -> String {
     if let Some(rates) = &r.rates {
         rates_text(&mut s, rates);
     }
+    if let Some(ro) = &r.roundoff {
+        roundoff_text(&mut s, ro);
+    }
     if let Some(cx) = &r.counterexample {
         let _ = writeln!(s, "\ncounterexample: `{}` fails at", cx.goal);
         for (n, v) in &cx.point {
@@ -351,8 +370,10 @@ pub fn proof_figures(r: &CheckReport, certificate_sha256: &str) -> Vec<String> {
             "proof evidence: {} boxes of branch and bound; certificate SHA-256: {certificate_sha256}",
             r.boxes
         ),
-        "(`lawsmith check SPEC --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)"
-            .to_string(),
+        format!(
+            "(`lawsmith check SPEC{} --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)",
+            if r.roundoff.is_some() { " --roundoff" } else { "" }
+        ),
     ];
     if !r.saturation.is_empty() {
         let each: Vec<String> = r
@@ -380,7 +401,105 @@ pub fn proof_figures(r: &CheckReport, certificate_sha256: &str) -> Vec<String> {
             ));
         }
     }
+    if let Some(line) = roundoff_line(r) {
+        v.push(format!(
+            "round-off proved over every input the code accepts (each command as sent, each update law): {line}"
+        ));
+    }
     v
+}
+
+/// The proved round-off bounds in one line (`pitch_cmd <= … (f64), <= … (f32); …`), each
+/// rounded up, when the report has them.
+pub fn roundoff_line(r: &CheckReport) -> Option<String> {
+    let Some(Ok(ro)) = &r.roundoff else {
+        return None;
+    };
+    Some(
+        roundoff_rows(ro)
+            .iter()
+            .map(|(name, b)| {
+                format!(
+                    "{name} <= {} (f64), <= {} (f32)",
+                    sig_up(b[0]),
+                    sig_up(b[1])
+                )
+            })
+            .collect::<Vec<_>>()
+            .join("; "),
+    )
+}
+
+/// Each output of the round-off analysis with its bound in f64 and in f32.
+fn roundoff_rows(ro: &crate::roundoff::RoundoffReport) -> Vec<(String, [f64; 2])> {
+    ro.program
+        .outputs
+        .iter()
+        .enumerate()
+        .map(|(o, (name, _))| {
+            let of = |f: lawsmith_codegen::Float| {
+                ro.precisions
+                    .iter()
+                    .find(|p| p.0 == f)
+                    .map_or(f64::INFINITY, |p| p.3[o].bound)
+            };
+            let name = name.strip_suffix("_sent").unwrap_or(name).to_string();
+            (
+                name,
+                [
+                    of(lawsmith_codegen::Float::F64),
+                    of(lawsmith_codegen::Float::F32),
+                ],
+            )
+        })
+        .collect()
+}
+
+/// The round-off section of the text report.
+fn roundoff_text(s: &mut String, ro: &Result<crate::roundoff::RoundoffReport, String>) {
+    let ro = match ro {
+        Ok(ro) => ro,
+        Err(why) => {
+            let _ = writeln!(
+                s,
+                "
+round-off: no code to bound: {why}"
+            );
+            return;
+        }
+    };
+    let _ = writeln!(
+        s,
+        "
+round-off of the generated code, |computed - exact| proved over every input it accepts \
+         (each command as sent, then each controller state's update law; {} leaves per output):",
+        ro.leaves
+    );
+    let rows = roundoff_rows(ro);
+    let width = rows.iter().map(|r| r.0.len()).max().unwrap_or(1).max(6);
+    let _ = writeln!(s, "  {:<width$}  {:>10}  {:>10}", "output", "f64", "f32");
+    for (name, b) in rows {
+        let _ = writeln!(
+            s,
+            "  {name:<width$}  {:>10}  {:>10}",
+            sig_up(b[0]),
+            sig_up(b[1])
+        );
+    }
+}
+
+/// The round-off bounds as JSON: `{"leaves", "outputs": [{"output", "f64", "f32"}]}`, or
+/// `{"error"}`.
+fn roundoff_json(ro: &Result<crate::roundoff::RoundoffReport, String>) -> Value {
+    match ro {
+        Err(why) => json!({ "error": why }),
+        Ok(ro) => json!({
+            "leaves": ro.leaves,
+            "outputs": roundoff_rows(ro).iter().map(|(name, b)| json!({
+                "output": name, "f64": b[0], "f32": b[1],
+            })).collect::<Vec<_>>(),
+        }),
+    }
 }
 
 /// The ultimate-bound section of the text report.
@@ -586,6 +705,7 @@ pub fn json(r: &CheckReport, path: &str) -> Value {
         "min_margin": r.min_margin,
         "follows": r.follows,
         "rate_limits": r.rates.as_ref().map(rates_json),
+        "roundoff": r.roundoff.as_ref().map(roundoff_json),
         "seconds": r.seconds,
         "goals": goals,
         "ultimate_bound": r.bound.as_ref().map(bound_json),
