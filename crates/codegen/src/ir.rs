@@ -683,6 +683,19 @@ pub fn clamp<R: Real>(a: R, lo: R, hi: R) -> R {
 }
 
 impl Program {
+    /// The program of one formula (the formula language) of the inputs `vars`, its one
+    /// output named `output`: what the generated code computes for it.
+    pub fn of_formula(text: &str, vars: &[&str], output: &str) -> Result<Program, IrError> {
+        let mut dag = Dag::new();
+        let e = lawsmith_expr::parse_expr(&mut dag, text)
+            .map_err(|e| IrError(format!("`{text}` does not parse: {e:?}")))?;
+        let names: Vec<String> = vars.iter().map(|s| s.to_string()).collect();
+        let mut b = Builder::new(&names);
+        let s = b.expr(&dag, e)?;
+        b.output(output, s);
+        Ok(b.finish())
+    }
+
     /// Arithmetic operations of the program (see [`Op::cost`]).
     pub fn op_count(&self) -> usize {
         self.ops.iter().map(Op::cost).sum()
@@ -742,16 +755,9 @@ impl Program {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use lawsmith_expr::parse_expr;
 
     fn build(text: &str, vars: &[&str]) -> Program {
-        let mut dag = Dag::new();
-        let e = parse_expr(&mut dag, text).unwrap();
-        let names: Vec<String> = vars.iter().map(|s| s.to_string()).collect();
-        let mut b = Builder::new(&names);
-        let s = b.expr(&dag, e).unwrap();
-        b.output("y", s);
-        b.finish()
+        Program::of_formula(text, vars, "y").unwrap()
     }
 
     #[test]

@@ -2,14 +2,13 @@
 //!
 //! Reads a JSON list of kernels on stdin, `[{"name", "expr", "vars": [[name, lo, hi]],
 //! "samples": N, "leaves": L}]`, and writes one JSON line per kernel: the formula as
-//! lawsmith's code computes it (`Builder`: constants folded exactly, like terms collected),
+//! lawsmith's code computes it (`Program::of_formula`: constants folded exactly, like terms collected),
 //! the proved binary64 bound of |computed − exact| over the box (`roundoff`, L leaves), the
 //! seconds it took, and N points of the box (a seeded sequence plus the corners) with the
 //! computed value at each, for the script to compare with an exact evaluation.
 
-use lawsmith_codegen::{Builder, Float};
+use lawsmith_codegen::{Float, Program};
 use lawsmith_expr::random::Rng;
-use lawsmith_expr::{parse_expr, Dag};
 use lawsmith_verify::{roundoff, InputMap, Interval};
 use serde_json::{json, Value};
 use std::io::Read as _;
@@ -32,16 +31,9 @@ fn main() {
                 )
             })
             .collect();
-        let mut dag = Dag::new();
-        let e = parse_expr(&mut dag, k["expr"].as_str().expect("expr"))
-            .unwrap_or_else(|err| panic!("{name}: {err:?}"));
-        let names: Vec<String> = vars.iter().map(|v| v.0.clone()).collect();
-        let mut b = Builder::new(&names);
-        let s = b
-            .expr(&dag, e)
+        let names: Vec<&str> = vars.iter().map(|v| v.0.as_str()).collect();
+        let p = Program::of_formula(k["expr"].as_str().expect("expr"), &names, name)
             .unwrap_or_else(|err| panic!("{name}: {err}"));
-        b.output(name, s);
-        let p = b.finish();
         let boxes: Vec<Interval> = vars.iter().map(|v| Interval::new(v.1, v.2)).collect();
         let leaves = k["leaves"].as_u64().unwrap_or(100_000) as usize;
         let t = std::time::Instant::now();

@@ -895,17 +895,9 @@ pub fn roundoff_report(c: &Controller, leaves: usize) -> RoundoffReport {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use lawsmith_codegen::Builder;
-    use lawsmith_expr::{parse_expr, Dag};
 
     fn program(text: &str, vars: &[&str]) -> Program {
-        let mut dag = Dag::new();
-        let e = parse_expr(&mut dag, text).unwrap();
-        let names: Vec<String> = vars.iter().map(|s| s.to_string()).collect();
-        let mut b = Builder::new(&names);
-        let s = b.expr(&dag, e).unwrap();
-        b.output("y", s);
-        b.finish()
+        Program::of_formula(text, vars, "y").unwrap()
     }
 
     #[test]

@@ -154,6 +154,26 @@ fn guidance_points(c: &Controller, rng: &mut Rng, n: usize) -> Vec<GuidancePoint
         .collect()
 }
 
+/// The interpreter's guidance update at a point: the state [reference, rate, …] after it, and
+/// the status bits.
+fn interpreted_update<R: lawsmith_codegen::Real>(
+    c: &Controller,
+    st: &[R],
+    cm: &[R],
+    g: &[R],
+    dt: R,
+) -> (Vec<R>, u32) {
+    let mut refs: Vec<R> = st.iter().step_by(2).copied().collect();
+    let mut rates: Vec<R> = st.iter().skip(1).step_by(2).copied().collect();
+    let status = c.update(&mut refs, &mut rates, cm, g, dt);
+    let state = refs
+        .iter()
+        .zip(&rates)
+        .flat_map(|(r, q)| [*r, *q])
+        .collect();
+    (state, status)
+}
+
 #[test]
 fn generated_rust_and_c_agree_with_the_interpreter() {
     let mut rng = Rng(20261202);
@@ -295,14 +315,7 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
         let mut gexpected = Vec::new();
         let mut repaired = 0;
         for (st, cm, g, dt) in &gpoints {
-            let mut refs: Vec<f64> = st.iter().step_by(2).copied().collect();
-            let mut rates: Vec<f64> = st.iter().skip(1).step_by(2).copied().collect();
-            let status = c.update(&mut refs, &mut rates, cm, g, *dt);
-            let mine: Vec<f64> = refs
-                .iter()
-                .zip(&rates)
-                .flat_map(|(r, q)| [*r, *q])
-                .collect();
+            let (mine, status) = interpreted_update(&c, st, cm, g, *dt);
             if !c.filters.is_empty() {
                 let mut s = st.clone();
                 let rust_status = lawsmith_emitted::update(name, &mut s, cm, g, *dt).unwrap();
@@ -642,14 +655,7 @@ fn f32_code_is_the_f32_interpreter_bit_for_bit() {
             .collect();
         let mut gexpected = Vec::new();
         for (st, cm, g, dt) in &gpoints {
-            let mut refs: Vec<f32> = st.iter().step_by(2).copied().collect();
-            let mut rates: Vec<f32> = st.iter().skip(1).step_by(2).copied().collect();
-            let status = c.update(&mut refs, &mut rates, cm, g, *dt);
-            let mine: Vec<f32> = refs
-                .iter()
-                .zip(&rates)
-                .flat_map(|(r, q)| [*r, *q])
-                .collect();
+            let (mine, status) = interpreted_update(&c, st, cm, g, *dt);
             if !c.filters.is_empty() {
                 let mut s = st.clone();
                 let theirs = lawsmith_emitted::update_f32(name, &mut s, cm, g, *dt).unwrap();
@@ -720,15 +726,8 @@ fn f32_code_is_the_f32_interpreter_bit_for_bit() {
         }
         let mut gexpected = Vec::new();
         for (st, cm, g, dt) in &gpoints {
-            let mut refs: Vec<SysF32> = sys(st).into_iter().step_by(2).collect();
-            let mut rates: Vec<SysF32> = sys(st).into_iter().skip(1).step_by(2).collect();
-            let status = c.update(&mut refs, &mut rates, &sys(cm), &sys(g), SysF32(*dt));
-            let mine: Vec<f32> = refs
-                .iter()
-                .zip(&rates)
-                .flat_map(|(r, q)| [r.0, q.0])
-                .collect();
-            gexpected.push((mine, status));
+            let (mine, status) = interpreted_update(&c, &sys(st), &sys(cm), &sys(g), SysF32(*dt));
+            gexpected.push((plain(&mine), status));
         }
         let per = per_case(&c);
         let na = c.actuators.len();
