@@ -382,6 +382,7 @@ fn guidance_rates(spec: &Path, settings: &Settings, progress: &Progress) -> Opti
         .collect();
     let settings = Settings {
         rates: Some(within),
+        roundoff: false,
         ..settings.clone()
     };
     let r = lawsmith_verify::check(&mut loaded.spec, &settings, &|l, b, o| {
@@ -399,8 +400,8 @@ fn guidance_rates(spec: &Path, settings: &Settings, progress: &Progress) -> Opti
                         format!(
                             "{} in [{}, {}] (declared [{}, {}])",
                             p.name,
-                            lawsmith_verify::report::short(p.proved.0),
-                            lawsmith_verify::report::short(p.proved.1),
+                            lawsmith_verify::report::sig_up(p.proved.0),
+                            lawsmith_verify::report::sig_down(p.proved.1),
                             lawsmith_verify::report::short(p.declared.0),
                             lawsmith_verify::report::short(p.declared.1)
                         )
@@ -410,7 +411,7 @@ fn guidance_rates(spec: &Path, settings: &Settings, progress: &Progress) -> Opti
                     "{} (`--within {}`, V <= {}; {} proofs, {} boxes){}",
                     each.join(", "),
                     flags.join(","),
-                    lawsmith_verify::report::short(rates.level),
+                    lawsmith_verify::report::sig_down(rates.level),
                     rates.steps,
                     rates.boxes,
                     if rates.warnings.is_empty() {

@@ -72,8 +72,13 @@ pub fn bound_table(bound: &BoundReport, c: &BoundCheck) -> (String, Value) {
         };
         let _ = writeln!(
             md,
-            "| {} − ref ({}) | [{:.3}, {:.3}] | [{:.3}, {:.3}] |",
-            b.state, b.unit, b.lower, b.upper, observed.0, observed.1
+            "| {} − ref ({}) | [{}, {}] | [{:.3}, {:.3}] |",
+            b.state,
+            b.unit,
+            lawsmith_verify::report::sig_down(b.lower),
+            lawsmith_verify::report::sig_up(b.upper),
+            observed.0,
+            observed.1
         );
         errors.insert(
             b.state.clone(),

@@ -873,6 +873,20 @@ pub struct RoundoffReport {
 /// Leaves per output of the round-off analysis `check --roundoff`, `emit` and `build` run.
 pub const ROUNDOFF_LEAVES: usize = 2_000;
 
+/// The operation of a law's program whose round-off the independent checker does not
+/// analyse (rule R13 covers arithmetic, clamps, `min`/`max` and the functions of one argument
+/// but `tan`), if there is one: such a law gets no round-off bound, rather than a bound only
+/// one checker can redo.
+pub fn unchecked_operation(p: &Program) -> Option<&'static str> {
+    p.ops.iter().find_map(|op| match op {
+        Op::Pow(..) => Some("pow"),
+        Op::Select(..) => Some("a branch"),
+        Op::Call1(Func::Tan, _) => Some("tan"),
+        Op::Call2(f, ..) if !matches!(f, Func::Min | Func::Max) => Some(f.name()),
+        _ => None,
+    })
+}
+
 /// The round-off bounds of a controller's law in f64 and f32.
 pub fn roundoff_report(c: &Controller, leaves: usize) -> RoundoffReport {
     let mut precisions = Vec::new();

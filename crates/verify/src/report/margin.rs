@@ -24,6 +24,18 @@ fn sig3(x: f64) -> String {
     }
 }
 
+/// A proved bound as [`sig3`] writes it, rounded up.
+fn bound3(x: f64) -> String {
+    let up = super::sig_up(x);
+    match up.parse::<f64>() {
+        Ok(v) if x != 0.0 && (1e-3..1e5).contains(&x.abs()) && !up.contains('e') => {
+            let d = (3 - x.abs().log10().floor() as i32).max(0) as usize;
+            format!("{v:.d$}")
+        }
+        _ => up,
+    }
+}
+
 /// The bound on `state` proved at a point of the curve.
 pub fn bound_of(p: &MarginPoint, state: &str) -> Option<f64> {
     p.bounds
@@ -106,7 +118,7 @@ pub fn text(r: &MarginReport) -> String {
             p.level.map_or("none".into(), sig3),
         ];
         for (n, _) in &st {
-            row.push(bound_of(p, n).map_or("-".into(), sig3));
+            row.push(bound_of(p, n).map_or("-".into(), bound3));
         }
         let mark = if r.largest.as_ref().is_some_and(|l| l.factor == p.factor) && !r.unbounded {
             " (largest)"

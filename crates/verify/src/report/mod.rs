@@ -20,19 +20,52 @@ pub fn short(x: f64) -> String {
     sig(x)
 }
 
-/// A positive upper bound to four significant digits, rounded up (never below `x`).
+/// An upper bound to four significant digits, rounded up (never below `x`): a proved upper
+/// bound printed is never a stronger claim than the one proved.
 pub fn sig_up(x: f64) -> String {
-    if x.is_nan() || x <= 0.0 || !x.is_finite() {
+    directed(x, true)
+}
+
+/// A lower bound to four significant digits, rounded down (never above `x`).
+pub fn sig_down(x: f64) -> String {
+    directed(x, false)
+}
+
+fn directed(x: f64, up: bool) -> String {
+    if x == 0.0 || !x.is_finite() {
         return plain(x);
     }
+    if x < 0.0 {
+        // −x rounded the other way
+        let t = directed(-x, !up);
+        return format!("-{t}");
+    }
+    // as `sig` writes it: four significant digits, plain between 1e-3 and 1e5
     let e = x.log10().floor() as i32;
-    let mut m = (x / 10f64.powi(e) * 1000.0).ceil() / 1000.0;
+    let plain_form = (1e-3..1e5).contains(&x);
+    let digits = 3 - e; // decimals of the fourth significant digit
+    let step = 10f64.powi(-digits);
+    let mut m = if up {
+        (x / step).ceil()
+    } else {
+        (x / step).floor()
+    } * step;
     loop {
-        let text = format!("{m:.3}e{e}");
-        if text.parse::<f64>().is_ok_and(|v| v >= x) {
+        let text = if plain_form {
+            let t = format!("{m:.prec$}", prec = digits.max(0) as usize);
+            if t.contains('.') {
+                t.trim_end_matches('0').trim_end_matches('.').to_string()
+            } else {
+                t
+            }
+        } else {
+            format!("{:.3}e{e}", m / 10f64.powi(e))
+        };
+        let v: f64 = text.parse().unwrap_or(f64::NAN);
+        if (up && v >= x) || (!up && v <= x) {
             return text;
         }
-        m += 0.001;
+        m += if up { step } else { -step };
     }
 }
 
@@ -346,7 +379,14 @@ pub fn claim_summary(r: &CheckReport) -> String {
             let bounds: Vec<String> = b
                 .bounds
                 .iter()
-                .map(|e| format!("|{} error| <= {} {}", e.state, sig(e.magnitude()), e.unit))
+                .map(|e| {
+                    format!(
+                        "|{} error| <= {} {}",
+                        e.state,
+                        sig_up(e.magnitude()),
+                        e.unit
+                    )
+                })
                 .collect();
             format!(
                 "ultimate_bound: once V <= {}, {} (errors bounded, not driven to zero)",
@@ -391,11 +431,18 @@ pub fn proof_figures(r: &CheckReport, certificate_sha256: &str) -> Vec<String> {
             let each: Vec<String> = rates
                 .rates
                 .iter()
-                .map(|p| format!("{} in [{}, {}]", p.name, sig(p.proved.0), sig(p.proved.1)))
+                .map(|p| {
+                    format!(
+                        "{} in [{}, {}]",
+                        p.name,
+                        sig_up(p.proved.0),
+                        sig_down(p.proved.1)
+                    )
+                })
                 .collect();
             v.push(format!(
                 "guidance rates proved to keep every command within its limits wherever V <= {} (within {}): {}",
-                sig(rates.level),
+                sig_down(rates.level),
                 within_text(rates),
                 each.join(", ")
             ));
@@ -460,18 +507,13 @@ fn roundoff_text(s: &mut String, ro: &Result<crate::roundoff::RoundoffReport, St
     let ro = match ro {
         Ok(ro) => ro,
         Err(why) => {
-            let _ = writeln!(
-                s,
-                "
-round-off: no code to bound: {why}"
-            );
+            let _ = writeln!(s, "\nround-off: not bounded: {why}");
             return;
         }
     };
     let _ = writeln!(
         s,
-        "
-round-off of the generated code, |computed - exact| proved over every input it accepts \
+        "\nround-off of the generated code, |computed - exact| proved over every input it accepts \
          (each command as sent, then each controller state's update law; {} leaves per output):",
         ro.leaves
     );
@@ -539,11 +581,11 @@ fn bound_text(s: &mut String, b: &BoundReport) {
                     s,
                     "    Δ{} in [{}, {}] {}   (|Δ{}| <= {} {})",
                     e.state,
-                    sig(e.lower),
-                    sig(e.upper),
+                    sig_down(e.lower),
+                    sig_up(e.upper),
                     e.unit,
                     e.state,
-                    sig(e.magnitude()),
+                    sig_up(e.magnitude()),
                     e.unit
                 );
             }
@@ -552,7 +594,7 @@ fn bound_text(s: &mut String, b: &BoundReport) {
     let _ = writeln!(
         s,
         "  region of attraction: V < {} (V exceeds it on every face of the error box)",
-        sig(b.attraction)
+        sig_down(b.attraction)
     );
     for (st, req, met) in &b.required {
         let _ = writeln!(
@@ -739,14 +781,14 @@ fn rates_text(s: &mut String, rates: &Result<crate::rates::RateLimits, String>) 
         s,
         "\nguidance rates (each command within its limits wherever V <= {}, a set within {} that \
          no trajectory leaves):",
-        sig(r.level),
+        sig_down(r.level),
         within_text(r)
     );
     match &r.outcome {
         RatesOutcome::Proven => {
             let width = r.rates.iter().map(|p| p.name.len()).max().unwrap_or(1);
             for p in &r.rates {
-                let proved = format!("[{}, {}]", sig(p.proved.0), sig(p.proved.1));
+                let proved = format!("[{}, {}]", sig_up(p.proved.0), sig_down(p.proved.1));
                 let _ = writeln!(
                     s,
                     "  {:<width$}  proved {:<20} declared [{}, {}] {}",
@@ -763,7 +805,7 @@ fn rates_text(s: &mut String, rates: &Result<crate::rates::RateLimits, String>) 
                  of the law as flown (saturated): no command leaves its limits there",
                 r.steps,
                 r.boxes,
-                sig(r.level)
+                sig_down(r.level)
             );
             for w in &r.warnings {
                 let _ = writeln!(s, "  warning: {w}");
@@ -820,10 +862,10 @@ fn saturated_text(s: &mut String, sat: &Result<crate::rates::SaturatedRegion, St
             "  region of attraction {{V <= {}}}: dV/dt < 0 with the commands clamped wherever \
              {} <= V <= {}, and below {} the commands are within their limits ({} proofs, {} \
              boxes); inside it, guaranteed:",
-            sig(r.level),
-            sig(r.free),
-            sig(r.level),
-            sig(r.free),
+            sig_down(r.level),
+            sig_down(r.free),
+            sig_down(r.level),
+            sig_down(r.free),
             r.steps,
             r.boxes
         );
@@ -832,8 +874,8 @@ fn saturated_text(s: &mut String, sat: &Result<crate::rates::SaturatedRegion, St
                 s,
                 "    Δ{} in [{}, {}] {}",
                 e.state,
-                sig(e.lower),
-                sig(e.upper),
+                sig_down(e.lower),
+                sig_up(e.upper),
                 e.unit
             );
         }
@@ -931,4 +973,34 @@ fn rates_json(rates: &Result<crate::rates::RateLimits, String>) -> Value {
         "reason": reason,
         "saturated": r.saturated.as_ref().map(saturated_json),
     })
+}
+
+#[cfg(test)]
+mod directed_tests {
+    use super::*;
+
+    #[test]
+    fn bounds_print_rounded_away_from_what_they_bound() {
+        // an upper bound printed is never below it, a lower bound never above it, in the
+        // digits `sig` prints
+        for x in [
+            0.12344, 0.12346, 1.0, 1234.5678, 4.970e-14, 2.3856e-5, 99999.9, 7e-4,
+        ] {
+            for v in [x, -x] {
+                let (u, d) = (sig_up(v), sig_down(v));
+                assert!(u.parse::<f64>().unwrap() >= v, "{v}: {u}");
+                assert!(d.parse::<f64>().unwrap() <= v, "{v}: {d}");
+                assert_eq!(
+                    u.contains('e'),
+                    sig(v).contains('e'),
+                    "{v}: {u} vs {}",
+                    sig(v)
+                );
+            }
+        }
+        assert_eq!(sig_up(0.12344), "0.1235");
+        assert_eq!(sig_down(0.12346), "0.1234");
+        assert_eq!(sig_up(-0.12346), "-0.1234");
+        assert_eq!(sig_up(4.9696e-14), "4.970e-14");
+    }
 }
