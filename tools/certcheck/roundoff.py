@@ -436,7 +436,8 @@ class Program:
                            and lit(float(self.ops[s][1])) == float(self.ops[s][1])
                            and np.frexp(abs(float(self.ops[s][1])))[0] == 0.5
                            for s in (a, b))
-                own = np.where(pow2 & (mig(x) >= 2.0 ** emin), 0.0, rounding(x)) if pow2 \
+                exact = (mig(x) >= 2.0 ** emin) & (mag(x) <= FORMATS[fmt][3])
+                own = np.where(pow2 & exact, 0.0, rounding(x)) if pow2 \
                     else rounding(x)
                 e = up2(p, own)
             elif kind == "div":

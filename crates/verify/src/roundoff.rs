@@ -406,7 +406,11 @@ fn analyse(p: &Program, map: &InputMap, coords: &[Interval], float: Float) -> Ve
                         && (c.abs().to_bits() & ((1u64 << 52) - 1)) == 0)
                 });
                 let computed = x.add(&spread(propagated));
-                let own = if scale && mig(&computed) >= 2f64.powi(fmt.min_exp) {
+                // (neither underflowing nor overflowing)
+                let own = if scale
+                    && mig(&computed) >= 2f64.powi(fmt.min_exp)
+                    && mag(&computed) <= fmt.max
+                {
                     0.0
                 } else {
                     rounding(&fmt, &computed)
