@@ -8,10 +8,10 @@
  * interprets it: build with -ffp-contract=off (gcc's default in its ISO modes such as
  * -std=c99, not in its GNU modes), so that no multiply-add is fused.
  * proof: PROVEN (negative_definite_in(h, va)) over the declared envelope by `lawsmith check`.
- * proof evidence: 4061 boxes of branch and bound; certificate SHA-256: 5f5ee50e11c3b44548caef7834a02cad19d1cfa7014d246e7f8b89f516e10fab
+ * proof evidence: 4061 boxes of branch and bound; certificate SHA-256: c188525c1f187232c6962c089f146b082635a54b9be63928dce6940fe4b2fa1d
  * (`lawsmith check SPEC --roundoff --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
  * saturation over the envelope (the proof assumes the unsaturated law): pitch_cmd saturates, thrust_cmd saturates
- * round-off proved over every input the code accepts (each command as sent, each update law): pitch_cmd <= 2.891e-15 (f64), <= 1.293e-6 (f32); thrust_cmd <= 7.412e-14 (f64), <= 3.710e-5 (f32); dhat <= 1.507e-14 (f64), <= 8.091e-6 (f32)
+ * round-off proved over every input the code accepts (each command as sent, each update law): pitch_cmd <= 1.915e-15 (f64), <= 8.416e-7 (f32); thrust_cmd <= 6.583e-14 (f64), <= 3.265e-5 (f32); dhat <= 1.507e-14 (f64), <= 8.091e-6 (f32)
  *
  * CAUTION: a proof covers only the declared model and envelope (the plant model,
  * ranges, error box and gain set of the spec). Outside them this code raises the

@@ -6,10 +6,10 @@
 // arithmetic: IEEE 754 double precision (binary64), each operation rounded once, as `lawsmith sim`
 // interprets it.
 // proof: PROVEN (ultimate_bound: once V <= 74501, |h error| <= 3.713 m, |va error| <= 2.665 m/s (errors bounded, not driven to zero)) over the declared envelope by `lawsmith check`.
-// proof evidence: 20451 boxes of branch and bound; certificate SHA-256: 8f0dc13e796adf810f28a49ce056e2b2c0b312cd73aa20bae980a2ba897138b8
+// proof evidence: 20451 boxes of branch and bound; certificate SHA-256: c6e1898a1c542a3a8bf68b1fe0556bab9b6eb999e38413e0bcbf3d4d87e65314
 // (`lawsmith check SPEC --roundoff --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
 // saturation over the envelope (the proof assumes the unsaturated law): pitch_cmd saturates, thrust_cmd saturates
-// round-off proved over every input the code accepts (each command as sent, each update law): pitch_cmd <= 9.161e-8 (f64), <= 0.001942 (f32); thrust_cmd <= 1.058e-13 (f64), <= 5.303e-5 (f32)
+// round-off proved over every input the code accepts (each command as sent, each update law): pitch_cmd <= 8.552e-8 (f64), <= 0.001852 (f32); thrust_cmd <= 1.058e-13 (f64), <= 5.303e-5 (f32)
 //
 // CAUTION: a proof covers only the declared model and envelope (the plant model,
 // ranges, error box and gain set of the spec). Outside them this code raises the

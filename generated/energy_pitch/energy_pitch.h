@@ -8,10 +8,10 @@
  * interprets it: build with -ffp-contract=off (gcc's default in its ISO modes such as
  * -std=c99, not in its GNU modes), so that no multiply-add is fused.
  * proof: PROVEN (negative_definite) over the declared envelope by `lawsmith check`.
- * proof evidence: 1033 boxes of branch and bound; certificate SHA-256: 3b963b192210825c47b29298b929368fcc8f491ec6c97daa2dbe7359f6c5a847
+ * proof evidence: 1033 boxes of branch and bound; certificate SHA-256: ff7cf26d71d6504d1bef8b84bc5cabc4233d0686c354085408da91a6f18fff38
  * (`lawsmith check SPEC --roundoff --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
  * saturation over the envelope (the proof assumes the unsaturated law): pitch_cmd saturates, thrust_cmd saturates
- * round-off proved over every input the code accepts (each command as sent, each update law): pitch_cmd <= 7.319e-16 (f64), <= 2.961e-7 (f32); thrust_cmd <= 4.054e-14 (f64), <= 1.925e-5 (f32)
+ * round-off proved over every input the code accepts (each command as sent, each update law): pitch_cmd <= 6.994e-16 (f64), <= 2.840e-7 (f32); thrust_cmd <= 3.755e-14 (f64), <= 1.925e-5 (f32)
  *
  * CAUTION: a proof covers only the declared model and envelope (the plant model,
  * ranges, error box and gain set of the spec). Outside them this code raises the

@@ -6,7 +6,7 @@
 // arithmetic: IEEE 754 double precision (binary64), each operation rounded once, as `lawsmith sim`
 // interprets it.
 // proof: PROVEN (negative_semidefinite) over the declared envelope by `lawsmith check`.
-// proof evidence: 3 boxes of branch and bound; certificate SHA-256: 813a0cef5b18ada463aea2d9b42deeb9715aecc3e34c2e233d66bf1831383005
+// proof evidence: 3 boxes of branch and bound; certificate SHA-256: 38162b88eb63615d55ed7485c3fc8bb21ee57460d21f1d240cc5d6e5f038ccd4
 // (`lawsmith check SPEC --roundoff --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
 // saturation over the envelope (the proof assumes the unsaturated law): torque_cmd saturation-free
 // round-off proved over every input the code accepts (each command as sent, each update law): torque_cmd <= 4.441e-16 (f64), <= 1.193e-7 (f32)

@@ -699,9 +699,10 @@ pub fn leaf_bound(p: &Program, map: &InputMap, bx: &[Interval], float: Float, o:
 }
 
 /// The round-off bound of each output of `p` in `float` over the box `coords` (the program's
-/// inputs by `map`), each output's box split up to `max_boxes` leaves: the leaf with the
-/// largest bound halved along its widest coordinate relative to the whole box, until the
-/// budget is spent or no split is left.
+/// inputs by `map`), each output's box split into `max_boxes` leaves or more (up to
+/// [`GROWTH`] times as many while the bound keeps halving): the leaf with the largest bound
+/// halved along its widest coordinate relative to the whole box, until the budget is spent
+/// or no split is left.
 pub fn roundoff(
     p: &Program,
     map: &InputMap,
@@ -722,7 +723,20 @@ pub fn roundoff(
                 node: 0,
             });
             let mut leaves = 1;
-            while leaves < max_boxes.max(1) {
+            // the budget doubles, up to GROWTH times, while the last doubling at least halved
+            // the bound (a loose leaf, e.g. asin near ±1 in a wide box, still being cut down)
+            let mut budget = max_boxes.max(1);
+            let mut before = f64::INFINITY;
+            loop {
+                if leaves >= budget {
+                    let now = heap.peek().map_or(0.0, |l: &Leaf| l.bound);
+                    if budget < max_boxes.max(1) * GROWTH && now <= 0.5 * before {
+                        before = now;
+                        budget *= 2;
+                    } else {
+                        break;
+                    }
+                }
                 let Some(top) = heap.peek() else { break };
                 if top.bound == 0.0 {
                     break;
@@ -874,8 +888,13 @@ pub struct RoundoffReport {
     pub precisions: Vec<(Float, InputMap, Vec<Interval>, Vec<RoundoffBound>)>,
 }
 
-/// Leaves per output of the round-off analysis `check --roundoff`, `emit` and `build` run.
+/// Leaves per output of the round-off analysis `check --roundoff`, `emit` and `build` run, at
+/// least (see [`GROWTH`]).
 pub const ROUNDOFF_LEAVES: usize = 2_000;
+
+/// How far [`roundoff`] may grow its leaf budget: it doubles the budget, up to this factor,
+/// as long as the last doubling halved the bound.
+pub const GROWTH: usize = 16;
 
 /// The operation of a law's program whose round-off the independent checker does not
 /// analyse (rule R13 covers arithmetic, clamps, `min`/`max` and the functions of one argument

@@ -8,10 +8,10 @@
  * interprets it: build with -ffp-contract=off (gcc's default in its ISO modes such as
  * -std=c99, not in its GNU modes), so that no multiply-add is fused.
  * proof: PROVEN (negative_definite_in(h, va)) over the declared envelope by `lawsmith check`.
- * proof evidence: 3945 boxes of branch and bound; certificate SHA-256: 01b950402e31dc7c3fdcaa90d742f70258ad9d9bd81f94786d6f911271b25054
+ * proof evidence: 3945 boxes of branch and bound; certificate SHA-256: eb6e0e566c273ec9ad66de4c7a611e9bfdae1f0271c8bb5c641ad2586973f6c5
  * (`lawsmith check SPEC --roundoff --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
  * saturation over the envelope (the proof assumes the unsaturated law): pitch_cmd saturates, thrust_cmd saturates
- * round-off proved over every input the code accepts (each command as sent, each update law): pitch_cmd <= 8.361e-8 (f64), <= 0.001748 (f32); thrust_cmd <= 7.963e-14 (f64), <= 3.993e-5 (f32); xi_t <= 7.589e-14 (f64), <= 4.075e-5 (f32); xi_b <= 4.991e-14 (f64), <= 2.637e-5 (f32)
+ * round-off proved over every input the code accepts (each command as sent, each update law): pitch_cmd <= 2.906e-15 (f64), <= 1.309e-6 (f32); thrust_cmd <= 7.963e-14 (f64), <= 3.993e-5 (f32); xi_t <= 7.589e-14 (f64), <= 4.075e-5 (f32); xi_b <= 4.991e-14 (f64), <= 2.637e-5 (f32)
  *
  * CAUTION: a proof covers only the declared model and envelope (the plant model,
  * ranges, error box and gain set of the spec). Outside them this code raises the

@@ -6,10 +6,10 @@
 // arithmetic: IEEE 754 single precision (binary32) throughout, each operation rounded once, as `lawsmith sim`
 // interprets it.
 // proof: PROVEN (negative_definite) over the declared envelope by `lawsmith check`.
-// proof evidence: 1207 boxes of branch and bound; certificate SHA-256: 8077d50154140264bc0953a910108fc92abc1274c368cb70c7ec5c90c5ba4e67
+// proof evidence: 1207 boxes of branch and bound; certificate SHA-256: 9e310be86c24b8728a34137d4c53e584c7d7b72e89630929911bd258e4d989f5
 // (`lawsmith check SPEC --roundoff --certificate FILE` writes the certificate; `lawsmith recheck` re-checks it)
 // saturation over the envelope (the proof assumes the unsaturated law): pitch_cmd saturates, thrust_cmd saturates
-// round-off proved over every input the code accepts (each command as sent, each update law): pitch_cmd <= 1.305e-15 (f64), <= 5.586e-7 (f32); thrust_cmd <= 4.970e-14 (f64), <= 2.386e-5 (f32)
+// round-off proved over every input the code accepts (each command as sent, each update law): pitch_cmd <= 1.236e-15 (f64), <= 5.232e-7 (f32); thrust_cmd <= 4.970e-14 (f64), <= 2.386e-5 (f32)
 //
 // CAUTION: a proof covers only the declared model and envelope (the plant model,
 // ranges, error box and gain set of the spec). Outside them this code raises the
