@@ -151,6 +151,20 @@ pub struct StepOutput<R = f64> {
     pub memory_limits: u32,
 }
 
+impl<R> StepOutput<R> {
+    /// The same output with each command converted (e.g. an f32 step's commands as the
+    /// doubles they are exactly).
+    pub fn map<S>(self, f: impl Fn(R) -> S) -> StepOutput<S> {
+        StepOutput {
+            commands: self.commands.into_iter().map(f).collect(),
+            limits: self.limits,
+            domain: self.domain,
+            status: self.status,
+            memory_limits: self.memory_limits,
+        }
+    }
+}
+
 /// The `status` bits, by name and meaning, in bit order: the emitters print them as
 /// constants, the interpreter sets them (`GUIDANCE_REPAIRED` and `GAINS_REJECTED` in
 /// `update`, the others in `step`).

@@ -49,6 +49,15 @@ pub enum Float {
 }
 
 impl Float {
+    /// The value the code of this type holds for the double `x`: the literal an emitter
+    /// prints for it (its nearest value of the type), as a double.
+    pub fn literal(self, x: f64) -> f64 {
+        match self {
+            Float::F64 => x,
+            Float::F32 => f64::from(x as f32),
+        }
+    }
+
     /// The ends of a declared range as this type's code compares against them: rounded
     /// inward, so every value the code accepts lies in the range (the f32 nearest to 0.2 is
     /// 2.98e-9 above it, and would accept points outside the proved box). An f64 range end

@@ -292,13 +292,7 @@ impl Pilot for EnergyPilot {
                     .run_in(&f.inputs, &f.gains, &mut f.memory, dt as f32, &mut f.ws);
                 self.memory.clear();
                 self.memory.extend(f.memory.iter().map(|&x| f64::from(x)));
-                lawsmith_codegen::StepOutput {
-                    commands: o.commands.iter().map(|&x| f64::from(x)).collect(),
-                    limits: o.limits,
-                    domain: o.domain,
-                    status: o.status,
-                    memory_limits: o.memory_limits,
-                }
+                o.map(f64::from)
             }
         };
         let theta_cmd = out.commands[self.pitch_out];

@@ -27,7 +27,7 @@
 //! of the leaf with the largest bound.
 
 use crate::interval::Interval;
-use lawsmith_codegen::{Controller, Float, Op, Program, Real};
+use lawsmith_codegen::{Controller, Float, Op, Program};
 use lawsmith_expr::{Arith, Func};
 use std::collections::BinaryHeap;
 
@@ -380,7 +380,7 @@ fn analyse(p: &Program, map: &InputMap, coords: &[Interval], float: Float) -> Ve
                 } else {
                     0.0
                 };
-                let diff = (lit(float, *c) - c).abs();
+                let diff = (float.literal(*c) - c).abs();
                 let diff = if diff == 0.0 { 0.0 } else { diff.next_up() };
                 add_up(diff, half)
             }
@@ -402,7 +402,7 @@ fn analyse(p: &Program, map: &InputMap, coords: &[Interval], float: Float) -> Ve
                 // a product by a power of two is exact (unless it underflows)
                 let scale = [ia, ib].iter().any(|s| {
                     matches!(p.ops[**s as usize], Op::Const(c) if c != 0.0
-                        && lit(float, c) == c && !p.rounded.iter().any(|(r, _)| r == *s)
+                        && float.literal(c) == c && !p.rounded.iter().any(|(r, _)| r == *s)
                         && (c.abs().to_bits() & ((1u64 << 52) - 1)) == 0)
                 });
                 let computed = x.add(&spread(propagated));
@@ -554,14 +554,6 @@ fn analyse(p: &Program, map: &InputMap, coords: &[Interval], float: Float) -> Ve
         .iter()
         .map(|(_, s)| v[*s as usize].error)
         .collect()
-}
-
-/// The literal of the double `c` in the code of type `float`, as a double.
-fn lit(float: Float, c: f64) -> f64 {
-    match float {
-        Float::F64 => c,
-        Float::F32 => <f32 as Real>::lit(c).to_f64(),
-    }
 }
 
 /// The rounding error of a product or quotient whose computed value lies in `x`: half an ulp
@@ -848,7 +840,7 @@ pub fn law_domain(c: &Controller, float: Float) -> (Program, InputMap, Vec<Inter
         .enumerate()
         .map(|(i, s)| match s.reference {
             Some(r) => (0.0, vec![r, nr + i]),
-            None => (lit(float, s.equilibrium), vec![nr + i]),
+            None => (float.literal(s.equilibrium), vec![nr + i]),
         })
         .collect();
     map.extend((0..nr).map(|j| (0.0, vec![j])));

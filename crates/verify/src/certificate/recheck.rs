@@ -920,9 +920,8 @@ pub fn recheck_roundoff(
                 }
             }
             leaves_total += leaves.len();
-            let row_name = output.strip_suffix("_sent").unwrap_or(output).to_string();
             if k == 0 {
-                rows.push((row_name, [stated, f64::INFINITY]));
+                rows.push((output.clone(), [stated, f64::INFINITY]));
             } else {
                 rows[o].1[1] = stated;
             }

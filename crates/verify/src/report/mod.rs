@@ -490,9 +490,8 @@ fn roundoff_rows(ro: &crate::roundoff::RoundoffReport) -> Vec<(String, [f64; 2])
                     .find(|p| p.0 == f)
                     .map_or(f64::INFINITY, |p| p.3[o].bound)
             };
-            let name = name.strip_suffix("_sent").unwrap_or(name).to_string();
             (
-                name,
+                name.clone(),
                 [
                     of(lawsmith_codegen::Float::F64),
                     of(lawsmith_codegen::Float::F32),
