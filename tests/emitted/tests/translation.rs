@@ -154,6 +154,39 @@ fn guidance_points(c: &Controller, rng: &mut Rng, n: usize) -> Vec<GuidancePoint
         .collect()
 }
 
+/// A case as the C harness reads it: inputs, gains, controller states, dt.
+type HarnessCase = (Vec<f64>, Vec<f64>, Vec<f64>, f64);
+
+/// What the C harness reads: the cases (inputs, gains, controller states, dt), the guidance
+/// points, then for a law with controller states the sequences (`count` of `length` steps,
+/// the cases of their steps in order).
+fn harness_input(
+    c: &Controller,
+    cases: &[HarnessCase],
+    gpoints: &[GuidancePoint],
+    (count, length): (usize, usize),
+    steps: &[(Vec<f64>, Vec<f64>)],
+) -> Vec<f64> {
+    let mut input = vec![cases.len() as f64];
+    for (x, g, m, dt) in cases {
+        input.extend(case_values(c, x, g, Some(m), *dt));
+    }
+    input.push(gpoints.len() as f64);
+    for (st, cm, g, dt) in gpoints {
+        input.extend(st);
+        input.extend(cm);
+        input.extend(g);
+        input.push(*dt);
+    }
+    if !c.memory.is_empty() {
+        input.extend([count as f64, length as f64]);
+        for (x, g) in steps {
+            input.extend(case_values(c, x, g, None, 0.02));
+        }
+    }
+    input
+}
+
 /// The interpreter's guidance update at a point: the state [reference, rate, …] after it, and
 /// the status bits.
 fn interpreted_update<R: lawsmith_codegen::Real>(
@@ -345,29 +378,11 @@ fn generated_rust_and_c_agree_with_the_interpreter() {
         );
 
         // the generated C, through each compiler
-        let mut input = vec![cases.len() as f64];
-        for case in &cases {
-            input.extend(case_values(
-                &c,
-                &case.inputs,
-                &case.gains,
-                Some(&case.memory),
-                case.dt,
-            ));
-        }
-        input.push(gpoints.len() as f64);
-        for (st, cm, g, dt) in &gpoints {
-            input.extend(st);
-            input.extend(cm);
-            input.extend(g);
-            input.push(*dt);
-        }
-        if !c.memory.is_empty() {
-            input.extend([sequences as f64, length as f64]);
-            for (x, g) in &seq_cases {
-                input.extend(case_values(&c, x, g, None, 0.02));
-            }
-        }
+        let rows: Vec<_> = cases
+            .iter()
+            .map(|k| (k.inputs.clone(), k.gains.clone(), k.memory.clone(), k.dt))
+            .collect();
+        let input = harness_input(&c, &rows, &gpoints, (sequences, length), &seq_cases);
         for cc in compilers() {
             let exe = build_c(&cc, &dir, &gen, &c, &[]);
             let out = run_c(&exe, &input);
@@ -673,29 +688,16 @@ fn f32_code_is_the_f32_interpreter_bit_for_bit() {
 
         // the C, read and written as doubles (every f32 is one)
         let wide = |v: &[f32]| v.iter().map(|&x| f64::from(x)).collect::<Vec<f64>>();
-        let mut input = vec![cases.len() as f64];
-        for (x, g, m, dt) in &cases {
-            input.extend(case_values(
-                &c,
-                &wide(x),
-                &wide(g),
-                Some(&wide(m)),
-                f64::from(*dt),
-            ));
-        }
-        input.push(gpoints.len() as f64);
-        for (st, cm, g, dt) in &gpoints {
-            input.extend(wide(st));
-            input.extend(wide(cm));
-            input.extend(wide(g));
-            input.push(f64::from(*dt));
-        }
-        if !c.memory.is_empty() {
-            input.extend([sequences as f64, length as f64]);
-            for (x, g) in &seq_cases {
-                input.extend(case_values(&c, &wide(x), &wide(g), None, 0.02));
-            }
-        }
+        let rows: Vec<_> = cases
+            .iter()
+            .map(|(x, g, m, dt)| (wide(x), wide(g), wide(m), f64::from(*dt)))
+            .collect();
+        let wide_points: Vec<GuidancePoint> = gpoints
+            .iter()
+            .map(|(st, cm, g, dt)| (wide(st), wide(cm), wide(g), f64::from(*dt)))
+            .collect();
+        let wide_steps: Vec<_> = seq_cases.iter().map(|(x, g)| (wide(x), wide(g))).collect();
+        let input = harness_input(&c, &rows, &wide_points, (sequences, length), &wide_steps);
         // what the C computes: the f32 interpreter on the C library's functions
         let sys = |v: &[f32]| v.iter().map(|&x| SysF32(x)).collect::<Vec<SysF32>>();
         let plain = |v: &[SysF32]| v.iter().map(|x| x.0).collect::<Vec<f32>>();
